@@ -1,0 +1,64 @@
+/** @file spectrum_statistics.h  Counting functions and their average over realisations. */
+#pragma once
+
+#include <cstddef>
+#include <string>
+#include <vector>
+
+namespace alloyspec
+{
+  /**
+   * Parses an energy grid: "a:h:b" (a, a+h, ..., up to b inclusive within
+   * 1e-9 h; h > 0, b ≥ a) or a comma-separated ascending list "0, 0.5, 2".
+   * Throws InputError naming @p parameter_name on a malformed grid or one with
+   * more than 1e6 points.
+   */
+  std::vector<double> parse_energy_grid(const std::string &text,
+                                        const std::string &parameter_name = "study/energies");
+
+  /**
+   * Finite-volume counting function @f$N_L(E) = \#\{\lambda_j \le E\}/|\Lambda|@f$
+   * of one realisation, on @p energies. @p eigenvalues need not be sorted.
+   */
+  std::vector<double> counting_function(const std::vector<double> &eigenvalues, double volume,
+                                        const std::vector<double> &energies);
+
+  /**
+   * Average of the counting function over realisations, with the standard
+   * error of the mean @f$s/\sqrt{n}@f$ (s the sample standard deviation with
+   * n-1 in the denominator; 0 when n < 2).
+   *
+   * Each realisation comes with the energy up to which its eigenvalue list is
+   * known to be complete (verified by an inertia count). At an energy above
+   * that bound the realisation's count is a lower bound only, so the grid point
+   * is flagged incomplete (the mean there is still the mean of the available
+   * counts, but must not be read as the IDS).
+   */
+  class IdsAccumulator
+  {
+  public:
+    struct Row
+    {
+      double      energy;
+      double      mean;
+      double      standard_error;
+      std::size_t n_realisations;
+      bool        complete;
+    };
+
+    IdsAccumulator(std::vector<double> energies, double volume);
+
+    /** Adds one realisation. */
+    void add(const std::vector<double> &eigenvalues, double complete_up_to);
+
+    std::size_t      n_realisations() const { return n_; }
+    std::vector<Row> rows() const;
+
+  private:
+    std::vector<double> energies_;
+    double              volume_;
+    std::size_t         n_ = 0;
+    std::vector<double> sum_, sum_sq_;
+    std::vector<bool>   complete_;
+  };
+} // namespace alloyspec
