@@ -22,7 +22,7 @@ namespace alloyspec
   std::vector<double> free_box_eigenvalues(const std::vector<double> &extents, Boundary bc,
                                            std::size_t count);
 
-  /** Number of free-box eigenvalues ≤ E (exact lattice-point count). */
+  /** Number of free-box eigenvalues ≤ E (exact lattice-point count); 0 for E < 0. */
   std::uint64_t free_box_count(const std::vector<double> &extents, Boundary bc, double energy);
 
   /**
@@ -31,7 +31,8 @@ namespace alloyspec
    * @f$N(E) \approx V E^{3/2}/(6\pi^2) \mp S E/(16\pi) + \ell E^{1/2}/(16\pi)@f$
    * (− Dirichlet, + Neumann); in 2D (area A, perimeter P):
    * @f$A E/(4\pi) \mp P E^{1/2}/(4\pi) + 1/4@f$; in 1D: @f$\ell E^{1/2}/\pi \mp 1/2@f$.
-   * Periodic: the leading term only.
+   * Periodic: the leading term only. An asymptotic expansion for large E;
+   * returns 0 for E < 0.
    */
   double weyl_count(const std::vector<double> &extents, Boundary bc, double energy);
 
