@@ -1,0 +1,85 @@
+/** @file eigen_solver.h  Lowest eigenpairs of K u = λ M u, verified by inertia counts. */
+#pragma once
+
+#include <cstddef>
+#include <optional>
+#include <string>
+#include <vector>
+
+namespace dealii
+{
+  class ParameterHandler;
+}
+
+namespace alloyspec
+{
+  struct SpectralProblem;
+
+  /** Subsection `spectrum` (solver part). */
+  struct EigenSolverSettings
+  {
+    /** Lowest k eigenpairs wanted (ignored when an energy cutoff is set). */
+    unsigned int          n_eigenvalues = 50;
+    /** If set: all eigenvalues ≤ this energy. */
+    std::optional<double> energy_cutoff;
+    /** Relative convergence tolerance of the Krylov–Schur iteration. */
+    double                tolerance = 1e-10;
+    /** "tuned" or "baseline" (plain library defaults, for benchmarks). */
+    std::string           method = "tuned";
+    /** Largest number of eigenpairs one solve may be asked for. */
+    unsigned int          max_eigenvalues = 5000;
+
+    static void declare_parameters(dealii::ParameterHandler &prm);
+    void        parse_parameters(dealii::ParameterHandler &prm);
+  };
+
+  /** Eigenpairs of one problem, sorted ascending. */
+  struct EigenResult
+  {
+    std::vector<double>              eigenvalues;
+    /** @f$\|Ku-\lambda Mu\|_2 / (\max(|\lambda|,1)\,\|Mu\|_2)@f$ per pair. */
+    std::vector<double>              residuals;
+    /** DoF values, M-normalised. */
+    std::vector<std::vector<double>> eigenvectors;
+    /**
+     * Every eigenvalue ≤ this energy is in the list: the inertia of
+     * @f$K - E M@f$ at this E equals the list length (Sylvester's law of inertia).
+     */
+    double                           complete_up_to = 0;
+    /** Number of negative pivots of @f$K - E M@f$ at complete_up_to. */
+    std::size_t                      inertia_count = 0;
+    unsigned int                     solver_iterations = 0;
+    unsigned int                     attempts = 0;
+  };
+
+  /**
+   * Shift-and-invert Krylov–Schur (SLEPc) with a sparse LDLᵀ factorisation
+   * (MUMPS) of @f$K - \sigma M@f$, σ below the spectrum (σ < min potential,
+   * so the factorised matrix is positive definite).
+   *
+   * After the solve, the list is cut at a gap E between two returned
+   * eigenvalues (so a degenerate cluster is never split) and the number of
+   * negative pivots of an LDLᵀ factorisation of @f$K - E M@f$, which by
+   * Sylvester's law of inertia equals the number of eigenvalues below E, must
+   * equal the number kept. Otherwise the solve is repeated with more vectors;
+   * a persistent mismatch throws — a list is never silently short.
+   */
+  class EigenSolver
+  {
+  public:
+    explicit EigenSolver(EigenSolverSettings settings);
+    ~EigenSolver();
+    EigenSolver(const EigenSolver &) = delete;
+    EigenSolver &operator=(const EigenSolver &) = delete;
+
+    EigenResult solve(const SpectralProblem &problem);
+
+    /** Number of eigenvalues of the pencil strictly below @p energy (inertia count). */
+    static std::size_t count_below(const SpectralProblem &problem, double energy);
+
+    const EigenSolverSettings &settings() const { return settings_; }
+
+  private:
+    EigenSolverSettings settings_;
+  };
+} // namespace alloyspec

@@ -1,0 +1,72 @@
+/** @file results_store.h  The output folder: durable per-realisation records and final tables. */
+#pragma once
+
+#include <cstdint>
+#include <map>
+#include <string>
+#include <vector>
+
+namespace alloyspec
+{
+  /** Everything stored about one (realisation, boundary condition) solve. */
+  struct RealisationRecord
+  {
+    std::uint64_t       realisation = 0;
+    std::string         boundary;
+    std::vector<double> eigenvalues;
+    std::vector<double> residuals;
+    std::vector<double> inverse_participation_ratios;
+    double              complete_up_to = 0; ///< all eigenvalues ≤ this are listed (inertia-verified)
+    std::uint64_t       inertia_count  = 0;
+    double              potential_min  = 0;
+    double              potential_max  = 0;
+    double              solve_seconds  = 0;
+    unsigned int        attempts       = 0;
+
+    /** Lines for eigenvalues.csv (one per eigenvalue, no header). */
+    std::string eigenvalue_lines() const;
+    /** One line for realisations.csv (no header). */
+    std::string summary_line() const;
+  };
+
+  /**
+   * An output folder. Records are appended to `eigenvalues.csv` and then
+   * `realisations.csv`, each write flushed and fsync'ed, so a crash leaves at
+   * most a partial last record, which the reader ignores: a realisation counts
+   * as stored only once its line in realisations.csv is complete.
+   */
+  class ResultsStore
+  {
+  public:
+    static constexpr const char *eigenvalue_header =
+      "realisation,boundary,index,eigenvalue,residual,ipr";
+    static constexpr const char *summary_header =
+      "realisation,boundary,n_eigenvalues,complete_up_to,inertia_count,potential_min,"
+      "potential_max,solve_seconds,attempts";
+
+    /**
+     * Opens @p directory for a new study: creates it if needed; throws
+     * InputError if it already holds results of an earlier study (nothing is
+     * deleted), unless @p resume is set, in which case the stored records are
+     * kept and appended to.
+     */
+    ResultsStore(std::string directory, bool resume);
+
+    const std::string &directory() const { return directory_; }
+    std::string        path(const std::string &file) const;
+
+    /** Appends one record durably (write, flush, fsync). */
+    void append(const RealisationRecord &record) const;
+    /** Same, from already formatted lines (records gathered from other ranks). */
+    void append_text(const std::string &eigenvalue_lines, const std::string &summary_lines) const;
+
+    /** Reads all complete records of @p directory, ignoring a torn last record. */
+    static std::vector<RealisationRecord> read(const std::string &directory);
+
+    /** Writes @p content to @p file in the folder atomically (temporary file, fsync, rename). */
+    void write_file(const std::string &file, const std::string &content) const;
+
+  private:
+    std::string directory_;
+  };
+} // namespace alloyspec

@@ -1,0 +1,99 @@
+/** @file study.h  A study: many realisations, several boundary conditions, the averaged IDS. */
+#pragma once
+
+#include <alloyspec/discretisation.h>
+#include <alloyspec/eigen_solver.h>
+#include <alloyspec/lattice.h>
+#include <alloyspec/potential_model.h>
+
+#include <cstdint>
+#include <map>
+#include <memory>
+#include <string>
+#include <vector>
+
+namespace dealii
+{
+  class ParameterHandler;
+}
+
+namespace alloyspec
+{
+  class ResultsStore;
+  struct RealisationRecord;
+
+  /** Subsection `study`: how many realisations, which seed, which energy grid. */
+  struct StudySettings
+  {
+    std::uint64_t         realisations      = 20;
+    std::uint64_t         first_realisation = 0;
+    std::uint64_t         seed              = 1;
+    std::vector<double>   energies;
+    std::string           energies_text = "0:0.1:10";
+    std::vector<Boundary> boundaries{Boundary::dirichlet, Boundary::neumann};
+
+    static void declare_parameters(dealii::ParameterHandler &prm);
+    void        parse_parameters(dealii::ParameterHandler &prm);
+  };
+
+  /** How to run (command-line side, not science). */
+  struct RunOptions
+  {
+    std::string output_directory;
+    bool        resume   = false;
+    bool        progress = false;
+    /** Effective parameters as JSON, copied into run.json. */
+    std::string parameters_json;
+  };
+
+  /**
+   * The main job: for realisations r = first, …, first + n − 1 draw the cell
+   * values @f$q_n(\omega_r)@f$, solve for the lowest eigenvalues of
+   * @f$H_\omega = -\Delta + V_\omega@f$ under each boundary condition with the
+   * same values (common random numbers tighten the bracket), store every
+   * record durably, and average the counting functions
+   * @f$N^X_L(E) = \#\{\lambda_j \le E\}/|\Lambda|@f$ into ids.csv, whose
+   * Dirichlet and Neumann columns bracket the infinite-volume IDS:
+   * @f$E[N^D_L] \le N \le E[N^N_L]@f$ (Kirsch & Martinelli 1982).
+   *
+   * Realisations are dealt out to MPI ranks in rounds; every number depends on
+   * (seed, realisation, cell) only, so the results do not depend on the number
+   * of ranks.
+   */
+  class Study
+  {
+  public:
+    Study();
+    ~Study();
+
+    /** Declares every parameter of every subsection. */
+    static void declare_parameters(dealii::ParameterHandler &prm);
+    void        parse_parameters(dealii::ParameterHandler &prm);
+
+    /** make_grid, setup_system, assemble, solve, postprocess — each timed. */
+    void run(const RunOptions &options);
+
+    const std::map<std::string, double> &timings() const { return timings_; }
+
+  private:
+    void make_grid();
+    void setup_system();
+    void assemble();
+    void solve(const ResultsStore &store, const RunOptions &options);
+    void postprocess(const ResultsStore &store, const RunOptions &options);
+
+    RealisationRecord solve_one(std::uint64_t realisation, std::size_t boundary_index);
+
+    Lattice                lattice_;
+    PotentialModel         potential_;
+    DiscretisationSettings discretisation_settings_;
+    EigenSolverSettings    solver_settings_;
+    StudySettings          study_;
+
+    std::vector<std::unique_ptr<Discretisation>>  discretisations_;
+    std::vector<std::unique_ptr<SpectralProblem>> problems_;
+    std::unique_ptr<EigenSolver>                  solver_;
+    std::map<std::string, double>                 timings_;
+    std::size_t                                   solved_here_ = 0;
+  };
+} // namespace alloyspec

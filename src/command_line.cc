@@ -1,0 +1,263 @@
+#include <alloyspec/command_line.h>
+#include <alloyspec/errors.h>
+#include <alloyspec/progress.h>
+#include <alloyspec/study.h>
+
+#include <deal.II/base/exceptions.h>
+#include <deal.II/base/mpi.h>
+#include <deal.II/base/parameter_handler.h>
+
+#include <CLI/CLI.hpp>
+
+#include <chrono>
+#include <ctime>
+#include <filesystem>
+#include <fstream>
+#include <iostream>
+#include <sstream>
+
+namespace alloyspec
+{
+  const char *const default_scenario = R"(# Embedded demo scenario (invented, not data): a binary alloy in which 20 % of
+# the cells sit 1.5 energy units higher than the host (reduced units,
+# hbar^2/2m = 1, lengths in cells). A 6 x 6 x 6 box, 10 realisations.
+subsection lattice
+  set cells = 6, 6, 6
+  set cell size = 1
+end
+subsection potential
+  set law = bernoulli
+  set concentration = 0.2
+  set value A = 1.5
+  set value B = 0
+end
+subsection discretisation
+  set degree = 2
+  set elements per cell = 2
+end
+subsection spectrum
+  set boundary conditions = dirichlet, neumann
+  set eigenvalues = 40
+end
+subsection study
+  set realisations = 10
+  set seed = 1
+  set energies = 0:0.05:3
+end
+)";
+
+  namespace
+  {
+    /** The message part of a deal.II exception, without file and line. */
+    std::string exception_text(const dealii::ExceptionBase &e)
+    {
+      std::ostringstream out;
+      e.print_info(out);
+      std::string text = out.str();
+      while (!text.empty() && (text.back() == '\n' || text.back() == ' '))
+        text.pop_back();
+      const auto first = text.find_first_not_of(" \n");
+      return first == std::string::npos ? text : text.substr(first);
+    }
+
+    /** Applies "section/sub/entry=value". */
+    void apply_override(dealii::ParameterHandler &prm, const std::string &assignment)
+    {
+      const auto equals = assignment.find('=');
+      if (equals == std::string::npos)
+        throw InputError("option '--set': '" + assignment +
+                         "' is not of the form \"section/entry=value\"");
+      std::string path  = assignment.substr(0, equals);
+      std::string value = assignment.substr(equals + 1);
+      auto trim = [](std::string &s) {
+        s.erase(0, s.find_first_not_of(" \t"));
+        s.erase(s.find_last_not_of(" \t") + 1);
+      };
+      trim(path);
+      trim(value);
+      std::vector<std::string> parts;
+      std::stringstream        stream(path);
+      for (std::string part; std::getline(stream, part, '/');)
+        parts.push_back(part);
+      if (parts.size() < 2)
+        throw InputError("option '--set': '" + assignment +
+                         "' must name a section and an entry, as \"section/entry=value\"");
+      unsigned int entered = 0;
+      try
+        {
+          for (std::size_t i = 0; i + 1 < parts.size(); ++i, ++entered)
+            prm.enter_subsection(parts[i]);
+          prm.set(parts.back(), value);
+        }
+      catch (const dealii::ExceptionBase &e)
+        {
+          for (; entered > 0; --entered)
+            prm.leave_subsection();
+          throw InputError("option '--set': parameter '" + path + "' = '" + value +
+                           "' is not accepted: " + exception_text(e) +
+                           " (see 'alloyspec parameters' for every entry and its allowed values)");
+        }
+      for (; entered > 0; --entered)
+        prm.leave_subsection();
+    }
+
+    void read_parameters(dealii::ParameterHandler &prm, const std::string &config)
+    {
+      try
+        {
+          if (config.empty())
+            prm.parse_input_from_string(default_scenario);
+          else
+            {
+              if (!std::filesystem::exists(config))
+                throw InputError("parameter file '" + config + "' does not exist");
+              prm.parse_input(config, "", true);
+            }
+        }
+      catch (const dealii::ExceptionBase &e)
+        {
+          throw InputError("parameter file '" + (config.empty() ? std::string("<embedded demo>") : config) +
+                           "': " + exception_text(e) +
+                           " (see 'alloyspec parameters' for every entry and its allowed values)");
+        }
+    }
+
+    std::string to_json(const dealii::ParameterHandler &prm)
+    {
+      std::ostringstream out;
+      prm.print_parameters(out, dealii::ParameterHandler::JSON);
+      std::string text = out.str();
+      while (!text.empty() && (text.back() == '\n' || text.back() == ' '))
+        text.pop_back();
+      return text;
+    }
+  } // namespace
+
+  int run_command_line(int argc, char **argv)
+  {
+    const bool root = dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0;
+    CLI::App   app{"alloyspec: eigenvalues and integrated density of states of random "
+                 "Schrödinger operators -Δ + V on boxes of unit cells"};
+    app.require_subcommand(1);
+    app.set_version_flag("--version", std::string(ALLOYSPEC_VERSION));
+
+    std::string              config, output;
+    std::vector<std::string> overrides;
+    std::string              seed;
+    bool                     resume = false, no_progress = false, print_only = false;
+    auto *run = app.add_subcommand("run", "Run a study: realisations, eigenvalues, IDS bracket.");
+    run->add_option("config", config,
+                    "Parameter file (deal.II format). Without it the embedded demo scenario runs.");
+    run->add_option("-o,--output", output, "Folder for the results (must not hold an earlier study).")
+      ->default_val("alloyspec-output");
+    run->add_option("-s,--set", overrides,
+                    "Override one parameter: \"section/entry=value\" (repeatable).");
+    run->add_option("--seed", seed, "Override study/seed.");
+    run->add_flag("--resume", resume,
+                  "Continue an interrupted study in the same folder; stored realisations are kept.");
+    run->add_flag("--no-progress", no_progress, "Never print the progress line.");
+    run->add_flag("--print-parameters", print_only,
+                  "Print the effective parameters and stop without computing.");
+
+    std::string format = "prm";
+    auto *parameters = app.add_subcommand(
+      "parameters", "Print every parameter with its description and default value.");
+    parameters->add_option("--format", format, "prm or json")->check(CLI::IsMember({"prm", "json"}));
+    auto *demo = app.add_subcommand("demo", "Print the embedded demo scenario's parameter file.");
+
+    try
+      {
+        app.parse(argc, argv);
+      }
+    catch (const CLI::ParseError &e)
+      {
+        const int code = app.exit(e);
+        return code == 0 ? 0 : 2;
+      }
+
+    try
+      {
+        dealii::ParameterHandler prm;
+        Study::declare_parameters(prm);
+        if (parameters->parsed())
+          {
+            if (root)
+              prm.print_parameters(std::cout, format == "json" ? dealii::ParameterHandler::JSON
+                                                               : dealii::ParameterHandler::PRM);
+            return 0;
+          }
+        if (demo->parsed())
+          {
+            if (root)
+              std::cout << default_scenario;
+            return 0;
+          }
+
+        read_parameters(prm, config);
+        for (const auto &assignment : overrides)
+          apply_override(prm, assignment);
+        if (!seed.empty())
+          apply_override(prm, "study/seed=" + seed);
+
+        Study study;
+        study.parse_parameters(prm);
+
+        if (root)
+          {
+            prm.enter_subsection("study");
+            const std::string effective_seed = prm.get("seed");
+            prm.leave_subsection();
+            std::cout << "alloyspec " << ALLOYSPEC_VERSION << ": "
+                      << (config.empty() ? std::string("embedded demo scenario (invented)") : config)
+                      << ", seed " << effective_seed << ", "
+                      << dealii::Utilities::MPI::n_mpi_processes(MPI_COMM_WORLD)
+                      << " MPI rank(s)\nEffective parameters:\n";
+            prm.print_parameters(std::cout, dealii::ParameterHandler::ShortPRM);
+            std::cout.flush();
+          }
+        if (print_only)
+          return 0;
+
+        RunOptions options;
+        options.output_directory = output;
+        options.resume           = resume;
+        options.progress         = !no_progress && Progress::stderr_is_terminal();
+        options.parameters_json  = to_json(prm);
+        study.run(options);
+        if (root)
+          {
+            std::ofstream(std::filesystem::path(output) / "parameters.prm")
+              << [&] {
+                   std::ostringstream s;
+                   prm.print_parameters(s, dealii::ParameterHandler::ShortPRM);
+                   return s.str();
+                 }();
+            std::cout << "Timings (s):";
+            for (const auto &[name, seconds] : study.timings())
+              std::cout << ' ' << name << ' ' << seconds;
+            std::cout << "\nResults in " << output
+                      << "/: eigenvalues.csv, realisations.csv, ids.csv, run.json, parameters.prm\n"
+                      << "These are model estimates for the stated model and box, not measurements.\n";
+          }
+        return 0;
+      }
+    catch (const InputError &e)
+      {
+        if (root)
+          std::cerr << "alloyspec: error: " << e.what() << '\n';
+        return 2;
+      }
+    catch (const dealii::ExceptionBase &e)
+      {
+        if (root)
+          std::cerr << "alloyspec: computation failed: " << exception_text(e) << '\n';
+        return 1;
+      }
+    catch (const std::exception &e)
+      {
+        if (root)
+          std::cerr << "alloyspec: computation failed: " << e.what() << '\n';
+        return 1;
+      }
+  }
+} // namespace alloyspec

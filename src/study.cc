@@ -1,0 +1,390 @@
+#include <alloyspec/errors.h>
+#include <alloyspec/progress.h>
+#include <alloyspec/results_store.h>
+#include <alloyspec/spectral_problem.h>
+#include <alloyspec/spectrum_statistics.h>
+#include <alloyspec/study.h>
+#include <alloyspec/weyl_law.h>
+
+#include <deal.II/base/mpi.h>
+#include <deal.II/base/parameter_handler.h>
+#include <deal.II/base/utilities.h>
+
+#include <algorithm>
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <set>
+#include <sstream>
+
+#include <sys/resource.h>
+#include <unistd.h>
+
+namespace alloyspec
+{
+  namespace
+  {
+    /** Adds the wall time of its scope to one entry of a timing table. */
+    class ScopedTimer
+    {
+    public:
+      ScopedTimer(std::map<std::string, double> &table, std::string name)
+        : table_(table)
+        , name_(std::move(name))
+        , start_(std::chrono::steady_clock::now())
+      {}
+      ~ScopedTimer()
+      {
+        table_[name_] +=
+          std::chrono::duration<double>(std::chrono::steady_clock::now() - start_).count();
+      }
+
+    private:
+      std::map<std::string, double>        &table_;
+      std::string                           name_;
+      std::chrono::steady_clock::time_point start_;
+    };
+
+    std::string json_escape(const std::string &s)
+    {
+      std::string out;
+      for (const char c : s)
+        {
+          if (c == '"' || c == '\\')
+            out += '\\';
+          if (c == '\n')
+            {
+              out += "\\n";
+              continue;
+            }
+          out += c;
+        }
+      return out;
+    }
+
+    std::string number(double x)
+    {
+      if (!std::isfinite(x))
+        return "null";
+      char buffer[40];
+      std::snprintf(buffer, sizeof buffer, "%.17g", x);
+      return buffer;
+    }
+
+    std::uint64_t parse_count(const std::string &text, const std::string &parameter,
+                              std::uint64_t minimum, std::uint64_t maximum)
+    {
+      std::size_t        used  = 0;
+      unsigned long long value = 0;
+      try
+        {
+          if (text.find('-') == std::string::npos)
+            value = std::stoull(text, &used);
+        }
+      catch (const std::exception &)
+        {
+          used = 0;
+        }
+      if (used == 0 || text.find_first_not_of(" \t", used) != std::string::npos ||
+          value < minimum || value > maximum)
+        throw InputError("parameter '" + parameter + "': '" + text +
+                         "' is not allowed (an integer from " + std::to_string(minimum) +
+                         " to " + std::to_string(maximum) + ")");
+      return value;
+    }
+
+    constexpr std::uint64_t max_realisations = 4294967295ULL; // the stream counter holds 32 bits
+  } // namespace
+
+  void StudySettings::declare_parameters(dealii::ParameterHandler &prm)
+  {
+    prm.enter_subsection("study");
+    prm.declare_entry("realisations", "20", dealii::Patterns::Anything(),
+                      "Number of independent realisations of the random potential (1 to "
+                      "4294967295).");
+    prm.declare_entry("first realisation", "0", dealii::Patterns::Anything(),
+                      "Index of the first realisation. Studies with the same seed and disjoint "
+                      "ranges of realisations can be merged.");
+    prm.declare_entry("seed", "1", dealii::Patterns::Anything(),
+                      "Seed of the counter-based random stream (0 to 2^64-1). The value of cell n "
+                      "in realisation r depends only on (seed, r, n).");
+    prm.declare_entry("energies", "0:0.1:10", dealii::Patterns::Anything(),
+                      "Energy grid of the IDS table: 'start:step:stop' or a list 'E1, E2, ...' "
+                      "(ascending), in the energy unit of the study.");
+    prm.leave_subsection();
+    prm.enter_subsection("spectrum");
+    prm.declare_entry("boundary conditions", "dirichlet, neumann",
+                      dealii::Patterns::List(dealii::Patterns::Selection("dirichlet|neumann|periodic"), 1, 3),
+                      "Boundary conditions to solve with, each on all faces of the box, with the "
+                      "same cell values. Dirichlet and Neumann together bracket the "
+                      "infinite-volume IDS from below and above.");
+    prm.leave_subsection();
+  }
+
+  void StudySettings::parse_parameters(dealii::ParameterHandler &prm)
+  {
+    prm.enter_subsection("study");
+    realisations      = parse_count(prm.get("realisations"), "study/realisations", 1, max_realisations);
+    first_realisation = parse_count(prm.get("first realisation"), "study/first realisation", 0,
+                                    max_realisations - realisations);
+    seed              = parse_count(prm.get("seed"), "study/seed", 0, ~0ULL);
+    energies_text     = prm.get("energies");
+    energies          = parse_energy_grid(energies_text, "study/energies");
+    prm.leave_subsection();
+    prm.enter_subsection("spectrum");
+    boundaries.clear();
+    for (const auto &name : dealii::Utilities::split_string_list(prm.get("boundary conditions")))
+      {
+        const Boundary bc = boundary_from_string(name, "spectrum/boundary conditions");
+        if (std::find(boundaries.begin(), boundaries.end(), bc) != boundaries.end())
+          throw InputError("parameter 'spectrum/boundary conditions': '" + name +
+                           "' is listed twice (allowed: each of dirichlet, neumann, periodic once)");
+        boundaries.push_back(bc);
+      }
+    prm.leave_subsection();
+  }
+
+  Study::Study()  = default;
+  Study::~Study() = default;
+
+  void Study::declare_parameters(dealii::ParameterHandler &prm)
+  {
+    Lattice::declare_parameters(prm);
+    PotentialModel::declare_parameters(prm);
+    DiscretisationSettings::declare_parameters(prm);
+    EigenSolverSettings::declare_parameters(prm);
+    StudySettings::declare_parameters(prm);
+  }
+
+  void Study::parse_parameters(dealii::ParameterHandler &prm)
+  {
+    lattice_.parse_parameters(prm);
+    potential_.parse_parameters(prm, lattice_);
+    discretisation_settings_.parse_parameters(prm);
+    solver_settings_.parse_parameters(prm);
+    study_.parse_parameters(prm);
+  }
+
+  void Study::run(const RunOptions &options)
+  {
+    const bool   root = dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0;
+    ResultsStore store(options.output_directory, options.resume);
+    { ScopedTimer t(timings_, "make_grid");    make_grid(); }
+    { ScopedTimer t(timings_, "setup_system"); setup_system(); }
+    { ScopedTimer t(timings_, "assemble");     assemble(); }
+    { ScopedTimer t(timings_, "solve");        solve(store, options); }
+    if (root)
+      {
+        ScopedTimer t(timings_, "postprocess");
+        postprocess(store, options);
+      }
+  }
+
+  void Study::make_grid()
+  {
+    discretisations_.clear();
+    for (const Boundary bc : study_.boundaries)
+      {
+        discretisations_.push_back(Discretisation::create(
+          lattice_, discretisation_settings_, BoundaryConditions(lattice_.dimension(), bc)));
+        discretisations_.back()->make_grid();
+      }
+  }
+
+  void Study::setup_system()
+  {
+    for (auto &d : discretisations_)
+      d->setup_system();
+  }
+
+  void Study::assemble()
+  {
+    problems_.clear();
+    for (auto &d : discretisations_)
+      {
+        d->assemble_fixed();
+        problems_.push_back(d->make_problem());
+      }
+    solver_ = std::make_unique<EigenSolver>(solver_settings_);
+  }
+
+  RealisationRecord Study::solve_one(std::uint64_t realisation, std::size_t b)
+  {
+    const auto start = std::chrono::steady_clock::now();
+    const std::vector<double> q = potential_.cell_values(study_.seed, realisation);
+    discretisations_[b]->assemble_potential(q, *problems_[b]);
+    EigenResult result = solver_->solve(*problems_[b]);
+
+    RealisationRecord record;
+    record.realisation    = realisation;
+    record.boundary       = to_string(study_.boundaries[b]);
+    record.eigenvalues    = result.eigenvalues;
+    record.residuals      = result.residuals;
+    record.complete_up_to = result.complete_up_to;
+    record.inertia_count  = result.inertia_count;
+    record.potential_min  = *std::min_element(q.begin(), q.end());
+    record.potential_max  = *std::max_element(q.begin(), q.end());
+    record.attempts       = result.attempts;
+    for (const auto &u : result.eigenvectors)
+      record.inverse_participation_ratios.push_back(
+        discretisations_[b]->inverse_participation_ratio(u));
+    record.solve_seconds =
+      std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+    return record;
+  }
+
+  void Study::solve(const ResultsStore &store, const RunOptions &options)
+  {
+    const MPI_Comm     comm  = MPI_COMM_WORLD;
+    const unsigned int rank  = dealii::Utilities::MPI::this_mpi_process(comm);
+    const unsigned int ranks = dealii::Utilities::MPI::n_mpi_processes(comm);
+
+    // A realisation is done when all its boundary conditions are stored.
+    std::set<std::uint64_t> done;
+    if (options.resume)
+      {
+        std::map<std::uint64_t, std::size_t> stored;
+        for (const auto &r : ResultsStore::read(store.directory()))
+          ++stored[r.realisation];
+        for (const auto &[r, n] : stored)
+          if (n == study_.boundaries.size())
+            done.insert(r);
+      }
+    std::vector<std::uint64_t> pending;
+    for (std::uint64_t r = study_.first_realisation;
+         r < study_.first_realisation + study_.realisations; ++r)
+      if (done.count(r) == 0)
+        pending.push_back(r);
+
+    Progress progress("realisations", pending.size(), options.progress && rank == 0);
+    const std::size_t rounds = (pending.size() + ranks - 1) / ranks;
+    for (std::size_t round = 0; round < rounds; ++round)
+      {
+        const std::size_t slot = round * ranks + rank;
+        std::string       eigen_text, summary_text;
+        if (slot < pending.size())
+          for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
+            {
+              const RealisationRecord record = solve_one(pending[slot], b);
+              eigen_text += record.eigenvalue_lines();
+              summary_text += record.summary_line();
+              ++solved_here_;
+            }
+        // Rank 0 owns the files; it appends every finished realisation of
+        // this round before any rank starts the next one.
+        const auto eigen_all   = dealii::Utilities::MPI::gather(comm, eigen_text, 0);
+        const auto summary_all = dealii::Utilities::MPI::gather(comm, summary_text, 0);
+        if (rank == 0)
+          {
+            for (unsigned int p = 0; p < ranks; ++p)
+              if (!summary_all[p].empty())
+                store.append_text(eigen_all[p], summary_all[p]);
+            progress.update(std::min(pending.size(), (round + 1) * ranks));
+          }
+      }
+    progress.finish();
+  }
+
+  void Study::postprocess(const ResultsStore &store, const RunOptions &options)
+  {
+    const auto   records = ResultsStore::read(store.directory());
+    const double volume  = lattice_.volume();
+
+    std::vector<IdsAccumulator> ids;
+    for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
+      ids.emplace_back(study_.energies, volume);
+    std::set<std::uint64_t> realisations;
+    for (const auto &r : records)
+      {
+        if (r.realisation < study_.first_realisation ||
+            r.realisation >= study_.first_realisation + study_.realisations)
+          continue;
+        for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
+          if (r.boundary == to_string(study_.boundaries[b]))
+            ids[b].add(r.eigenvalues, r.complete_up_to);
+        realisations.insert(r.realisation);
+      }
+
+    // Phase-space (semiclassical) count of the same realisations; the cell
+    // values are regenerated from the counter-based stream, not stored.
+    std::vector<double> semiclassical(study_.energies.size(), 0.0);
+    for (const std::uint64_t r : realisations)
+      {
+        const std::vector<double> q = potential_.cell_values(study_.seed, r);
+        for (std::size_t i = 0; i < study_.energies.size(); ++i)
+          semiclassical[i] += semiclassical_ids(lattice_.dimension(), q, study_.energies[i]);
+      }
+    for (double &s : semiclassical)
+      s /= std::max<std::size_t>(1, realisations.size());
+
+    auto index_of = [&](Boundary bc) -> int {
+      const auto it = std::find(study_.boundaries.begin(), study_.boundaries.end(), bc);
+      return it == study_.boundaries.end() ? -1 : static_cast<int>(it - study_.boundaries.begin());
+    };
+    const int d = index_of(Boundary::dirichlet), n = index_of(Boundary::neumann),
+              p = index_of(Boundary::periodic);
+    std::vector<std::vector<IdsAccumulator::Row>> rows;
+    for (const auto &a : ids)
+      rows.push_back(a.rows());
+
+    std::ostringstream csv;
+    csv << "energy";
+    for (const int b : {d, n, p})
+      if (b >= 0)
+        csv << ",ids_" << to_string(study_.boundaries[b]) << ",stderr_"
+            << to_string(study_.boundaries[b]);
+    if (d >= 0 && n >= 0)
+      csv << ",width";
+    for (const int b : {d, n, p})
+      if (b >= 0)
+        csv << ",complete_" << to_string(study_.boundaries[b]);
+    csv << ",semiclassical,realisations\n";
+    for (std::size_t i = 0; i < study_.energies.size(); ++i)
+      {
+        csv << number(study_.energies[i]);
+        for (const int b : {d, n, p})
+          if (b >= 0)
+            csv << ',' << number(rows[b][i].mean) << ',' << number(rows[b][i].standard_error);
+        if (d >= 0 && n >= 0)
+          csv << ',' << number(rows[n][i].mean - rows[d][i].mean);
+        for (const int b : {d, n, p})
+          if (b >= 0)
+            csv << ',' << (rows[b][i].complete ? 1 : 0);
+        csv << ',' << number(semiclassical[i]) << ',' << realisations.size() << '\n';
+      }
+    store.write_file("ids.csv", csv.str());
+
+    // run.json: what was run, with what, how long, how big.
+    rusage usage{};
+    getrusage(RUSAGE_SELF, &usage);
+    char host[256] = "unknown";
+    gethostname(host, sizeof host - 1);
+    std::ostringstream json;
+    json << "{\n  \"program\": \"alloyspec\",\n  \"version\": \"" << ALLOYSPEC_VERSION << "\",\n"
+         << "  \"seed\": " << study_.seed << ",\n"
+         << "  \"first_realisation\": " << study_.first_realisation << ",\n"
+         << "  \"realisations_requested\": " << study_.realisations << ",\n"
+         << "  \"realisations_stored\": " << realisations.size() << ",\n"
+         << "  \"mpi_ranks\": " << dealii::Utilities::MPI::n_mpi_processes(MPI_COMM_WORLD) << ",\n"
+         << "  \"host\": \"" << json_escape(host) << "\",\n"
+         << "  \"lattice\": \"" << json_escape(lattice_.description()) << "\",\n"
+         << "  \"volume\": " << number(volume) << ",\n"
+         << "  \"potential\": \"" << json_escape(potential_.description()) << "\",\n"
+         << "  \"degrees_of_freedom\": {";
+    for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
+      json << (b ? ", " : "") << '"' << to_string(study_.boundaries[b])
+           << "\": " << discretisations_[b]->n_dofs();
+    json << "},\n  \"timings_seconds\": {";
+    bool first = true;
+    for (const auto &[name, seconds] : timings_)
+      {
+        json << (first ? "" : ", ") << '"' << name << "\": " << number(seconds);
+        first = false;
+      }
+    json << "},\n  \"memory_high_water_mib\": " << number(usage.ru_maxrss / 1024.0) << ",\n"
+         << "  \"note\": \"Model estimates for the stated model and box; not measurements.\",\n"
+         << "  \"parameters\": " << (options.parameters_json.empty() ? "{}" : options.parameters_json)
+         << "\n}\n";
+    store.write_file("run.json", json.str());
+  }
+} // namespace alloyspec
