@@ -32,11 +32,14 @@ namespace alloyspec
     virtual std::string description() const = 0;
   };
 
+  // The factories throw InputError, naming the matching `potential/...`
+  // parameter, for arguments outside the allowed range.
+
   /** Uniform on [a, b], a < b. */
   std::unique_ptr<SingleSiteLaw> make_uniform_law(double a, double b);
   /** Binary alloy: q_A with probability c, q_B otherwise (0 ≤ c ≤ 1). */
   std::unique_ptr<SingleSiteLaw> make_bernoulli_law(double c, double q_a, double q_b);
-  /** Finite law: values[i] with probabilities[i] (non-negative, summing to 1 within 1e-12, renormalised). */
+  /** Finite law: values[i] with probabilities[i] (1..64 of them; non-negative, summing to 1 within 1e-9, renormalised). */
   std::unique_ptr<SingleSiteLaw> make_discrete_law(const std::vector<double> &values,
                                                    const std::vector<double> &probabilities);
 
@@ -85,5 +88,7 @@ namespace alloyspec
     std::shared_ptr<const SingleSiteLaw> law_;
     std::vector<double>                  fixed_values_;
     std::size_t                          n_cells_ = 0;
+    /** Where fixed values came from (for description()). */
+    std::string                          fixed_source_;
   };
 } // namespace alloyspec
