@@ -32,7 +32,8 @@ namespace alloyspec
    * known to be complete (verified by an inertia count). At an energy above
    * that bound the realisation's count is a lower bound only, so the grid point
    * is flagged incomplete (the mean there is still the mean of the available
-   * counts, but must not be read as the IDS).
+   * counts, but must not be read as the IDS). With no realisation added, rows()
+   * reports mean 0, standard error 0 and complete = false.
    */
   class IdsAccumulator
   {
@@ -58,6 +59,9 @@ namespace alloyspec
     std::vector<double> energies_;
     double              volume_;
     std::size_t         n_ = 0;
+    /** Counts of the first realisation; sum_ and sum_sq_ accumulate deviations
+     *  from them (shifted sums keep the variance free of cancellation). */
+    std::vector<double> shift_;
     std::vector<double> sum_, sum_sq_;
     std::vector<bool>   complete_;
   };
