@@ -29,13 +29,13 @@ namespace alloyspec
      * n_i ≠ 0). Counting and listing share this description, so that both agree
      * on which lattice points lie below a given energy.
      */
-    struct Lattice
+    struct BoxLattice
     {
       std::vector<double> coefficient;
       long                first_index;
       bool                mirrored;
 
-      Lattice(const std::vector<double> &extents, const Boundary bc)
+      BoxLattice(const std::vector<double> &extents, const Boundary bc)
         : first_index(bc == Boundary::dirichlet ? 1 : 0)
         , mirrored(bc == Boundary::periodic)
       {
@@ -105,7 +105,7 @@ namespace alloyspec
   std::vector<double> free_box_eigenvalues(const std::vector<double> &extents, const Boundary bc,
                                            const std::size_t count)
   {
-    const Lattice lattice(extents, bc);
+    const BoxLattice lattice(extents, bc);
     if (count == 0)
       return {};
 
@@ -129,7 +129,7 @@ namespace alloyspec
   std::uint64_t free_box_count(const std::vector<double> &extents, const Boundary bc,
                                const double energy)
   {
-    const Lattice lattice(extents, bc);
+    const BoxLattice lattice(extents, bc);
     if (!(energy >= 0.0))
       return 0;
     return lattice.count(0, 0.0, energy);
