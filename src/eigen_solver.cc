@@ -224,14 +224,12 @@ namespace alloyspec
     }
 
     /**
-     * Largest j with k ≤ j < m such that values[j] is clearly above
-     * values[j-1]; 0 if there is none.
+     * Smallest j ≥ k with values[j] clearly above values[j-1], so that the
+     * list values[0..j) ends between two clusters; 0 if there is none.
      */
     std::size_t cut_index(const std::vector<double> &values, std::size_t k)
     {
-      if (values.size() < 2)
-        return 0;
-      for (std::size_t j = values.size() - 1; j >= 1 && j >= k; --j)
+      for (std::size_t j = std::max<std::size_t>(k, 1); j < values.size(); ++j)
         if (values[j] - values[j - 1] > cluster_gap * std::max(1.0, std::abs(values[j])))
           return j;
       return 0;
@@ -266,9 +264,15 @@ namespace alloyspec
     unsigned int request = static_cast<unsigned int>(wanted + std::max<std::size_t>(5, wanted / 10));
     for (unsigned int attempt = 1; attempt <= max_attempts; ++attempt)
       {
-        RawPairs          pairs = krylov_schur(problem, request, sigma, settings_);
-        const std::size_t j     = cut_index(pairs.values, wanted);
-        if (j >= wanted)
+        RawPairs pairs = krylov_schur(problem, request, sigma, settings_);
+        // When the whole discrete spectrum was returned (tiny problems), the
+        // pushed-out eigenvalue of the constrained rows closes the list.
+        const std::size_t n_genuine = static_cast<std::size_t>(
+          std::count(problem.constrained.begin(), problem.constrained.end(), false));
+        if (pairs.values.size() == n_genuine)
+          pairs.values.push_back(problem.spurious_eigenvalue);
+        const std::size_t j = cut_index(pairs.values, std::min(wanted, n_genuine));
+        if (j >= std::min(wanted, n_genuine) && j > 0)
           {
             const double      cut   = 0.5 * (pairs.values[j - 1] + pairs.values[j]);
             const std::size_t count = count_below(problem, cut);
