@@ -1,4 +1,4 @@
-/** @file potential_model.cc  Single-site laws, the cell-values file, the random cell potential. */
+/** @file potential_model.cc  The cell-values file, the parameters of subsection "potential", the random cell potential. */
 #include <alloyspec/errors.h>
 #include <alloyspec/lattice.h>
 #include <alloyspec/potential_model.h>
@@ -21,13 +21,8 @@ namespace alloyspec
 {
   namespace
   {
+    /** Largest number of entries of a discrete law (make_discrete_law() checks the same). */
     constexpr unsigned int max_discrete_values = 64;
-    /**
-     * Tolerance on the sum of the probabilities: loose enough for values typed
-     * with nine decimals (0.333333333 three times), tight enough to catch a
-     * forgotten entry.
-     */
-    constexpr double probability_sum_tolerance = 1e-9;
 
     /** Numbers in messages: enough digits to tell 1 from 1.0000001. */
     std::string fmt(const double x)
@@ -75,164 +70,7 @@ namespace alloyspec
         }
       return result;
     }
-
-    void require_finite(const double x, const std::string &name)
-    {
-      if (!std::isfinite(x))
-        throw InputError(name + " = " + fmt(x) + " is not allowed, it must be a finite number");
-    }
-
-
-    /** Uniform law on [a, b]. */
-    class UniformLaw : public SingleSiteLaw
-    {
-    public:
-      UniformLaw(const double a, const double b)
-        : a_(a)
-        , b_(b)
-      {}
-      double quantile(const double u) const override { return a_ + u * (b_ - a_); }
-      double mean() const override { return 0.5 * (a_ + b_); }
-      double variance() const override { return (b_ - a_) * (b_ - a_) / 12.0; }
-      double support_min() const override { return a_; }
-      double support_max() const override { return b_; }
-      std::string description() const override
-      {
-        return "uniform on [" + fmt(a_) + ", " + fmt(b_) + "]";
-      }
-
-    private:
-      double a_, b_;
-    };
-
-
-    /**
-     * A law with finitely many values. Values are kept sorted so that
-     * quantile() is the true (non-decreasing) inverse distribution function:
-     * then the same uniform u gives the same rank under every law, which makes
-     * realisations of different laws comparable (a monotone coupling).
-     */
-    class DiscreteLaw : public SingleSiteLaw
-    {
-    public:
-      DiscreteLaw(std::vector<std::pair<double, double>> value_probability,
-                  std::string                            description)
-        : description_(std::move(description))
-      {
-        std::sort(value_probability.begin(), value_probability.end());
-        double sum = 0;
-        for (const auto &vp : value_probability)
-          sum += vp.second;
-        double cumulative = 0;
-        for (const auto &vp : value_probability)
-          {
-            const double p = vp.second / sum;
-            values_.push_back(vp.first);
-            probabilities_.push_back(p);
-            cumulative += p;
-            cumulative_.push_back(cumulative);
-          }
-        // Exactly 1 so that every u < 1 finds an entry despite rounding.
-        cumulative_.back() = 1.0;
-
-        mean_ = 0;
-        for (std::size_t i = 0; i < values_.size(); ++i)
-          mean_ += probabilities_[i] * values_[i];
-        // Two-pass formula: no cancellation when the mean is large.
-        variance_ = 0;
-        for (std::size_t i = 0; i < values_.size(); ++i)
-          variance_ += probabilities_[i] * (values_[i] - mean_) * (values_[i] - mean_);
-
-        // Values of probability zero are not in the support.
-        support_min_ = support_max_ = mean_;
-        bool first = true;
-        for (std::size_t i = 0; i < values_.size(); ++i)
-          if (probabilities_[i] > 0)
-            {
-              support_min_ = first ? values_[i] : std::min(support_min_, values_[i]);
-              support_max_ = first ? values_[i] : std::max(support_max_, values_[i]);
-              first        = false;
-            }
-      }
-
-      double quantile(const double u) const override
-      {
-        // F^{-1}(u) = min{ v_i : F(v_i) >= u }. For u in (0, 1) this never
-        // returns a value of probability zero: its cumulative sum equals the
-        // previous one, which is found first.
-        const auto it = std::lower_bound(cumulative_.begin(), cumulative_.end(), u);
-        return values_[std::min<std::size_t>(it - cumulative_.begin(), values_.size() - 1)];
-      }
-      double      mean() const override { return mean_; }
-      double      variance() const override { return variance_; }
-      double      support_min() const override { return support_min_; }
-      double      support_max() const override { return support_max_; }
-      std::string description() const override { return description_; }
-
-    private:
-      std::vector<double> values_, probabilities_, cumulative_;
-      double              mean_ = 0, variance_ = 0, support_min_ = 0, support_max_ = 0;
-      std::string         description_;
-    };
   } // namespace
-
-
-  std::unique_ptr<SingleSiteLaw> make_uniform_law(const double a, const double b)
-  {
-    require_finite(a, "potential/minimum");
-    require_finite(b, "potential/maximum");
-    if (!(a < b))
-      throw InputError("potential/maximum = " + fmt(b) +
-                       " must be greater than potential/minimum = " + fmt(a));
-    return std::make_unique<UniformLaw>(a, b);
-  }
-
-
-  std::unique_ptr<SingleSiteLaw> make_bernoulli_law(const double c, const double q_a,
-                                                    const double q_b)
-  {
-    if (!(c >= 0.0 && c <= 1.0))
-      throw InputError("potential/concentration = " + fmt(c) +
-                       " is outside the allowed range [0, 1]");
-    require_finite(q_a, "potential/value A");
-    require_finite(q_b, "potential/value B");
-    return std::make_unique<DiscreteLaw>(
-      std::vector<std::pair<double, double>>{{q_a, c}, {q_b, 1.0 - c}},
-      "bernoulli: " + fmt(q_a) + " with probability " + fmt(c) + ", else " + fmt(q_b));
-  }
-
-
-  std::unique_ptr<SingleSiteLaw> make_discrete_law(const std::vector<double> &values,
-                                                   const std::vector<double> &probabilities)
-  {
-    if (values.empty() || values.size() > max_discrete_values)
-      throw InputError("potential/values: " + std::to_string(values.size()) +
-                       " values given, allowed are 1 to " +
-                       std::to_string(max_discrete_values));
-    if (probabilities.size() != values.size())
-      throw InputError("potential/probabilities: " + std::to_string(probabilities.size()) +
-                       " entries given, but potential/values has " +
-                       std::to_string(values.size()) + "; the lists must have equal length");
-    double sum = 0;
-    std::vector<std::pair<double, double>> vp;
-    std::ostringstream                     description;
-    description << "discrete:";
-    for (std::size_t i = 0; i < values.size(); ++i)
-      {
-        require_finite(values[i], "potential/values entry " + std::to_string(i + 1));
-        if (!(probabilities[i] >= 0.0) || !std::isfinite(probabilities[i]))
-          throw InputError("potential/probabilities: entry " + std::to_string(i + 1) + " = " +
-                           fmt(probabilities[i]) + " is not allowed, it must be >= 0");
-        sum += probabilities[i];
-        vp.emplace_back(values[i], probabilities[i]);
-        description << (i > 0 ? "," : "") << " " << fmt(values[i]) << " (p = "
-                    << fmt(probabilities[i]) << ")";
-      }
-    if (std::abs(sum - 1.0) > probability_sum_tolerance)
-      throw InputError("potential/probabilities: the entries sum to " + fmt(sum) +
-                       ", they must sum to 1 within " + fmt(probability_sum_tolerance));
-    return std::make_unique<DiscreteLaw>(std::move(vp), description.str());
-  }
 
 
   std::vector<double> read_cell_values(const std::string &path, const Lattice &lattice)
@@ -333,24 +171,86 @@ namespace alloyspec
     prm.enter_subsection("potential");
     prm.declare_entry("law",
                       "uniform",
-                      Selection("uniform|bernoulli|discrete|file"),
+                      Selection("uniform|bernoulli|discrete|gaussian|beta|tabulated|binomial|file"),
                       "Law of the potential value q_n on each unit cell; the q_n are "
                       "independent and identically distributed. 'uniform': uniform on "
                       "[minimum, maximum]. 'bernoulli': binary alloy, 'value A' with "
                       "probability 'concentration', else 'value B'. 'discrete': 'values' "
-                      "with 'probabilities'. 'file': one fixed potential read from 'file' "
-                      "(the same for every realisation).");
-    prm.declare_entry("minimum", "0", Double(), "Uniform law: lower end of the interval.");
+                      "with 'probabilities'. 'gaussian': normal law with 'mean' and "
+                      "'standard deviation', conditioned on [minimum, maximum] if "
+                      "'truncate' is true. 'beta': beta law with shapes 'shape at minimum' "
+                      "and 'shape at maximum' stretched onto [minimum, maximum]. "
+                      "'tabulated': piecewise-linear density read from 'density file'. "
+                      "'binomial': coarse-grained alloy, each cell averages 'atoms per "
+                      "cell' atoms, each of kind A ('value A') with probability "
+                      "'concentration', else of kind B ('value B'). 'file': one fixed "
+                      "potential read from 'file' (the same for every realisation).");
+    prm.declare_entry("minimum",
+                      "0",
+                      Double(),
+                      "Uniform and beta laws, and the gaussian law with 'truncate' = true: "
+                      "lower end of the interval the values lie in.");
     prm.declare_entry("maximum",
                       "1",
                       Double(),
-                      "Uniform law: upper end of the interval, greater than 'minimum'.");
+                      "Uniform and beta laws, and the gaussian law with 'truncate' = true: "
+                      "upper end of the interval, greater than 'minimum'.");
     prm.declare_entry("concentration",
                       "0.2",
                       Double(0, 1),
-                      "Bernoulli law: probability c in [0, 1] that a cell takes 'value A'.");
-    prm.declare_entry("value A", "1.5", Double(), "Bernoulli law: value with probability c.");
-    prm.declare_entry("value B", "0", Double(), "Bernoulli law: value with probability 1 - c.");
+                      "Bernoulli law: probability c in [0, 1] that a cell takes 'value A'. "
+                      "Binomial law: fraction x in [0, 1] of atoms of kind A.");
+    prm.declare_entry("value A",
+                      "1.5",
+                      Double(),
+                      "Bernoulli law: value with probability c. Binomial law: value of a "
+                      "cell made only of atoms of kind A.");
+    prm.declare_entry("value B",
+                      "0",
+                      Double(),
+                      "Bernoulli law: value with probability 1 - c. Binomial law: value "
+                      "of a cell made only of atoms of kind B.");
+    prm.declare_entry("atoms per cell",
+                      "20",
+                      Integer(1, max_atoms_per_cell),
+                      "Binomial law: number n of atoms in one cell, in [1, 1000000]. The "
+                      "cell value is value B + (value A - value B) K/n with K the number of "
+                      "A atoms, binomial with n trials and probability 'concentration'; "
+                      "n = 1 is the bernoulli law.");
+    prm.declare_entry("mean",
+                      "0",
+                      Double(),
+                      "Gaussian law: centre of the normal law (before any truncation).");
+    prm.declare_entry("standard deviation",
+                      "1",
+                      Double(0),
+                      "Gaussian law: spread sigma > 0 of the normal law (before any "
+                      "truncation).");
+    prm.declare_entry("truncate",
+                      "false",
+                      Bool(),
+                      "Gaussian law: if true, the normal law is conditioned on [minimum, "
+                      "maximum], which must come within 8 standard deviations of the mean. "
+                      "For a one-sided cut put the other end far away (say 40 standard "
+                      "deviations). If false the values are unbounded and the bottom of the "
+                      "spectrum is minus infinity.");
+    prm.declare_entry("shape at minimum",
+                      "2",
+                      Double(min_beta_shape, max_beta_shape),
+                      "Beta law: first shape alpha in [0.1, 1000]; near 'minimum' the density "
+                      "behaves like (q - minimum)^(alpha - 1).");
+    prm.declare_entry("shape at maximum",
+                      "2",
+                      Double(min_beta_shape, max_beta_shape),
+                      "Beta law: second shape beta in [0.1, 1000]; near 'maximum' the density "
+                      "behaves like (maximum - q)^(beta - 1).");
+    prm.declare_entry("density file",
+                      "",
+                      Anything(),
+                      "Tabulated law: path of a text file with one point 'q h(q)' per line, q "
+                      "strictly increasing, h(q) >= 0 (at least 2 points). The density is "
+                      "linear between the points, zero outside, and is normalised to "
+                      "integral 1 here. Text after '#' and blank lines are ignored.");
     prm.declare_entry("values",
                       "0, 1",
                       List(Double(), 1, max_discrete_values),
@@ -377,14 +277,21 @@ namespace alloyspec
     prm.enter_subsection("potential");
     const std::string law = prm.get("law");
     // Read everything before validating so that the subsection is always left.
-    const double      minimum       = prm.get_double("minimum");
-    const double      maximum       = prm.get_double("maximum");
-    const double      concentration = prm.get_double("concentration");
-    const double      value_a       = prm.get_double("value A");
-    const double      value_b       = prm.get_double("value B");
-    const std::string values        = prm.get("values");
-    const std::string probabilities = prm.get("probabilities");
-    const std::string file          = prm.get("file");
+    const double      minimum            = prm.get_double("minimum");
+    const double      maximum            = prm.get_double("maximum");
+    const double      concentration      = prm.get_double("concentration");
+    const double      value_a            = prm.get_double("value A");
+    const double      value_b            = prm.get_double("value B");
+    const std::string values             = prm.get("values");
+    const std::string probabilities      = prm.get("probabilities");
+    const long        atoms_per_cell     = prm.get_integer("atoms per cell");
+    const double      mean               = prm.get_double("mean");
+    const double      standard_deviation = prm.get_double("standard deviation");
+    const bool        truncate           = prm.get_bool("truncate");
+    const double      shape_at_minimum   = prm.get_double("shape at minimum");
+    const double      shape_at_maximum   = prm.get_double("shape at maximum");
+    const std::string density_file       = prm.get("density file");
+    const std::string file               = prm.get("file");
     prm.leave_subsection();
 
     if (law == "uniform")
@@ -395,6 +302,29 @@ namespace alloyspec
       set_law(make_discrete_law(parse_double_list(values, "potential/values"),
                                 parse_double_list(probabilities, "potential/probabilities")),
               lattice);
+    else if (law == "gaussian")
+      set_law(truncate ? make_truncated_gaussian_law(mean, standard_deviation, minimum, maximum)
+                       : make_gaussian_law(mean, standard_deviation),
+              lattice);
+    else if (law == "beta")
+      set_law(make_beta_law(shape_at_minimum, shape_at_maximum, minimum, maximum), lattice);
+    else if (law == "tabulated")
+      {
+        if (density_file.empty())
+          throw InputError("potential/density file: must name a density file when "
+                           "potential/law = tabulated");
+        set_law(read_tabulated_law(density_file), lattice);
+      }
+    else if (law == "binomial")
+      {
+        if (atoms_per_cell < 1 || atoms_per_cell > static_cast<long>(max_atoms_per_cell))
+          throw InputError("potential/atoms per cell = " + std::to_string(atoms_per_cell) +
+                           " is outside the allowed range [1, " +
+                           std::to_string(max_atoms_per_cell) + "]");
+        set_law(make_binomial_alloy_law(static_cast<unsigned int>(atoms_per_cell),
+                                        concentration, value_a, value_b),
+                lattice);
+      }
     else if (law == "file")
       {
         if (file.empty())
@@ -405,7 +335,8 @@ namespace alloyspec
       }
     else
       throw InputError("potential/law: '" + law +
-                       "' is not one of uniform, bernoulli, discrete, file");
+                       "' is not one of uniform, bernoulli, discrete, gaussian, beta, "
+                       "tabulated, binomial, file");
   }
 
 

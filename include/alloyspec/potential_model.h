@@ -1,6 +1,8 @@
 /** @file potential_model.h  Single-site laws and the random cell potential V_ω. */
 #pragma once
 
+#include <alloyspec/single_site_laws.h>
+
 #include <cstdint>
 #include <memory>
 #include <string>
@@ -16,34 +18,6 @@ namespace alloyspec
   class Lattice;
 
   /**
-   * The law of one cell value @f$q_n@f$, sampled by inversion: sample(u) is the
-   * quantile function @f$F^{-1}(u)@f$ for @f$u \in (0,1)@f$.
-   */
-  class SingleSiteLaw
-  {
-  public:
-    virtual ~SingleSiteLaw() = default;
-    virtual double      quantile(double u) const = 0;
-    virtual double      mean() const = 0;
-    virtual double      variance() const = 0;
-    /** Smallest value the law can take (the bottom of the almost-sure spectrum). */
-    virtual double      support_min() const = 0;
-    virtual double      support_max() const = 0;
-    virtual std::string description() const = 0;
-  };
-
-  // The factories throw InputError, naming the matching `potential/...`
-  // parameter, for arguments outside the allowed range.
-
-  /** Uniform on [a, b], a < b. */
-  std::unique_ptr<SingleSiteLaw> make_uniform_law(double a, double b);
-  /** Binary alloy: q_A with probability c, q_B otherwise (0 ≤ c ≤ 1). */
-  std::unique_ptr<SingleSiteLaw> make_bernoulli_law(double c, double q_a, double q_b);
-  /** Finite law: values[i] with probabilities[i] (1..64 of them; non-negative, summing to 1 within 1e-9, renormalised). */
-  std::unique_ptr<SingleSiteLaw> make_discrete_law(const std::vector<double> &values,
-                                                   const std::vector<double> &probabilities);
-
-  /**
    * Reads a cell-values file for @p lattice: one line per cell with
    * dimension() 0-based integer indices and then the value ("i j k value" in
    * 3D, "i value" in 1D); blank lines and text after '#' are ignored. Throws
@@ -57,9 +31,20 @@ namespace alloyspec
    * The cell potential @f$V_\omega = \sum_n q_n(\omega)\chi_n@f$.
    *
    * Parameters (subsection `potential`): `law` = uniform | bernoulli |
-   * discrete | file, and per law: `minimum`, `maximum` (uniform);
-   * `concentration`, `value A`, `value B` (bernoulli); `values`,
-   * `probabilities` (discrete); `file` (file).
+   * discrete | gaussian | beta | tabulated | binomial | file, and per law:
+   * - uniform: `minimum`, `maximum`;
+   * - bernoulli: `concentration`, `value A`, `value B`;
+   * - discrete: `values`, `probabilities`;
+   * - gaussian: `mean`, `standard deviation`, `truncate`; with
+   *   `truncate = true` the law is conditioned on [`minimum`, `maximum`];
+   * - beta: `shape at minimum` (α), `shape at maximum` (β), scaled to
+   *   [`minimum`, `maximum`];
+   * - tabulated: `density file` (two columns q, h(q); piecewise linear);
+   * - binomial: `atoms per cell`, `concentration` (of A), `value A`,
+   *   `value B` (coarse-grained alloy, see make_binomial_alloy_law());
+   * - file: `file` (one fixed potential).
+   * `minimum` and `maximum` mean the same for every law that uses them: the
+   * interval all values lie in.
    */
   class PotentialModel
   {
@@ -78,9 +63,14 @@ namespace alloyspec
 
     bool                 is_random() const { return law_ != nullptr; }
     const SingleSiteLaw *law() const { return law_.get(); }
-    /** Lower bound of every cell value (law support or file minimum). */
+    /**
+     * Lower bound of every cell value: the infimum of the law's support (the
+     * bottom of the almost-sure spectrum; -∞ for an untruncated Gaussian
+     * law), or the minimum of fixed values. A realisation's own minimum is
+     * the minimum of cell_values().
+     */
     double               bottom() const;
-    /** Upper bound of every cell value. */
+    /** Upper bound of every cell value (+∞ for an untruncated Gaussian law). */
     double               top() const;
     std::string          description() const;
 
