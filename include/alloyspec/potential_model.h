@@ -1,4 +1,4 @@
-/** @file potential_model.h  Single-site laws and the random cell potential V_ω. */
+/** @file potential_model.h  The random cell potential V_ω and the cell-values file (laws: single_site_laws.h). */
 #pragma once
 
 #include <alloyspec/single_site_laws.h>
