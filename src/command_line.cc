@@ -89,6 +89,14 @@ end
             prm.enter_subsection(parts[i]);
           prm.set(parts.back(), value);
         }
+      catch (const dealii::ParameterHandler::ExcEntryUndeclared &)
+        {
+          for (; entered > 0; --entered)
+            prm.leave_subsection();
+          throw InputError("option '--set': there is no such entry '" + parts.back() +
+                           "' in section '" + path.substr(0, path.rfind('/')) +
+                           "' (see 'alloyspec parameters' for every entry and its allowed values)");
+        }
       catch (const dealii::ExceptionBase &e)
         {
           for (; entered > 0; --entered)
@@ -111,7 +119,13 @@ end
             {
               if (!std::filesystem::exists(config))
                 throw InputError("parameter file '" + config + "' does not exist");
-              prm.parse_input(config, "", true);
+              prm.parse_input(config, "", false);
+              // A data file named in a parameter file is found next to it.
+              prm.enter_subsection("potential");
+              const std::filesystem::path file = prm.get("file");
+              if (!file.empty() && file.is_relative())
+                prm.set("file", (std::filesystem::path(config).parent_path() / file).string());
+              prm.leave_subsection();
             }
         }
       catch (const dealii::ExceptionBase &e)

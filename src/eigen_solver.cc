@@ -60,7 +60,7 @@ namespace alloyspec
     prm.declare_entry("energy cutoff", "", dealii::Patterns::Anything(),
                       "If not empty: compute all eigenvalues at or below this energy instead of a "
                       "fixed count (their number is first found by an inertia count).");
-    prm.declare_entry("tolerance", "1e-10", dealii::Patterns::Double(1e-15, 1e-4),
+    prm.declare_entry("tolerance", "1e-12", dealii::Patterns::Double(1e-15, 1e-4),
                       "Relative convergence tolerance of the Krylov-Schur iteration.");
     prm.declare_entry("solver", "tuned", dealii::Patterns::Selection("tuned|baseline"),
                       "tuned: shift below the spectrum, subspace sized for k, no eigenvector "

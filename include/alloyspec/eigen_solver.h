@@ -23,7 +23,7 @@ namespace alloyspec
     /** If set: all eigenvalues ≤ this energy. */
     std::optional<double> energy_cutoff;
     /** Relative convergence tolerance of the Krylov–Schur iteration. */
-    double                tolerance = 1e-10;
+    double                tolerance = 1e-12;
     /** "tuned" or "baseline" (plain library defaults, for benchmarks). */
     std::string           method = "tuned";
     /** Largest number of eigenpairs one solve may be asked for. */

@@ -1,0 +1,56 @@
+#!/usr/bin/env bash
+# Bad input must give a clear message naming the parameter (or file) and exit
+# status 2, and must never touch an earlier study's results.
+# Usage: bad_input.sh EXE WORKDIR CONFIGDIR
+set -uo pipefail
+exe=$1 work=$2 configs=$3
+rm -rf "$work"; mkdir -p "$work"
+failures=0 cases=0
+
+expect_error() { # expect_error "what the message must contain" args...
+  local must=$1; shift
+  cases=$((cases + 1))
+  local out status
+  out=$("$exe" "$@" 2>&1 >/dev/null); status=$?
+  if [ "$status" -ne 2 ] || ! grep -qF -- "$must" <<<"$out"; then
+    echo "FAIL: '$*' gave status $status, message: $out (expected status 2 and '$must')"
+    failures=$((failures + 1))
+  fi
+}
+
+tiny=(--set "lattice/cells=2,2,2" --set study/realisations=1 --set spectrum/eigenvalues=5 --no-progress)
+expect_error "lattice/cells"      run "${tiny[@]}" --set "lattice/cells=0,2,2" --output "$work/a"
+expect_error "lattice/cells"      run "${tiny[@]}" --set "lattice/cells=2,2,2,2" --output "$work/a"
+expect_error "cell size"          run "${tiny[@]}" --set "lattice/cell size=-1" --output "$work/a"
+expect_error "potential/law"      run "${tiny[@]}" --set "potential/law=lognormal" --output "$work/a"
+expect_error "concentration"      run "${tiny[@]}" --set "potential/concentration=1.5" --output "$work/a"
+expect_error "potential/maximum"  run "${tiny[@]}" --set "potential/law=uniform" --set "potential/maximum=-3" --output "$work/a"
+expect_error "probabilities"      run "${tiny[@]}" --set "potential/law=discrete" --set "potential/values=0,1" --set "potential/probabilities=0.5,0.6" --output "$work/a"
+expect_error "degree"             run "${tiny[@]}" --set "discretisation/degree=7" --output "$work/a"
+expect_error "energy cutoff"      run "${tiny[@]}" --set "spectrum/energy cutoff=abc" --output "$work/a"
+expect_error "boundary conditions" run "${tiny[@]}" --set "spectrum/boundary conditions=robin" --output "$work/a"
+expect_error "study/realisations" run "${tiny[@]}" --set "study/realisations=0" --output "$work/a"
+expect_error "study/energies"     run "${tiny[@]}" --set "study/energies=3:0.1:1" --output "$work/a"
+expect_error "study/seed"         run "${tiny[@]}" --seed=-4 --output "$work/a"
+expect_error "no such entry 'colour'"      run "${tiny[@]}" --set "lattice/colour=red" --output "$work/a"
+expect_error "section/entry=value" run "${tiny[@]}" --set "lattice" --output "$work/a"
+expect_error "does not exist"     run "$work/missing.prm" --output "$work/a"
+printf 'subsection lattice\n  set cels = 2\nend\n' > "$work/typo.prm"
+expect_error "cels"               run "$work/typo.prm" --output "$work/a"
+printf '0 0 0 1\n1 0 0 1\n0 0 0 2\n' > "$work/dup.cells"
+expect_error "line 3"             run "${tiny[@]}" --set "lattice/cells=2,1,1" --set "potential/law=file" --set "potential/file=$work/dup.cells" --output "$work/a"
+printf '0 0 0 1\n1 0 0 1\n' > "$work/short.cells"
+expect_error "missing"            run "${tiny[@]}" --set "potential/law=file" --set "potential/file=$work/short.cells" --output "$work/a"
+expect_error "cannot"             run "${tiny[@]}" --set "potential/law=file" --set "potential/file=$work/nothing.cells" --output "$work/a"
+
+# An earlier study is never overwritten: same folder again is refused, files unchanged.
+"$exe" run "${tiny[@]}" --output "$work/earlier" > /dev/null || { echo "FAIL: tiny study did not run"; exit 1; }
+before=$(cd "$work/earlier" && sha256sum eigenvalues.csv realisations.csv ids.csv run.json)
+expect_error "earlier study" run "${tiny[@]}" --output "$work/earlier"
+after=$(cd "$work/earlier" && sha256sum eigenvalues.csv realisations.csv ids.csv run.json)
+cases=$((cases + 1))
+if [ "$before" != "$after" ]; then echo "FAIL: an earlier study's files changed"; failures=$((failures + 1)); fi
+[ -d "$work/a" ] && [ -n "$(ls -A "$work/a")" ] && { echo "FAIL: a refused run left files in $work/a"; failures=$((failures + 1)); }
+
+echo "bad input: $cases cases, $failures failures"
+[ "$failures" -eq 0 ]

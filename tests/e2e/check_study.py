@@ -1,0 +1,56 @@
+#!/usr/bin/env python3
+"""Checks one finished study folder: files, headers, residuals, inertia, and the
+Dirichlet-Neumann order of the counting functions.
+
+Per realisation, N_D(E) <= N_N(E) at every E: the Dirichlet form domain is a
+subspace of the Neumann one (min-max principle; Reed & Simon vol. IV, XIII.15),
+and the same inclusion holds for the finite-element spaces on one mesh.
+"""
+import csv
+import json
+import math
+import sys
+
+RESIDUAL_LIMIT = 1e-8  # the solver's default tolerance is 1e-12; common practice, no source
+
+
+def main(folder):
+    with open(f"{folder}/run.json") as f:
+        run = json.load(f)
+    assert run["realisations_stored"] >= 1, "no realisation stored"
+    with open(f"{folder}/eigenvalues.csv") as f:
+        rows = list(csv.DictReader(f))
+    assert rows, "eigenvalues.csv is empty"
+    assert list(rows[0].keys())[:5] == ["realisation", "boundary", "index", "eigenvalue", "residual"]
+    spectra = {}
+    for r in rows:
+        assert float(r["residual"]) < RESIDUAL_LIMIT, f"residual {r['residual']} too large"
+        spectra.setdefault((int(r["realisation"]), r["boundary"]), []).append(float(r["eigenvalue"]))
+    with open(f"{folder}/realisations.csv") as f:
+        summary = list(csv.DictReader(f))
+    complete = {}
+    for s in summary:
+        key = (int(s["realisation"]), s["boundary"])
+        assert int(s["inertia_count"]) == len(spectra.get(key, [])), f"inertia mismatch {key}"
+        complete[key] = float(s["complete_up_to"])
+    for (r, bc), values in spectra.items():
+        assert values == sorted(values), "eigenvalues not sorted"
+        if bc == "dirichlet" and (r, "neumann") in spectra:
+            neumann = spectra[(r, "neumann")]
+            top = min(complete[(r, "dirichlet")], complete[(r, "neumann")])
+            for e in [v for v in values + neumann if v <= top]:
+                nd = sum(1 for v in values if v <= e)
+                nn = sum(1 for v in neumann if v <= e)
+                assert nd <= nn, f"realisation {r}: N_D({e}) = {nd} > N_N = {nn}"
+    with open(f"{folder}/ids.csv") as f:
+        ids = list(csv.DictReader(f))
+    assert ids, "ids.csv is empty"
+    for row in ids:
+        if "ids_dirichlet" in row and "ids_neumann" in row:
+            if row["complete_dirichlet"] == "1" and row["complete_neumann"] == "1":
+                assert float(row["ids_dirichlet"]) <= float(row["ids_neumann"]) + 1e-15, row
+    print(f"{folder}: {len(rows)} eigenvalues, {len(summary)} solves, {len(ids)} IDS rows: ok")
+
+
+if __name__ == "__main__":
+    main(sys.argv[1])
