@@ -241,8 +241,13 @@ namespace alloyspec
              << " with lines lw 2 lc rgb '" << colour(boundaries[b]) << "' title "
              << gnuplot_string(boundaries[b]) << ", \\\n     ";
       }
-    plot << "data using 1:" << 2 + 3 * boundaries.size()
-         << " with lines dt 2 lw 1.5 lc rgb 'black' title 'semiclassical'\n";
+    const bool has_semi =
+      std::any_of(semi.begin(), semi.end(), [](double x) { return std::isfinite(x); });
+    if (has_semi)
+      plot << "data using 1:" << 2 + 3 * boundaries.size()
+           << " with lines dt 2 lw 1.5 lc rgb 'black' title 'semiclassical'\n";
+    else
+      plot << "NaN notitle\n";
     std::ostringstream caption;
     caption << "Mean IDS over realisations per boundary condition. Band: "
             << (column(ids, "lower_" + (boundaries.empty() ? "" : boundaries[0])).empty()
@@ -250,9 +255,11 @@ namespace alloyspec
                   : "bootstrap percentile interval")
             << " at confidence " << confidence
             << ". Dirichlet lies below and Neumann above the infinite-volume IDS "
-               "(Kirsch & Martinelli 1982). Dashed: semiclassical count E_q[(E−q)₊^{d/2}]·ω_d/(2π)^d "
-               "(cell by cell Weyl law). Curves stop where some realisation's spectrum is "
-               "incomplete.";
+               "(Kirsch & Martinelli 1982). "
+            << (has_semi ? "Dashed: semiclassical count E_q[(E−q)₊^{d/2}]·ω_d/(2π)^d (Weyl's "
+                           "law cell by cell). "
+                         : "")
+            << "Curves stop where some realisation's spectrum is incomplete.";
     return maker.make("ids", "Integrated density of states", caption.str(), data.str(),
                       plot.str());
   }
@@ -330,7 +337,7 @@ namespace alloyspec
     plot << "set xlabel 'ln(E − E₀)  (E in the energy unit of the study)'\n"
          << "set ylabel 'ln(−ln n(E)),  n = IDS per unit cell'\nset key top right\n";
     for (std::size_t b = 0; b < fits.size(); ++b)
-      if (fits[b].points >= 3 && fits[b].window_high > e0)
+      if (std::isfinite(fits[b].slope) && fits[b].window_high > e0)
         plot << "f" << b << "(x) = (x >= " << num(std::log(std::max(fits[b].window_low, e0) - e0))
              << " && x <= " << num(std::log(fits[b].window_high - e0)) << ") ? "
              << num(fits[b].intercept) << " + " << num(fits[b].slope) << "*x : NaN\n";
@@ -341,7 +348,7 @@ namespace alloyspec
         plot << (b ? ", \\\n     " : "") << "data using 1:" << 2 + 2 * b << ":" << 3 + 2 * b
              << " with yerrorbars pt 7 ps 0.6 lc rgb '" << col << "' title "
              << gnuplot_string(boundaries[b]);
-        if (fits[b].points >= 3 && fits[b].window_high > e0)
+        if (std::isfinite(fits[b].slope) && fits[b].window_high > e0)
           plot << ", \\\n     f" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
                << gnuplot_string("fit, slope " + num(std::round(fits[b].slope * 1000) / 1000) +
                                  (fits[b].resolved ? "" : " (not resolved)"));
@@ -386,8 +393,15 @@ namespace alloyspec
     std::ostringstream plot, caption;
     plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
          << "set ylabel 'ln ρ(E)  (Gaussian-broadened DOS)'\nset key bottom right\n";
+    // Show the window with as much again on either side: the tail, not the whole band.
+    if (!fits.empty() && fits[0].window_high > fits[0].window_low)
+      {
+        const double w = fits[0].window_high - fits[0].window_low;
+        plot << "set xrange [" << num(fits[0].window_low - w) << ":" << num(fits[0].window_high + w)
+             << "]\n";
+      }
     for (std::size_t b = 0; b < fits.size(); ++b)
-      if (fits[b].points >= 3)
+      if (std::isfinite(fits[b].slope))
         plot << "g" << b << "(x) = (x >= " << num(fits[b].window_low)
              << " && x <= " << num(fits[b].window_high) << ") ? " << num(fits[b].intercept)
              << " + " << num(fits[b].slope) << "*(x - " << num(fits[b].reference_energy)
@@ -399,7 +413,7 @@ namespace alloyspec
         plot << (b ? ", \\\n     " : "") << "data using 1:" << 2 + 2 * b << ":" << 3 + 2 * b
              << " with yerrorbars pt 7 ps 0.5 lc rgb '" << col << "' title "
              << gnuplot_string(boundaries[b]);
-        if (fits[b].points >= 3)
+        if (std::isfinite(fits[b].slope))
           plot << ", \\\n     g" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
                << gnuplot_string("fit, E_U = " + num(std::round(fits[b].urbach_energy * 1e4) / 1e4) +
                                  (fits[b].resolved ? "" : " (not resolved)"));
@@ -452,8 +466,15 @@ namespace alloyspec
                     const std::vector<std::vector<BinRow>> &bins, const double volume,
                     const double cell_volume)
   {
+    // Both reference levels and all means inside the frame, with a margin.
+    double top = 1.0 / cell_volume, bottom = 1.0 / volume;
+    for (const auto &b : bins)
+      for (const auto &r : b)
+        if (r.count >= min_bin_count && r.mean > 0)
+          top = std::max(top, r.mean), bottom = std::min(bottom, r.mean);
     std::ostringstream plot;
-    plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
+    plot << "set yrange [" << num(bottom / 3) << ":" << num(top * 3) << "]\n"
+         << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
          << "set ylabel 'mean IPR ∫|ψ|⁴/(∫|ψ|²)²  (1/volume)'\nset logscale y\nset key top right\n"
          << "plot " << bin_plot(boundaries) << ", \\\n     " << num(1.0 / volume)
          << " with lines dt 3 lc rgb 'gray40' title '1/|Λ| (spread over the box)', \\\n     "
@@ -472,7 +493,7 @@ namespace alloyspec
   {
     std::ostringstream plot;
     plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
-         << "set ylabel 'mean spacing ratio ⟨r⟩'\nset yrange [0.25:0.65]\nset key bottom right\n"
+         << "set ylabel 'mean spacing ratio ⟨r⟩'\nset yrange [0:*]\nset key below\n"
          << "plot " << bin_plot(boundaries) << ", \\\n     " << num(spacing_ratio_poisson)
          << " with lines dt 2 lw 1.5 lc rgb 'black' title 'Poisson 2 ln 2 − 1 ≈ 0.386', \\\n     "
          << num(spacing_ratio_goe)

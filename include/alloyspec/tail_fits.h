@@ -6,6 +6,7 @@
 #pragma once
 
 #include <cstddef>
+#include <limits>
 #include <string>
 #include <vector>
 
@@ -90,13 +91,15 @@ namespace alloyspec
     std::size_t points = 0;           ///< grid points used
     std::size_t states = 0;           ///< eigenvalues in the window, all realisations
     std::size_t realisations = 0;     ///< realisations with an eigenvalue in the window
-    double      slope = 0, slope_error = 0, slope_low = 0, slope_high = 0;
-    double      intercept = 0;
-    double      chi_squared = 0;
+    /** NaN until a line has been fitted (fewer than 3 usable points: never). */
+    static constexpr double unset = std::numeric_limits<double>::quiet_NaN();
+    double      slope = unset, slope_error = unset, slope_low = unset, slope_high = unset;
+    double      intercept = unset;
+    double      chi_squared = unset;
     std::size_t dof         = 0;
     double      expected_slope = 0;   ///< Lifshitz: −d/2
     bool        consistent     = false; ///< Lifshitz: expected slope inside the interval
-    double      urbach_energy = 0, urbach_low = 0, urbach_high = 0; ///< Urbach: 1/slope
+    double      urbach_energy = unset, urbach_low = unset, urbach_high = unset; ///< Urbach: 1/slope
     double      reference_energy = 0; ///< Urbach: E_ref
   };
 
