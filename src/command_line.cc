@@ -2,6 +2,7 @@
 #include <alloyspec/errors.h>
 #include <alloyspec/progress.h>
 #include <alloyspec/study.h>
+#include <alloyspec/summary.h>
 
 #include <deal.II/base/exceptions.h>
 #include <deal.II/base/mpi.h>
@@ -122,9 +123,14 @@ end
               prm.parse_input(config, "", false);
               // A data file named in a parameter file is found next to it.
               prm.enter_subsection("potential");
-              const std::filesystem::path file = prm.get("file");
-              if (!file.empty() && file.is_relative())
-                prm.set("file", (std::filesystem::path(config).parent_path() / file).string());
+              for (const char *entry : {"file", "density file"})
+                {
+                  const std::filesystem::path file = prm.get(entry);
+                  if (!file.empty() && file.is_relative())
+                    prm.set(entry, std::filesystem::absolute(
+                                     std::filesystem::path(config).parent_path() / file)
+                                     .string());
+                }
               prm.leave_subsection();
             }
         }
@@ -134,6 +140,13 @@ end
                            "': " + exception_text(e) +
                            " (see 'alloyspec parameters' for every entry and its allowed values)");
         }
+    }
+
+    std::string to_short_prm(const dealii::ParameterHandler &prm)
+    {
+      std::ostringstream out;
+      prm.print_parameters(out, dealii::ParameterHandler::ShortPRM);
+      return out.str();
     }
 
     std::string to_json(const dealii::ParameterHandler &prm)
@@ -179,6 +192,21 @@ end
     parameters->add_option("--format", format, "prm or json")->check(CLI::IsMember({"prm", "json"}));
     auto *demo = app.add_subcommand("demo", "Print the embedded demo scenario's parameter file.");
 
+    std::vector<std::string> summary_inputs;
+    std::string              summary_output;
+    std::vector<std::string> summary_overrides;
+    auto *summarise = app.add_subcommand(
+      "summarise", "Recompute tables, figures and report from stored results, without solving; "
+                   "merge folders of one model, or extrapolate a series of box sizes.");
+    summarise->add_option("folders", summary_inputs, "Study folders written by 'alloyspec run'.")
+      ->required();
+    summarise->add_option("-o,--output", summary_output,
+                          "Folder for the tables (default: the study folder itself when one is "
+                          "given; required for several).");
+    summarise->add_option("-s,--set", summary_overrides,
+                          "Override an analysis parameter, e.g. \"analysis/lorentzian width=0.05\", "
+                          "or study/energies (repeatable).");
+
     try
       {
         app.parse(argc, argv);
@@ -206,12 +234,65 @@ end
               std::cout << default_scenario;
             return 0;
           }
+        if (summarise->parsed())
+          {
+            if (summary_output.empty())
+              {
+                if (summary_inputs.size() != 1)
+                  throw InputError("option '--output' is required when several folders are "
+                                   "summarised");
+                summary_output = summary_inputs.front();
+              }
+            for (const auto &assignment : summary_overrides)
+              {
+                const std::string key = assignment.substr(0, assignment.find('='));
+                if (key.rfind("analysis/", 0) != 0 && key != "study/energies")
+                  throw InputError("option '--set' of summarise: '" + key +
+                                   "' would change the model; only analysis/... entries and "
+                                   "study/energies may be changed without solving again");
+              }
+            std::vector<StoredStudy> stored;
+            AnalysisSettings         settings;
+            for (const auto &folder : summary_inputs)
+              {
+                const std::string file = (std::filesystem::path(folder) / "parameters.prm").string();
+                if (!std::filesystem::exists(file))
+                  throw InputError("summarise: '" + folder +
+                                   "' is not a study folder (no parameters.prm)");
+                dealii::ParameterHandler stored_prm;
+                Study::declare_parameters(stored_prm);
+                read_parameters(stored_prm, file);
+                for (const auto &assignment : summary_overrides)
+                  apply_override(stored_prm, assignment);
+                Study s;
+                s.parse_parameters(stored_prm);
+                stored.push_back(s.collect(folder, to_short_prm(stored_prm)));
+                if (stored.size() == 1)
+                  settings = s.analysis_settings();
+              }
+            if (root)
+              {
+                for (const auto &warning : summarise_studies(summary_output, stored, settings))
+                  std::cerr << "alloyspec: warning: " << warning << '\n';
+                std::cout << "Tables, figures and report written to " << summary_output << "/\n"
+                          << "These are model estimates for the stated model and box, not "
+                             "measurements.\n";
+              }
+            return 0;
+          }
 
         read_parameters(prm, config);
         for (const auto &assignment : overrides)
           apply_override(prm, assignment);
         if (!seed.empty())
           apply_override(prm, "study/seed=" + seed);
+        // Stored parameters name data files absolutely, so that a study
+        // folder can be summarised or resumed from anywhere.
+        prm.enter_subsection("potential");
+        for (const char *entry : {"file", "density file"})
+          if (const std::filesystem::path file = prm.get(entry); !file.empty())
+            prm.set(entry, std::filesystem::absolute(file).string());
+        prm.leave_subsection();
 
         Study study;
         study.parse_parameters(prm);
@@ -237,20 +318,16 @@ end
         options.resume           = resume;
         options.progress         = !no_progress && Progress::stderr_is_terminal();
         options.parameters_json  = to_json(prm);
+        options.parameters_prm   = to_short_prm(prm);
         study.run(options);
         if (root)
           {
-            std::ofstream(std::filesystem::path(output) / "parameters.prm")
-              << [&] {
-                   std::ostringstream s;
-                   prm.print_parameters(s, dealii::ParameterHandler::ShortPRM);
-                   return s.str();
-                 }();
             std::cout << "Timings (s):";
             for (const auto &[name, seconds] : study.timings())
               std::cout << ' ' << name << ' ' << seconds;
             std::cout << "\nResults in " << output
-                      << "/: eigenvalues.csv, realisations.csv, ids.csv, run.json, parameters.prm\n"
+                      << "/: eigenvalues.csv, realisations.csv, ids.csv, dos.csv, tails.json, "
+                         "localisation.csv, figures/, report.html, run.json, parameters.prm\n"
                       << "These are model estimates for the stated model and box, not measurements.\n";
           }
         return 0;

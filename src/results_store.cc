@@ -146,7 +146,13 @@ namespace alloyspec
 
   void ResultsStore::write_file(const std::string &file, const std::string &content) const
   {
-    const std::string target    = path(file);
+    write_file_in(directory_, file, content);
+  }
+
+  void ResultsStore::write_file_in(const std::string &directory, const std::string &file,
+                                   const std::string &content)
+  {
+    const std::string target    = (std::filesystem::path(directory) / file).string();
     const std::string temporary = target + ".partial";
     {
       std::ofstream out(temporary, std::ios::binary | std::ios::trunc);

@@ -4,6 +4,7 @@
 #include <alloyspec/spectral_problem.h>
 #include <alloyspec/spectrum_statistics.h>
 #include <alloyspec/study.h>
+#include <alloyspec/summary.h>
 #include <alloyspec/weyl_law.h>
 
 #include <deal.II/base/mpi.h>
@@ -12,6 +13,10 @@
 
 #include <algorithm>
 #include <chrono>
+#include <filesystem>
+#include <fstream>
+#include <iostream>
+#include <numeric>
 #include <cmath>
 #include <cstdio>
 #include <set>
@@ -154,6 +159,7 @@ namespace alloyspec
     DiscretisationSettings::declare_parameters(prm);
     EigenSolverSettings::declare_parameters(prm);
     StudySettings::declare_parameters(prm);
+    AnalysisSettings::declare_parameters(prm);
   }
 
   void Study::parse_parameters(dealii::ParameterHandler &prm)
@@ -163,12 +169,15 @@ namespace alloyspec
     discretisation_settings_.parse_parameters(prm);
     solver_settings_.parse_parameters(prm);
     study_.parse_parameters(prm);
+    analysis_.parse_parameters(prm);
   }
 
   void Study::run(const RunOptions &options)
   {
     const bool   root = dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0;
     ResultsStore store(options.output_directory, options.resume);
+    if (root)
+      check_and_record_parameters(store, options);
     { ScopedTimer t(timings_, "make_grid");    make_grid(); }
     { ScopedTimer t(timings_, "setup_system"); setup_system(); }
     { ScopedTimer t(timings_, "assemble");     assemble(); }
@@ -285,74 +294,96 @@ namespace alloyspec
     progress.finish();
   }
 
-  void Study::postprocess(const ResultsStore &store, const RunOptions &options)
+  StoredStudy Study::collect(const std::string &directory, const std::string &parameters_prm) const
   {
-    const auto   records = ResultsStore::read(store.directory());
-    const double volume  = lattice_.volume();
+    StoredStudy stored;
+    stored.directory  = directory;
+    stored.parameters = flatten_parameters(parameters_prm);
+    stored.seed       = study_.seed;
+    AnalysisInput &in = stored.input;
+    in.dimension      = lattice_.dimension();
+    in.volume         = lattice_.volume();
+    in.cells          = lattice_.cells();
+    in.cell_size      = lattice_.cell_size();
+    for (const Boundary bc : study_.boundaries)
+      in.boundaries.push_back(to_string(bc));
+    in.energies        = study_.energies;
+    in.band_bottom     = potential_.bottom();
+    in.mean_potential  = potential_.is_random() ? potential_.law()->mean() : 0.0;
+    in.model_summary   = "H = -Laplacian + V on " + lattice_.description() + "; " +
+                       potential_.description() + "; FE_Q(" +
+                       std::to_string(discretisation_settings_.degree) + ") with " +
+                       std::to_string(discretisation_settings_.elements_per_cell) +
+                       " elements per cell edge.";
+    in.parameters_text = parameters_prm;
 
-    std::vector<IdsAccumulator> ids;
-    for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
-      ids.emplace_back(study_.energies, volume);
     std::set<std::uint64_t> realisations;
-    for (const auto &r : records)
+    for (auto &r : ResultsStore::read(directory))
+      if (r.realisation >= study_.first_realisation &&
+          r.realisation < study_.first_realisation + study_.realisations &&
+          std::find_if(study_.boundaries.begin(), study_.boundaries.end(), [&](Boundary bc) {
+            return to_string(bc) == r.boundary;
+          }) != study_.boundaries.end())
+        {
+          realisations.insert(r.realisation);
+          in.records.push_back(std::move(r));
+        }
+    if (!potential_.is_random())
       {
-        if (r.realisation < study_.first_realisation ||
-            r.realisation >= study_.first_realisation + study_.realisations)
-          continue;
-        for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
-          if (r.boundary == to_string(study_.boundaries[b]))
-            ids[b].add(r.eigenvalues, r.complete_up_to);
-        realisations.insert(r.realisation);
+        const std::vector<double> q = potential_.cell_values(study_.seed, 0);
+        in.mean_potential = std::accumulate(q.begin(), q.end(), 0.0) / q.size();
       }
 
     // Phase-space (semiclassical) count of the same realisations; the cell
     // values are regenerated from the counter-based stream, not stored.
-    std::vector<double> semiclassical(study_.energies.size(), 0.0);
+    stored.semiclassical_sum.assign(study_.energies.size(), 0.0);
     for (const std::uint64_t r : realisations)
       {
         const std::vector<double> q = potential_.cell_values(study_.seed, r);
         for (std::size_t i = 0; i < study_.energies.size(); ++i)
-          semiclassical[i] += semiclassical_ids(lattice_.dimension(), q, study_.energies[i]);
+          stored.semiclassical_sum[i] +=
+            semiclassical_ids(lattice_.dimension(), q, study_.energies[i]);
       }
-    for (double &s : semiclassical)
-      s /= std::max<std::size_t>(1, realisations.size());
+    return stored;
+  }
 
-    auto index_of = [&](Boundary bc) -> int {
-      const auto it = std::find(study_.boundaries.begin(), study_.boundaries.end(), bc);
-      return it == study_.boundaries.end() ? -1 : static_cast<int>(it - study_.boundaries.begin());
-    };
-    const int d = index_of(Boundary::dirichlet), n = index_of(Boundary::neumann),
-              p = index_of(Boundary::periodic);
-    std::vector<std::vector<IdsAccumulator::Row>> rows;
-    for (const auto &a : ids)
-      rows.push_back(a.rows());
-
-    std::ostringstream csv;
-    csv << "energy";
-    for (const int b : {d, n, p})
-      if (b >= 0)
-        csv << ",ids_" << to_string(study_.boundaries[b]) << ",stderr_"
-            << to_string(study_.boundaries[b]);
-    if (d >= 0 && n >= 0)
-      csv << ",width";
-    for (const int b : {d, n, p})
-      if (b >= 0)
-        csv << ",complete_" << to_string(study_.boundaries[b]);
-    csv << ",semiclassical,realisations\n";
-    for (std::size_t i = 0; i < study_.energies.size(); ++i)
+  void Study::check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const
+  {
+    const std::string stored_path = store.path("parameters.prm");
+    if (options.resume && std::filesystem::exists(stored_path))
       {
-        csv << number(study_.energies[i]);
-        for (const int b : {d, n, p})
-          if (b >= 0)
-            csv << ',' << number(rows[b][i].mean) << ',' << number(rows[b][i].standard_error);
-        if (d >= 0 && n >= 0)
-          csv << ',' << number(rows[n][i].mean - rows[d][i].mean);
-        for (const int b : {d, n, p})
-          if (b >= 0)
-            csv << ',' << (rows[b][i].complete ? 1 : 0);
-        csv << ',' << number(semiclassical[i]) << ',' << realisations.size() << '\n';
+        std::ifstream      in(stored_path);
+        std::ostringstream text;
+        text << in.rdbuf();
+        const auto before = flatten_parameters(text.str());
+        const auto now    = flatten_parameters(options.parameters_prm);
+        std::string differ;
+        for (const auto &[key, value] : now)
+          if (key != "study/realisations" && key.rfind("analysis/", 0) != 0)
+            {
+              const auto it = before.find(key);
+              if (it == before.end() || it->second != value)
+                differ += "\n  " + key + ": stored '" +
+                          (it == before.end() ? std::string("<absent>") : it->second) +
+                          "', now '" + value + "'";
+            }
+        if (!differ.empty())
+          throw InputError("option '--resume': the stored study in '" + store.directory() +
+                           "' was run with other parameters; nothing was changed. Differences:" +
+                           differ);
       }
-    store.write_file("ids.csv", csv.str());
+    store.write_file("parameters.prm", options.parameters_prm);
+  }
+
+  void Study::postprocess(const ResultsStore &store, const RunOptions &options)
+  {
+    const StoredStudy stored = collect(store.directory(), options.parameters_prm);
+    for (const auto &warning : write_study_tables(store.directory(), {stored}, analysis_))
+      std::cerr << "alloyspec: warning: " << warning << '\n';
+    std::set<std::uint64_t> realisations;
+    for (const auto &r : stored.input.records)
+      realisations.insert(r.realisation);
+    const double volume = lattice_.volume();
 
     // run.json: what was run, with what, how long, how big.
     rusage usage{};

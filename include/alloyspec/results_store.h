@@ -65,6 +65,9 @@ namespace alloyspec
 
     /** Writes @p content to @p file in the folder atomically (temporary file, fsync, rename). */
     void write_file(const std::string &file, const std::string &content) const;
+    /** Same for any folder. */
+    static void write_file_in(const std::string &directory, const std::string &file,
+                              const std::string &content);
 
   private:
     std::string directory_;

@@ -5,6 +5,7 @@
 #include <alloyspec/eigen_solver.h>
 #include <alloyspec/lattice.h>
 #include <alloyspec/potential_model.h>
+#include <alloyspec/spectral_analysis.h>
 
 #include <cstdint>
 #include <map>
@@ -21,6 +22,7 @@ namespace alloyspec
 {
   class ResultsStore;
   struct RealisationRecord;
+  struct StoredStudy;
 
   /** Subsection `study`: how many realisations, which seed, which energy grid. */
   struct StudySettings
@@ -44,6 +46,8 @@ namespace alloyspec
     bool        progress = false;
     /** Effective parameters as JSON, copied into run.json. */
     std::string parameters_json;
+    /** Effective parameters in deal.II's short format, stored as parameters.prm. */
+    std::string parameters_prm;
   };
 
   /**
@@ -74,6 +78,14 @@ namespace alloyspec
     void run(const RunOptions &options);
 
     const std::map<std::string, double> &timings() const { return timings_; }
+    const AnalysisSettings              &analysis_settings() const { return analysis_; }
+
+    /**
+     * The records of this study's realisations stored in @p directory, with
+     * everything needed to tabulate them (see summary.h). Cell values for the
+     * semiclassical count are regenerated from the counter-based stream.
+     */
+    StoredStudy collect(const std::string &directory, const std::string &parameters_prm) const;
 
   private:
     void make_grid();
@@ -81,6 +93,8 @@ namespace alloyspec
     void assemble();
     void solve(const ResultsStore &store, const RunOptions &options);
     void postprocess(const ResultsStore &store, const RunOptions &options);
+    /** Stores parameters.prm; on resume, refuses other model parameters than stored. */
+    void check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const;
 
     RealisationRecord solve_one(std::uint64_t realisation, std::size_t boundary_index);
 
@@ -89,6 +103,7 @@ namespace alloyspec
     DiscretisationSettings discretisation_settings_;
     EigenSolverSettings    solver_settings_;
     StudySettings          study_;
+    AnalysisSettings       analysis_;
 
     std::vector<std::unique_ptr<Discretisation>>  discretisations_;
     std::vector<std::unique_ptr<SpectralProblem>> problems_;
