@@ -196,7 +196,9 @@ namespace alloyspec
         const int         numeric[] = {0, 2, 3, 4, 5, 6, 7};
         for (int i = 0; i < 7; ++i)
           ok = ok && parse_double(f[numeric[i]], values[i]);
-        if (!ok)
+        double attempts = 0;
+        // The last field too: a line torn just after its last comma has all fields.
+        if (!ok || !parse_double(f[8], attempts))
           continue;
         r.realisation    = static_cast<std::uint64_t>(values[0]);
         r.boundary       = f[1];

@@ -1,4 +1,5 @@
 #include <alloyspec/errors.h>
+#include <alloyspec/interrupt.h>
 #include <alloyspec/progress.h>
 #include <alloyspec/results_store.h>
 #include <alloyspec/spectral_problem.h>
@@ -17,6 +18,7 @@
 #include <fstream>
 #include <iostream>
 #include <numeric>
+#include <optional>
 #include <cmath>
 #include <cstdio>
 #include <set>
@@ -99,6 +101,46 @@ namespace alloyspec
     }
 
     constexpr std::uint64_t max_realisations = 4294967295ULL; // the stream counter holds 32 bits
+
+    /**
+     * Collective: when any rank reports an error, every rank throws it, so that
+     * no rank is left waiting in a later collective call (a hang) and the
+     * message reaches rank 0, which prints it. @p error empty means no error.
+     */
+    void throw_if_any_failed(MPI_Comm comm, const std::string &error, bool input_error)
+    {
+      const std::string mine = error.empty() ? std::string() : (input_error ? "I" : "C") + error;
+      const auto        all  = dealii::Utilities::MPI::all_gather(comm, mine);
+      for (std::size_t p = 0; p < all.size(); ++p)
+        if (!all[p].empty())
+          {
+            std::string text = all[p].substr(1);
+            if (all.size() > 1)
+              text = "(MPI rank " + std::to_string(p) + ") " + text;
+            if (all[p][0] == 'I')
+              throw InputError(text);
+            throw std::runtime_error(text);
+          }
+    }
+
+    /** Runs @p job, turning an exception into (message, is input error). */
+    template <typename Job>
+    std::pair<std::string, bool> capture_error(Job &&job)
+    {
+      try
+        {
+          job();
+        }
+      catch (const InputError &e)
+        {
+          return {e.what(), true};
+        }
+      catch (const std::exception &e)
+        {
+          return {e.what(), false};
+        }
+      return {std::string(), false};
+    }
   } // namespace
 
   void StudySettings::declare_parameters(dealii::ParameterHandler &prm)
@@ -175,13 +217,20 @@ namespace alloyspec
   void Study::run(const RunOptions &options)
   {
     const bool   root = dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0;
+    // SIGINT/SIGTERM from here on finish the running realisation first.
+    std::optional<InterruptGuard> interrupt_guard(std::in_place);
     ResultsStore store(options.output_directory, options.resume);
-    if (root)
-      check_and_record_parameters(store, options);
+    // Only rank 0 writes; every rank must learn if it refused (else the others hang).
+    const auto [error, input_error] = capture_error([&] {
+      if (root)
+        check_and_record_parameters(store, options);
+    });
+    throw_if_any_failed(MPI_COMM_WORLD, error, input_error);
     { ScopedTimer t(timings_, "make_grid");    make_grid(); }
     { ScopedTimer t(timings_, "setup_system"); setup_system(); }
     { ScopedTimer t(timings_, "assemble");     assemble(); }
     { ScopedTimer t(timings_, "solve");        solve(store, options); }
+    interrupt_guard.reset(); // the tables are quick and rewritten on resume anyway
     if (root)
       {
         ScopedTimer t(timings_, "postprocess");
@@ -269,16 +318,30 @@ namespace alloyspec
     const std::size_t rounds = (pending.size() + ranks - 1) / ranks;
     for (std::size_t round = 0; round < rounds; ++round)
       {
+        // A stop request on any rank stops all, between two rounds, so every
+        // finished realisation is stored.
+        if (const int signal = dealii::Utilities::MPI::max(InterruptGuard::received(), comm))
+          {
+            progress.finish();
+            const std::size_t stored =
+              study_.realisations - pending.size() + std::min(pending.size(), round * ranks);
+            throw Interrupted(signal, "stopped on " + signal_name(signal) + ": " +
+                                        std::to_string(stored) + " of " +
+                                        std::to_string(study_.realisations) +
+                                        " realisations are stored in '" + store.directory() + "'");
+          }
         const std::size_t slot = round * ranks + rank;
         std::string       eigen_text, summary_text;
-        if (slot < pending.size())
-          for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
-            {
-              const RealisationRecord record = solve_one(pending[slot], b);
-              eigen_text += record.eigenvalue_lines();
-              summary_text += record.summary_line();
-              ++solved_here_;
-            }
+        const auto [error, input_error] = capture_error([&] {
+          if (slot < pending.size())
+            for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
+              {
+                const RealisationRecord record = solve_one(pending[slot], b);
+                eigen_text += record.eigenvalue_lines();
+                summary_text += record.summary_line();
+                ++solved_here_;
+              }
+        });
         // Rank 0 owns the files; it appends every finished realisation of
         // this round before any rank starts the next one.
         const auto eigen_all   = dealii::Utilities::MPI::gather(comm, eigen_text, 0);
@@ -290,6 +353,8 @@ namespace alloyspec
                 store.append_text(eigen_all[p], summary_all[p]);
             progress.update(std::min(pending.size(), (round + 1) * ranks));
           }
+        // After storing what the other ranks finished.
+        throw_if_any_failed(comm, error, input_error);
       }
     progress.finish();
   }

@@ -15,7 +15,11 @@ namespace alloyspec
    * Runs the command line. Returns the exit status: 0 on success, 2 for bad
    * input (a message naming the parameter or file and the allowed values is
    * printed; nothing already written is touched), 1 for a failure of the
-   * computation itself. MPI (and PETSc/SLEPc) must be initialised.
+   * computation itself, 128 + signal (130 for SIGINT, 143 for SIGTERM) when
+   * `run` was stopped by that signal after storing the realisation it was
+   * solving (continue with `--resume`; a second signal ends the process at
+   * once). An error on any MPI rank ends every rank with the same status.
+   * MPI (and PETSc/SLEPc) must be initialised.
    */
   int run_command_line(int argc, char **argv);
 } // namespace alloyspec

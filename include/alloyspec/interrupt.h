@@ -1,0 +1,52 @@
+/** @file interrupt.h  Stopping a long run cleanly on SIGINT or SIGTERM. */
+#pragma once
+
+#include <stdexcept>
+#include <string>
+
+namespace alloyspec
+{
+  /**
+   * While alive, SIGINT and SIGTERM do not kill the process: the first one
+   * only records its number, so that the running realisation can be finished
+   * and stored before the study stops (see Study::solve()). A second signal
+   * restores the previous disposition and raises the signal again, so that an
+   * impatient user can still end the process at once (the store stays
+   * readable: a torn last record is ignored when the study is resumed). The
+   * previous handlers are restored on destruction.
+   */
+  class InterruptGuard
+  {
+  public:
+    InterruptGuard();
+    ~InterruptGuard();
+    InterruptGuard(const InterruptGuard &)            = delete;
+    InterruptGuard &operator=(const InterruptGuard &) = delete;
+
+    /** The first signal received while a guard was alive, 0 if none. */
+    static int received();
+    /** Forgets a received signal (tests). */
+    static void reset();
+  };
+
+  /**
+   * Thrown after a run stopped on request (all finished realisations are
+   * stored). The command line prints what() and exits with status
+   * 128 + signal() (130 for SIGINT, 143 for SIGTERM, the shell convention).
+   */
+  class Interrupted : public std::runtime_error
+  {
+  public:
+    Interrupted(int signal, const std::string &message)
+      : std::runtime_error(message)
+      , signal_(signal)
+    {}
+    int signal() const { return signal_; }
+
+  private:
+    int signal_;
+  };
+
+  /** "SIGINT", "SIGTERM" or "signal N". */
+  std::string signal_name(int signal);
+} // namespace alloyspec

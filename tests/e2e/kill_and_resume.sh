@@ -1,0 +1,61 @@
+#!/usr/bin/env bash
+# Crash safety: a study killed (SIGKILL) at several moments and resumed each
+# time must end with the same results as an uninterrupted run; SIGTERM must stop
+# cleanly after storing the running realisation, with exit status 143 and a
+# message saying how to resume. Usage: kill_and_resume.sh EXE WORKDIR
+set -uo pipefail
+exe=$1 work=$2
+here=$(dirname "$0")
+rm -rf "$work"; mkdir -p "$work"
+# Small but not instant: each realisation takes a noticeable fraction of a second,
+# so the kills land inside solves as well as between them.
+args=(--set "lattice/cells=3,3,3" --set study/realisations=14 --set spectrum/eigenvalues=20
+      --set "study/energies=0:0.1:4" --no-progress)
+fail() { echo "FAIL: $*"; exit 1; }
+
+"$exe" run "${args[@]}" --output "$work/straight" > "$work/straight.log" 2>&1 \
+  || fail "uninterrupted run failed: $(cat "$work/straight.log")"
+
+# Kill moments from a fixed seed, so a failure can be replayed.
+RANDOM=20240611
+out="$work/killed"
+resume=()
+for kill in 1 2 3 4; do
+  "$exe" run "${args[@]}" --output "$out" "${resume[@]}" > "$work/kill$kill.log" 2>&1 &
+  pid=$!
+  # Count from the end of start-up (parameters echoed), which varies with load.
+  for i in $(seq 200); do grep -q "Effective parameters" "$work/kill$kill.log" && break; sleep 0.05; done
+  delay=$(printf '%d.%03d' $((RANDOM % 2)) $((RANDOM % 1000)))
+  sleep "$delay"
+  kill -KILL "$pid" 2>/dev/null
+  wait "$pid" 2>/dev/null
+  resume=(--resume)
+  stored=0
+  [ -f "$out/realisations.csv" ] && stored=$(($(wc -l < "$out/realisations.csv") - 1))
+  echo "kill $kill after ${delay}s: $stored summary lines on disk"
+done
+
+# SIGTERM: finish the running realisation, store it, exit 143 with advice.
+"$exe" run "${args[@]}" --output "$out" --resume > "$work/term.log" 2>&1 &
+pid=$!
+# Signal only once the signal handlers are in place (after the parameters are echoed).
+for i in $(seq 100); do grep -q "Effective parameters" "$work/term.log" && break; sleep 0.05; done
+sleep 0.3
+kill -TERM "$pid" 2>/dev/null
+wait "$pid"; status=$?
+if [ "$status" -eq 143 ]; then
+  grep -q -- "--resume" "$work/term.log" || fail "SIGTERM message does not say how to resume: $(cat "$work/term.log")"
+elif [ "$status" -ne 0 ]; then
+  fail "SIGTERM gave exit status $status (expected 143, or 0 if it came after the last realisation): $(cat "$work/term.log")"
+fi
+echo "SIGTERM: exit status $status"
+
+# Resume until done (bounded).
+for attempt in 1 2 3; do
+  if "$exe" run "${args[@]}" --output "$out" --resume > "$work/resume$attempt.log" 2>&1; then
+    break
+  fi
+  [ "$attempt" -eq 3 ] && fail "resume did not finish: $(cat "$work/resume$attempt.log")"
+done
+python3 "$here/check_study.py" "$out" || fail "resumed study does not pass check_study.py"
+python3 "$here/compare_studies.py" "$work/straight" "$out" || fail "resumed study differs from the uninterrupted one"
