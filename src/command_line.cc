@@ -1,5 +1,7 @@
 #include <alloyspec/command_line.h>
 #include <alloyspec/errors.h>
+#include <alloyspec/inertia_count.h>
+#include <alloyspec/interrupt.h>
 #include <alloyspec/progress.h>
 #include <alloyspec/study.h>
 #include <alloyspec/summary.h>
@@ -59,6 +61,24 @@ end
         text.pop_back();
       const auto first = text.find_first_not_of(" \n");
       return first == std::string::npos ? text : text.substr(first);
+    }
+
+    /**
+     * Study::parse_parameters() with deal.II's conversion errors reported as
+     * bad input: a value containing '{' skips deal.II's pattern check (the
+     * syntax of its parameter loops), so get_double() may be the first to see it.
+     */
+    void parse_study(Study &study, dealii::ParameterHandler &prm)
+    {
+      try
+        {
+          study.parse_parameters(prm);
+        }
+      catch (const dealii::ExceptionBase &e)
+        {
+          throw InputError("parameter file: " + exception_text(e) +
+                           " (see 'alloyspec parameters' for every entry and its allowed values)");
+        }
     }
 
     /** Applies "section/sub/entry=value". */
@@ -186,6 +206,21 @@ end
     run->add_flag("--print-parameters", print_only,
                   "Print the effective parameters and stop without computing.");
 
+    std::string count_config, count_output;
+    std::vector<std::string> count_overrides;
+    bool                     count_no_progress = false;
+    auto *count = app.add_subcommand(
+      "count", "IDS from inertia counts only (no eigenvectors; for large boxes): N(E) on the "
+               "energy grid per realisation and boundary condition; writes counts.csv, ids.csv, "
+               "run.json.");
+    count->add_option("config", count_config,
+                      "Parameter file (deal.II format). Without it the embedded demo scenario is used.");
+    count->add_option("-o,--output", count_output, "Folder for the results (must be new or empty).")
+      ->required();
+    count->add_option("-s,--set", count_overrides,
+                      "Override one parameter: \"section/entry=value\" (repeatable).");
+    count->add_flag("--no-progress", count_no_progress, "Never print the progress line.");
+
     std::string format = "prm";
     auto *parameters = app.add_subcommand(
       "parameters", "Print every parameter with its description and default value.");
@@ -265,7 +300,7 @@ end
                 for (const auto &assignment : summary_overrides)
                   apply_override(stored_prm, assignment);
                 Study s;
-                s.parse_parameters(stored_prm);
+                parse_study(s, stored_prm);
                 stored.push_back(s.collect(folder, to_short_prm(stored_prm)));
                 if (stored.size() == 1)
                   settings = s.analysis_settings();
@@ -278,6 +313,29 @@ end
                           << "These are model estimates for the stated model and box, not "
                              "measurements.\n";
               }
+            return 0;
+          }
+
+        if (count->parsed())
+          {
+            read_parameters(prm, count_config);
+            for (const auto &assignment : count_overrides)
+              apply_override(prm, assignment);
+            {
+              Study check; // the same validation as `run`
+              parse_study(check, prm);
+            }
+            CountOptions count_options;
+            count_options.output_directory = count_output;
+            count_options.progress         = !count_no_progress && Progress::stderr_is_terminal();
+            count_options.parameters_json  = to_json(prm);
+            count_options.parameters_prm   = to_short_prm(prm);
+            run_inertia_count(prm, count_options);
+            if (root)
+              std::cout << "Counts in " << count_output
+                        << "/: counts.csv, ids.csv, run.json, parameters.prm\n"
+                        << "These are model estimates for the stated model and box, not "
+                           "measurements.\n";
             return 0;
           }
 
@@ -295,7 +353,7 @@ end
         prm.leave_subsection();
 
         Study study;
-        study.parse_parameters(prm);
+        parse_study(study, prm);
 
         if (root)
           {
@@ -337,6 +395,16 @@ end
         if (root)
           std::cerr << "alloyspec: error: " << e.what() << '\n';
         return 2;
+      }
+    catch (const Interrupted &e)
+      {
+        // 128 + signal number, as a shell reports a process ended by it.
+        if (root)
+          std::cerr << "alloyspec: " << e.what()
+                    << ". To continue, run the same command again with --resume added, e.g.\n  "
+                    << "alloyspec run " << (config.empty() ? std::string() : config + " ")
+                    << "--output " << output << " --resume [same --set options]\n";
+        return 128 + e.signal();
       }
     catch (const dealii::ExceptionBase &e)
       {

@@ -1,5 +1,6 @@
 #include <alloyspec/eigen_solver.h>
 #include <alloyspec/errors.h>
+#include <alloyspec/inertia_count.h>
 #include <alloyspec/spectral_problem.h>
 
 #include <deal.II/base/parameter_handler.h>
@@ -107,6 +108,17 @@ namespace alloyspec
   {}
 
   EigenSolver::~EigenSolver() = default;
+
+  std::size_t EigenSolver::verified_count(const SpectralProblem &problem, double energy)
+  {
+    // baseline: a fresh ordering and symbolic factorisation every time.
+    if (settings_.method != "tuned")
+      return count_below(problem, energy);
+    auto &counter = counters_[&problem];
+    if (!counter)
+      counter = std::make_unique<InertiaCounter>();
+    return counter->count_below(problem, energy);
+  }
 
   std::size_t EigenSolver::count_below(const SpectralProblem &problem, double energy)
   {
@@ -245,7 +257,7 @@ namespace alloyspec
     std::size_t wanted = settings_.n_eigenvalues;
     if (settings_.energy_cutoff)
       {
-        wanted = count_below(problem, *settings_.energy_cutoff);
+        wanted = verified_count(problem, *settings_.energy_cutoff);
         if (wanted > settings_.max_eigenvalues)
           throw InputError("parameter 'spectrum/energy cutoff': " +
                            std::to_string(wanted) + " eigenvalues lie below the cutoff " +
@@ -275,7 +287,7 @@ namespace alloyspec
         if (j >= std::min(wanted, n_genuine) && j > 0)
           {
             const double      cut   = 0.5 * (pairs.values[j - 1] + pairs.values[j]);
-            const std::size_t count = count_below(problem, cut);
+            const std::size_t count = verified_count(problem, cut);
             if (count == j)
               {
                 EigenResult result;

@@ -3,6 +3,7 @@
 #include <alloyspec/spectrum_statistics.h>
 
 #include <algorithm>
+#include <limits>
 #include <cerrno>
 #include <cmath>
 #include <cstdlib>
@@ -142,7 +143,22 @@ namespace alloyspec
 
   void IdsAccumulator::add(const std::vector<double> &eigenvalues, const double complete_up_to)
   {
-    const auto counts = counting_function(eigenvalues, volume_, energies_);
+    add_normalised(counting_function(eigenvalues, volume_, energies_), complete_up_to);
+  }
+
+  void IdsAccumulator::add_counts(const std::vector<std::size_t> &counts)
+  {
+    if (counts.size() != energies_.size())
+      throw std::invalid_argument("IdsAccumulator::add_counts: one count per energy is needed");
+    std::vector<double> normalised;
+    normalised.reserve(counts.size());
+    for (const std::size_t c : counts)
+      normalised.push_back(double(c) / volume_);
+    add_normalised(normalised, std::numeric_limits<double>::infinity());
+  }
+
+  void IdsAccumulator::add_normalised(const std::vector<double> &counts, const double complete_up_to)
+  {
     // Sums of deviations from the first realisation (the "shifted data"
     // algorithm): the variance formula is shift-invariant, and with a shift near
     // the mean the cancellation in Σx² − (Σx)²/n no longer loses the digits that

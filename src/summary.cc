@@ -120,6 +120,44 @@ namespace alloyspec
     return flat;
   }
 
+  std::string format_ids_table(const std::vector<std::string>                   &boundaries,
+                               const std::vector<double>                        &energies,
+                               const std::vector<std::vector<IdsAccumulator::Row>> &rows,
+                               const std::vector<double>                        &semiclassical,
+                               const std::size_t                                 n_realisations)
+  {
+    auto index_of = [&](const std::string &name) -> int {
+      const auto it = std::find(boundaries.begin(), boundaries.end(), name);
+      return it == boundaries.end() ? -1 : static_cast<int>(it - boundaries.begin());
+    };
+    const int d = index_of("dirichlet"), n = index_of("neumann"), p = index_of("periodic");
+    std::ostringstream csv;
+    csv << "energy";
+    for (const int b : {d, n, p})
+      if (b >= 0)
+        csv << ",ids_" << boundaries[b] << ",stderr_" << boundaries[b];
+    if (d >= 0 && n >= 0)
+      csv << ",width";
+    for (const int b : {d, n, p})
+      if (b >= 0)
+        csv << ",complete_" << boundaries[b];
+    csv << ",semiclassical,realisations\n";
+    for (std::size_t i = 0; i < energies.size(); ++i)
+      {
+        csv << number(energies[i]);
+        for (const int b : {d, n, p})
+          if (b >= 0)
+            csv << ',' << number(rows[b][i].mean) << ',' << number(rows[b][i].standard_error);
+        if (d >= 0 && n >= 0)
+          csv << ',' << number(rows[n][i].mean - rows[d][i].mean);
+        for (const int b : {d, n, p})
+          if (b >= 0)
+            csv << ',' << (rows[b][i].complete ? 1 : 0);
+        csv << ',' << number(semiclassical[i]) << ',' << n_realisations << '\n';
+      }
+    return csv.str();
+  }
+
   std::vector<std::string> write_study_tables(const std::string              &output_dir,
                                               const std::vector<StoredStudy> &studies,
                                               const AnalysisSettings         &settings)
@@ -154,37 +192,10 @@ namespace alloyspec
     for (const auto &a : ids)
       rows.push_back(a.rows());
 
-    auto index_of = [&](const std::string &name) -> int {
-      const auto it = std::find(merged.boundaries.begin(), merged.boundaries.end(), name);
-      return it == merged.boundaries.end() ? -1 : static_cast<int>(it - merged.boundaries.begin());
-    };
-    const int d = index_of("dirichlet"), n = index_of("neumann"), p = index_of("periodic");
-    std::ostringstream csv;
-    csv << "energy";
-    for (const int b : {d, n, p})
-      if (b >= 0)
-        csv << ",ids_" << merged.boundaries[b] << ",stderr_" << merged.boundaries[b];
-    if (d >= 0 && n >= 0)
-      csv << ",width";
-    for (const int b : {d, n, p})
-      if (b >= 0)
-        csv << ",complete_" << merged.boundaries[b];
-    csv << ",semiclassical,realisations\n";
-    for (std::size_t i = 0; i < merged.energies.size(); ++i)
-      {
-        csv << number(merged.energies[i]);
-        for (const int b : {d, n, p})
-          if (b >= 0)
-            csv << ',' << number(rows[b][i].mean) << ',' << number(rows[b][i].standard_error);
-        if (d >= 0 && n >= 0)
-          csv << ',' << number(rows[n][i].mean - rows[d][i].mean);
-        for (const int b : {d, n, p})
-          if (b >= 0)
-            csv << ',' << (rows[b][i].complete ? 1 : 0);
-        csv << ',' << number(semiclassical[i]) << ',' << n_realisations << '\n';
-      }
     std::filesystem::create_directories(output_dir);
-    ResultsStore::write_file_in(output_dir, "ids.csv", csv.str());
+    ResultsStore::write_file_in(
+      output_dir, "ids.csv",
+      format_ids_table(merged.boundaries, merged.energies, rows, semiclassical, n_realisations));
 
     merged.ids_table = (std::filesystem::path(output_dir) / "ids.csv").string();
     return write_analysis(output_dir, merged, settings);

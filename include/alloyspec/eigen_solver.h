@@ -2,6 +2,8 @@
 #pragma once
 
 #include <cstddef>
+#include <map>
+#include <memory>
 #include <optional>
 #include <string>
 #include <vector>
@@ -14,6 +16,7 @@ namespace dealii
 namespace alloyspec
 {
   struct SpectralProblem;
+  class InertiaCounter;
 
   /** Subsection `spectrum` (solver part). */
   struct EigenSolverSettings
@@ -80,6 +83,11 @@ namespace alloyspec
     const EigenSolverSettings &settings() const { return settings_; }
 
   private:
+    /** Inertia count for the list check: reuses one symbolic factorisation per problem ("tuned"). */
+    std::size_t verified_count(const SpectralProblem &problem, double energy);
+
     EigenSolverSettings settings_;
+    /** One counter per problem (boundary condition): K and M keep their pattern across realisations. */
+    std::map<const SpectralProblem *, std::unique_ptr<InertiaCounter>> counters_;
   };
 } // namespace alloyspec

@@ -51,11 +51,19 @@ namespace alloyspec
 
     /** Adds one realisation. */
     void add(const std::vector<double> &eigenvalues, double complete_up_to);
+    /**
+     * Adds one realisation given by its eigenvalue counts @f$\#\{\lambda_j \le E_i\}@f$
+     * at the grid energies (from inertia counts; complete at every energy).
+     */
+    void add_counts(const std::vector<std::size_t> &counts);
 
     std::size_t      n_realisations() const { return n_; }
     std::vector<Row> rows() const;
 
   private:
+    /** @p counts already divided by the volume. */
+    void add_normalised(const std::vector<double> &counts, double complete_up_to);
+
     std::vector<double> energies_;
     double              volume_;
     std::size_t         n_ = 0;

@@ -2,6 +2,7 @@
 #pragma once
 
 #include <alloyspec/analysis.h>
+#include <alloyspec/spectrum_statistics.h>
 
 #include <cstdint>
 #include <map>
@@ -27,6 +28,20 @@ namespace alloyspec
 
   /** "section/entry" → value from a parameter text in deal.II's short format. */
   std::map<std::string, std::string> flatten_parameters(const std::string &short_prm_text);
+
+  /**
+   * The text of ids.csv: per energy, the mean counting function and its
+   * standard error for each boundary condition (columns in the order
+   * dirichlet, neumann, periodic, whichever are present), the Dirichlet–Neumann
+   * width, the completeness flags, the semiclassical count and the number of
+   * realisations. @p rows[b] belongs to @p boundaries[b]. Shared by `run`,
+   * `summarise` and `count`, so that all three write the same columns.
+   */
+  std::string format_ids_table(const std::vector<std::string>                   &boundaries,
+                               const std::vector<double>                        &energies,
+                               const std::vector<std::vector<IdsAccumulator::Row>> &rows,
+                               const std::vector<double>                        &semiclassical,
+                               std::size_t                                       n_realisations);
 
   /**
    * Writes ids.csv (mean counting functions with standard errors, completeness

@@ -1,0 +1,63 @@
+#!/usr/bin/env python3
+"""`count` (inertia counts, no eigenvectors) against `run` (verified eigenvalues)
+of the same study. Sylvester's law of inertia makes the number of negative
+pivots of K - E M the number of eigenvalues below E, so wherever the run's list
+is complete (E <= complete_up_to) and E is not within rounding of an
+eigenvalue, the count must equal #{lambda_j <= E} exactly, and ids.csv must
+agree there. Usage: count_vs_run.py RUN_FOLDER COUNT_FOLDER
+"""
+import csv
+import math
+import sys
+
+# An energy this close to an eigenvalue may be counted on either side by a
+# rounding error in the factorisation (common practice, no source).
+NEAR_EIGENVALUE = 1e-8
+IDS_TOLERANCE = 1e-12  # same integers averaged in the same order; common practice, no source
+
+
+def main(run, count):
+    spectra, complete = {}, {}
+    with open(f"{run}/eigenvalues.csv") as f:
+        for r in csv.DictReader(f):
+            spectra.setdefault((int(r["realisation"]), r["boundary"]), []).append(float(r["eigenvalue"]))
+    with open(f"{run}/realisations.csv") as f:
+        for r in csv.DictReader(f):
+            complete[(int(r["realisation"]), r["boundary"])] = float(r["complete_up_to"])
+    checked = skipped = 0
+    failures = []
+    with open(f"{count}/counts.csv") as f:
+        for r in csv.DictReader(f):
+            key = (int(r["realisation"]), r["boundary"])
+            e, n = float(r["energy"]), int(r["count"])
+            values = spectra[key]
+            if e > complete[key] or any(abs(v - e) <= NEAR_EIGENVALUE * max(1.0, abs(e)) for v in values):
+                skipped += 1
+                continue
+            expected = sum(1 for v in values if v <= e)
+            checked += 1
+            if n != expected:
+                failures.append(f"{key} at E={e}: count {n}, eigenvalues below: {expected}")
+    assert checked >= 20, f"only {checked} energies could be checked"
+    with open(f"{run}/ids.csv") as f:
+        ids_run = list(csv.DictReader(f))
+    with open(f"{count}/ids.csv") as f:
+        ids_count = list(csv.DictReader(f))
+    assert list(ids_run[0].keys()) == list(ids_count[0].keys()), "ids.csv columns differ"
+    for a, b in zip(ids_run, ids_count):
+        flags = [c for c in a if c.startswith("complete_")]
+        if not all(a[c] == "1" for c in flags):
+            continue
+        for column in a:
+            x, y = float(a[column]), float(b[column])
+            if not (x == y or abs(x - y) <= IDS_TOLERANCE * max(abs(x), abs(y))):
+                failures.append(f"ids.csv at E={a['energy']}, {column}: run {x}, count {y}")
+    for line in failures[:20]:
+        print("MISMATCH:", line)
+    if failures:
+        sys.exit(1)
+    print(f"count agrees with run at {checked} (realisation, boundary, energy) points; {skipped} skipped")
+
+
+if __name__ == "__main__":
+    main(sys.argv[1], sys.argv[2])
