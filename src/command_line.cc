@@ -5,6 +5,7 @@
 #include <alloyspec/progress.h>
 #include <alloyspec/study.h>
 #include <alloyspec/summary.h>
+#include <alloyspec/verify.h>
 
 #include <deal.II/base/exceptions.h>
 #include <deal.II/base/mpi.h>
@@ -226,6 +227,11 @@ end
       "parameters", "Print every parameter with its description and default value.");
     parameters->add_option("--format", format, "prm or json")->check(CLI::IsMember({"prm", "json"}));
     auto *demo = app.add_subcommand("demo", "Print the embedded demo scenario's parameter file.");
+    bool  thorough = false;
+    auto *verify   = app.add_subcommand(
+      "verify", "Check the solver against closed forms, exact 1D spectra and a dense reference "
+                "solver; prints a table, exit status 0 only if every check passes.");
+    verify->add_flag("--thorough", thorough, "Larger problems and more modes (slower).");
 
     std::vector<std::string> summary_inputs;
     std::string              summary_output;
@@ -262,6 +268,11 @@ end
               prm.print_parameters(std::cout, format == "json" ? dealii::ParameterHandler::JSON
                                                                : dealii::ParameterHandler::PRM);
             return 0;
+          }
+        if (verify->parsed())
+          {
+            const auto checks = run_verification(thorough, std::cerr);
+            return root ? print_verification(checks, std::cout) : 0;
           }
         if (demo->parsed())
           {
