@@ -62,6 +62,20 @@ namespace alloyspec
     static std::unique_ptr<Discretisation> create(const Lattice &                lattice,
                                                   const DiscretisationSettings &settings,
                                                   const BoundaryConditions &    bcs);
+    /**
+     * The domain of a Gmsh mesh file (quadrilaterals in 2D, hexahedra in 3D,
+     * of the lattice's dimension), refined @p refinements times, with @p bc
+     * (Dirichlet or Neumann) on its whole boundary. Elements take the cell
+     * value of the lattice cell containing their centre; the mesh must lie in
+     * the box of @p lattice (InputError otherwise, also for an unreadable file).
+     * `discretisation/elements per cell` is not used. Implemented in
+     * mesh_discretisation.cc.
+     */
+    static std::unique_ptr<Discretisation> create_from_mesh(const Lattice &                lattice,
+                                                            const DiscretisationSettings &settings,
+                                                            const std::string &           mesh_file,
+                                                            unsigned int                  refinements,
+                                                            Boundary                      bc);
     virtual ~Discretisation() = default;
 
     /** Builds the mesh aligned with the cells. */
@@ -76,6 +90,33 @@ namespace alloyspec
                                     SpectralProblem &          problem) const = 0;
     /** Allocates K and M with the right pattern and copies the fixed mass matrix into M. */
     virtual std::unique_ptr<SpectralProblem> make_problem() const = 0;
+
+    /** @f$|\Omega| = \sum_e |e|@f$, the measure of the domain (for a box: that of the box). */
+    virtual double volume() const = 0;
+    /**
+     * Per lattice cell (Lattice::cell_index order), the measure of the part of
+     * the domain whose potential is that cell's value: @f$a^d@f$ for every
+     * cell of a box; for a mesh, the summed volumes of the elements whose
+     * centre lies in the cell (0 for cells outside the mesh).
+     */
+    virtual std::vector<double> cell_volumes() const = 0;
+    /**
+     * Load vector @f$b_i = \int_\Omega \varphi_i\,dx@f$ of the constant 1,
+     * condensed with the constraints (0 at constrained DoFs), so that
+     * @f$K u = b@f$ is the Galerkin form of @f$(-\Delta + V)u = 1@f$.
+     */
+    virtual std::vector<double> load_vector() const = 0;
+    /** @p u with its constrained entries set from the constraints (periodic images, zeros). */
+    virtual std::vector<double> complete(const std::vector<double> &u) const = 0;
+    /**
+     * Values of the discrete function @p u (DoF values, completed) at every
+     * Gauss point (p+1 per direction) of every element, with the weights
+     * @f$|J|w@f$, so that @f$\sum_k f(\text{values}_k)\,\text{weights}_k \approx \int f(u)@f$.
+     */
+    virtual void quadrature_values(const std::vector<double> &u, std::vector<double> &values,
+                                   std::vector<double> &weights) const = 0;
+    /** Remarks on the geometry worth telling the user (e.g. elements straddling cell faces). */
+    virtual std::vector<std::string> notes() const { return {}; }
 
     virtual std::size_t n_dofs() const = 0;
     virtual std::size_t n_constrained_dofs() const = 0;
