@@ -15,6 +15,8 @@ namespace alloyspec
     std::string         boundary;
     std::vector<double> eigenvalues;
     std::vector<double> residuals;
+    /** Discretisation error bound per eigenvalue (error_estimate.h); NaN when not estimated. */
+    std::vector<double> errors;
     std::vector<double> inverse_participation_ratios;
     double              complete_up_to = 0; ///< all eigenvalues ≤ this are listed (inertia-verified)
     std::uint64_t       inertia_count  = 0;
@@ -39,7 +41,7 @@ namespace alloyspec
   {
   public:
     static constexpr const char *eigenvalue_header =
-      "realisation,boundary,index,eigenvalue,residual,ipr";
+      "realisation,boundary,index,eigenvalue,residual,error,ipr";
     static constexpr const char *summary_header =
       "realisation,boundary,n_eigenvalues,complete_up_to,inertia_count,potential_min,"
       "potential_max,solve_seconds,attempts";
