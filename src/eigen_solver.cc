@@ -191,6 +191,8 @@ namespace alloyspec
         }
       else
         ALLOYSPEC_CHECK(EPSSetDimensions(eps, nev, PETSC_DEFAULT, PETSC_DEFAULT));
+      // Expert tuning through PETSC_OPTIONS (-eps_ncv, -eps_mpd, ...).
+      ALLOYSPEC_CHECK(EPSSetFromOptions(eps));
       ALLOYSPEC_CHECK(EPSSolve(eps));
 
       PetscInt n_converged = 0, iterations = 0;
