@@ -199,6 +199,7 @@ namespace alloyspec
     Lattice::declare_parameters(prm);
     PotentialModel::declare_parameters(prm);
     DiscretisationSettings::declare_parameters(prm);
+    ErrorEstimateSettings::declare_parameters(prm);
     EigenSolverSettings::declare_parameters(prm);
     StudySettings::declare_parameters(prm);
     AnalysisSettings::declare_parameters(prm);
@@ -209,6 +210,7 @@ namespace alloyspec
     lattice_.parse_parameters(prm);
     potential_.parse_parameters(prm, lattice_);
     discretisation_settings_.parse_parameters(prm);
+    error_settings_.parse_parameters(prm);
     solver_settings_.parse_parameters(prm);
     study_.parse_parameters(prm);
     analysis_.parse_parameters(prm);
@@ -226,6 +228,11 @@ namespace alloyspec
         check_and_record_parameters(store, options);
     });
     throw_if_any_failed(MPI_COMM_WORLD, error, input_error);
+    if (error_settings_.accuracy)
+      {
+        ScopedTimer t(timings_, "choose_discretisation");
+        choose_for_accuracy(root);
+      }
     { ScopedTimer t(timings_, "make_grid");    make_grid(); }
     { ScopedTimer t(timings_, "setup_system"); setup_system(); }
     { ScopedTimer t(timings_, "assemble");     assemble(); }
@@ -264,6 +271,30 @@ namespace alloyspec
         problems_.push_back(d->make_problem());
       }
     solver_ = std::make_unique<EigenSolver>(solver_settings_);
+    estimators_.clear();
+    if (error_settings_.enabled())
+      for (const Boundary bc : study_.boundaries)
+        estimators_.push_back(std::make_unique<ErrorEstimator>(
+          lattice_, discretisation_settings_, BoundaryConditions(lattice_.dimension(), bc),
+          solver_settings_, RicherSpace::mesh));
+  }
+
+  void Study::choose_for_accuracy(const bool root)
+  {
+    const Boundary bc = study_.boundaries.front();
+    discretisation_choice_ = choose_discretisation(
+      lattice_, discretisation_settings_, BoundaryConditions(lattice_.dimension(), bc),
+      solver_settings_, potential_.cell_values(study_.seed, study_.first_realisation),
+      *error_settings_.accuracy);
+    discretisation_settings_ = discretisation_choice_->settings;
+    if (root)
+      std::cout << "Pilot solve for 'discretisation/accuracy' = " << *error_settings_.accuracy
+                << " (realisation " << study_.first_realisation << ", " << to_string(bc)
+                << "):\n"
+                << discretisation_choice_->log << "Chosen: degree " << discretisation_settings_.degree
+                << ", elements per cell " << discretisation_settings_.elements_per_cell
+                << (discretisation_choice_->met ? "" : " (target not met: the finest tried)")
+                << std::endl;
   }
 
   RealisationRecord Study::solve_one(std::uint64_t realisation, std::size_t b)
@@ -286,6 +317,8 @@ namespace alloyspec
     for (const auto &u : result.eigenvectors)
       record.inverse_participation_ratios.push_back(
         discretisations_[b]->inverse_participation_ratio(u));
+    if (!estimators_.empty())
+      record.errors = estimators_[b]->errors(q, result.eigenvalues);
     record.solve_seconds =
       std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     return record;
@@ -470,6 +503,12 @@ namespace alloyspec
     for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
       json << (b ? ", " : "") << '"' << to_string(study_.boundaries[b])
            << "\": " << discretisations_[b]->n_dofs();
+    json << "},\n  \"discretisation\": {\"degree\": " << discretisation_settings_.degree
+         << ", \"elements_per_cell\": " << discretisation_settings_.elements_per_cell
+         << ", \"error_estimate\": \"" << error_settings_.method << "\", \"accuracy_target\": "
+         << (error_settings_.accuracy ? number(*error_settings_.accuracy) : "null")
+         << ", \"accuracy_achieved\": "
+         << (discretisation_choice_ ? number(discretisation_choice_->achieved) : "null");
     json << "},\n  \"timings_seconds\": {";
     bool first = true;
     for (const auto &[name, seconds] : timings_)

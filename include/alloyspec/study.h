@@ -3,6 +3,7 @@
 
 #include <alloyspec/discretisation.h>
 #include <alloyspec/eigen_solver.h>
+#include <alloyspec/error_estimate.h>
 #include <alloyspec/lattice.h>
 #include <alloyspec/potential_model.h>
 #include <alloyspec/spectral_analysis.h>
@@ -10,6 +11,7 @@
 #include <cstdint>
 #include <map>
 #include <memory>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -96,18 +98,25 @@ namespace alloyspec
     /** Stores parameters.prm; on resume, refuses other model parameters than stored. */
     void check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const;
 
+    /** Pilot solve for `discretisation/accuracy`: sets degree and elements per cell. */
+    void choose_for_accuracy(bool root);
+
     RealisationRecord solve_one(std::uint64_t realisation, std::size_t boundary_index);
 
     Lattice                lattice_;
     PotentialModel         potential_;
     DiscretisationSettings discretisation_settings_;
     EigenSolverSettings    solver_settings_;
+    ErrorEstimateSettings  error_settings_;
+    /** Set when `discretisation/accuracy` chose degree and elements per cell. */
+    std::optional<DiscretisationChoice> discretisation_choice_;
     StudySettings          study_;
     AnalysisSettings       analysis_;
 
     std::vector<std::unique_ptr<Discretisation>>  discretisations_;
     std::vector<std::unique_ptr<SpectralProblem>> problems_;
     std::unique_ptr<EigenSolver>                  solver_;
+    std::vector<std::unique_ptr<ErrorEstimator>>  estimators_; ///< per boundary, if estimating
     std::map<std::string, double>                 timings_;
     std::size_t                                   solved_here_ = 0;
   };
