@@ -26,6 +26,10 @@ def main(folder):
     for r in rows:
         assert float(r["residual"]) < RESIDUAL_LIMIT, f"residual {r['residual']} too large"
         spectra.setdefault((int(r["realisation"]), r["boundary"]), []).append(float(r["eigenvalue"]))
+        # Discretisation error bound: nan when not estimated, else positive and
+        # (with its safety factor) still far below the eigenvalue itself.
+        if "error" in r and r["error"] != "nan":
+            assert 0 < float(r["error"]) < max(abs(float(r["eigenvalue"])), 1.0), f"error {r['error']}"
     with open(f"{folder}/realisations.csv") as f:
         summary = list(csv.DictReader(f))
     complete = {}
