@@ -331,8 +331,8 @@ namespace alloyspec
       for (const auto &bc : in.boundaries)
         all.push_back(analyse_boundary(in, bc, s));
 
-      write_text(output_dir + "/ids_band.csv", ids_band_csv(all, in.energies));
-      write_text(output_dir + "/dos.csv", dos_csv(all, in.energies));
+      write_text(output_dir + "/ids_band.csv", with_energy_columns(ids_band_csv(all, in.energies), in));
+      write_text(output_dir + "/dos.csv", with_energy_columns(dos_csv(all, in.energies), in));
       write_text(output_dir + "/localisation.csv", localisation_csv(all));
       write_text(output_dir + "/tails.json", tails_json(all, in, s));
 
@@ -439,6 +439,33 @@ namespace alloyspec
     }
   } // namespace
 
+  std::string with_energy_columns(const std::string &csv, const AnalysisInput &input)
+  {
+    if (!(input.solver_energy_unit > 0.0))
+      return csv;
+    std::istringstream in(csv);
+    std::ostringstream out;
+    std::string        line;
+    bool               header = true;
+    while (std::getline(in, line))
+      {
+        const auto  comma = line.find(',');
+        std::string first = line.substr(0, comma);
+        std::string rest  = comma == std::string::npos ? std::string() : line.substr(comma);
+        if (header)
+          {
+            if (first != "energy")
+              return csv; // not an energy table: leave it alone
+            out << input.energy_column << ",energy_reduced" << rest << '\n';
+            header = false;
+            continue;
+          }
+        const double e = std::strtod(first.c_str(), nullptr);
+        out << first << ',' << num(e / input.solver_energy_unit) << rest << '\n';
+      }
+    return out.str();
+  }
+
   std::vector<std::string> write_analysis(const std::string &output_dir, const AnalysisInput &input,
                                           const AnalysisSettings &settings)
   {
@@ -530,7 +557,7 @@ namespace alloyspec
           }
         csv << '\n';
       }
-    write_text(output_dir + "/extrapolation.csv", csv.str());
+    write_text(output_dir + "/extrapolation.csv", with_energy_columns(csv.str(), studies[largest]));
 
     ReportContent report;
     report.title = "alloyspec summary of " + std::to_string(studies.size()) + " box sizes";

@@ -2,6 +2,7 @@
 #include <alloyspec/errors.h>
 #include <alloyspec/inertia_count.h>
 #include <alloyspec/interrupt.h>
+#include <alloyspec/landscape.h>
 #include <alloyspec/progress.h>
 #include <alloyspec/study.h>
 #include <alloyspec/summary.h>
@@ -153,6 +154,14 @@ end
                                      .string());
                 }
               prm.leave_subsection();
+              prm.enter_subsection("lattice");
+              if (const std::filesystem::path mesh = prm.get("mesh file");
+                  !mesh.empty() && mesh.is_relative())
+                prm.set("mesh file",
+                        std::filesystem::absolute(std::filesystem::path(config).parent_path() / mesh)
+                          .lexically_normal()
+                          .string());
+              prm.leave_subsection();
             }
         }
       catch (const dealii::ExceptionBase &e)
@@ -221,6 +230,25 @@ end
     count->add_option("-s,--set", count_overrides,
                       "Override one parameter: \"section/entry=value\" (repeatable).");
     count->add_flag("--no-progress", count_no_progress, "Never print the progress line.");
+
+    std::string              landscape_config, landscape_output;
+    std::vector<std::string> landscape_overrides;
+    bool                     landscape_no_progress = false;
+    auto *landscape = app.add_subcommand(
+      "landscape", "Landscape estimate: one linear solve (H + shift) u = 1 per realisation and "
+                   "boundary condition instead of an eigen-solve; IDS estimate N_W(E) from "
+                   "W = 1/u and eigenvalue estimates from the minima of W, compared with the "
+                   "eigenvalues stored in the folder by 'alloyspec run' when there are any. "
+                   "Writes landscape.csv, landscape_eigenvalues.csv, landscape.json.");
+    landscape->add_option("config", landscape_config,
+                          "Parameter file (deal.II format). Without it the embedded demo scenario "
+                          "is used.");
+    landscape->add_option("-o,--output", landscape_output,
+                          "Folder for the results; may hold the same study run by 'alloyspec run'.")
+      ->required();
+    landscape->add_option("-s,--set", landscape_overrides,
+                          "Override one parameter: \"section/entry=value\" (repeatable).");
+    landscape->add_flag("--no-progress", landscape_no_progress, "Never print the progress line.");
 
     std::string format = "prm";
     auto *parameters = app.add_subcommand(
@@ -350,6 +378,30 @@ end
             return 0;
           }
 
+        if (landscape->parsed())
+          {
+            read_parameters(prm, landscape_config);
+            for (const auto &assignment : landscape_overrides)
+              apply_override(prm, assignment);
+            Study study;
+            parse_study(study, prm);
+            LandscapeSettings settings;
+            settings.parse_parameters(prm);
+            LandscapeStudy job(study, settings);
+            const auto lines =
+              job.run(landscape_output, !landscape_no_progress && Progress::stderr_is_terminal());
+            if (root)
+              {
+                for (const auto &line : lines)
+                  std::cout << line << '\n';
+                std::cout << "Results in " << landscape_output
+                          << "/: landscape.csv, landscape_eigenvalues.csv, landscape.json\n"
+                          << "These are model estimates for the stated model and box, not "
+                             "measurements.\n";
+              }
+            return 0;
+          }
+
         read_parameters(prm, config);
         for (const auto &assignment : overrides)
           apply_override(prm, assignment);
@@ -361,6 +413,10 @@ end
         for (const char *entry : {"file", "density file"})
           if (const std::filesystem::path file = prm.get(entry); !file.empty())
             prm.set(entry, std::filesystem::absolute(file).string());
+        prm.leave_subsection();
+        prm.enter_subsection("lattice");
+        if (const std::filesystem::path mesh = prm.get("mesh file"); !mesh.empty())
+          prm.set("mesh file", std::filesystem::absolute(mesh).string());
         prm.leave_subsection();
 
         Study study;

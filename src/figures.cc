@@ -122,6 +122,11 @@ namespace alloyspec
             table[names[k]].push_back(whole ? value : nan);
           }
       }
+    // Tables in physical units name their energy column with its unit
+    // ("energy_eV"); readers look it up as "energy".
+    if (table.count("energy") == 0 && !names.empty() && names[0].rfind("energy_", 0) == 0 &&
+        names[0] != "energy_reduced")
+      table["energy"] = table[names[0]];
     return table;
   }
 

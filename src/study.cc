@@ -1,4 +1,5 @@
 #include <alloyspec/errors.h>
+#include <alloyspec/landscape.h>
 #include <alloyspec/interrupt.h>
 #include <alloyspec/progress.h>
 #include <alloyspec/results_store.h>
@@ -197,6 +198,9 @@ namespace alloyspec
   void Study::declare_parameters(dealii::ParameterHandler &prm)
   {
     Lattice::declare_parameters(prm);
+    UnitSystem::declare_parameters(prm);
+    GeometrySettings::declare_parameters(prm);
+    LandscapeSettings::declare_parameters(prm);
     PotentialModel::declare_parameters(prm);
     DiscretisationSettings::declare_parameters(prm);
     ErrorEstimateSettings::declare_parameters(prm);
@@ -208,11 +212,24 @@ namespace alloyspec
   void Study::parse_parameters(dealii::ParameterHandler &prm)
   {
     lattice_.parse_parameters(prm);
+    units_.parse_parameters(prm, lattice_);
+    geometry_.parse_parameters(prm, lattice_);
     potential_.parse_parameters(prm, lattice_);
     discretisation_settings_.parse_parameters(prm);
     error_settings_.parse_parameters(prm);
+    if (error_settings_.accuracy && geometry_.has_mesh())
+      throw InputError("parameter 'discretisation/accuracy': not available with 'lattice/mesh file' "
+                       "(allowed there: empty; set the degree and refinements directly)");
     solver_settings_.parse_parameters(prm);
+    // The cutoff is given in the user's energy unit, the solver works in its own.
+    if (solver_settings_.energy_cutoff)
+      solver_settings_.energy_cutoff = units_.to_solver_energy(*solver_settings_.energy_cutoff);
     study_.parse_parameters(prm);
+    if (geometry_.has_mesh())
+      for (const Boundary bc : study_.boundaries)
+        if (bc == Boundary::periodic)
+          throw InputError("parameter 'spectrum/boundary conditions': 'periodic' is not allowed "
+                           "with 'lattice/mesh file' (allowed: dirichlet, neumann)");
     analysis_.parse_parameters(prm);
   }
 
@@ -250,10 +267,42 @@ namespace alloyspec
     discretisations_.clear();
     for (const Boundary bc : study_.boundaries)
       {
-        discretisations_.push_back(Discretisation::create(
-          lattice_, discretisation_settings_, BoundaryConditions(lattice_.dimension(), bc)));
+        discretisations_.push_back(make_discretisation(bc));
         discretisations_.back()->make_grid();
       }
+    if (dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0 && !discretisations_.empty())
+      for (const auto &note : discretisations_.front()->notes())
+        std::cerr << "alloyspec: warning: " << note << '\n';
+  }
+
+  std::unique_ptr<Discretisation> Study::make_discretisation(const Boundary bracketing) const
+  {
+    if (geometry_.has_mesh())
+      return Discretisation::create_from_mesh(lattice_, discretisation_settings_,
+                                              geometry_.mesh_file, geometry_.mesh_refinements,
+                                              bracketing);
+    return Discretisation::create(lattice_, discretisation_settings_,
+                                  geometry_.conditions(bracketing, lattice_.dimension()));
+  }
+
+  std::vector<double> Study::solver_cell_values(const std::uint64_t realisation) const
+  {
+    return units_.to_solver_energies(potential_.cell_values(study_.seed, realisation));
+  }
+
+  std::pair<double, std::vector<double>> Study::domain_volumes() const
+  {
+    if (!geometry_.has_mesh())
+      return {lattice_.volume(),
+              std::vector<double>(lattice_.n_cells(),
+                                  std::pow(lattice_.cell_size(), double(lattice_.dimension())))};
+    if (!discretisations_.empty())
+      return {discretisations_.front()->volume(), discretisations_.front()->cell_volumes()};
+    // summarise: nothing was solved here; reading the mesh is cheap.
+    auto d = make_discretisation(Boundary::neumann);
+    d->make_grid();
+    d->setup_system();
+    return {d->volume(), d->cell_volumes()};
   }
 
   void Study::setup_system()
@@ -274,18 +323,29 @@ namespace alloyspec
     estimators_.clear();
     if (error_settings_.enabled())
       for (const Boundary bc : study_.boundaries)
-        estimators_.push_back(std::make_unique<ErrorEstimator>(
-          lattice_, discretisation_settings_, BoundaryConditions(lattice_.dimension(), bc),
-          solver_settings_, RicherSpace::mesh));
+        {
+          // The richer space halves h: twice the elements per cell on a box,
+          // one more refinement of a mesh file.
+          const DiscretisationSettings fine =
+            richer_settings(discretisation_settings_, RicherSpace::mesh);
+          std::unique_ptr<Discretisation> d =
+            geometry_.has_mesh() ?
+              Discretisation::create_from_mesh(lattice_, discretisation_settings_,
+                                               geometry_.mesh_file,
+                                               geometry_.mesh_refinements + 1, bc) :
+              Discretisation::create(lattice_, fine,
+                                     geometry_.conditions(bc, lattice_.dimension()));
+          estimators_.push_back(std::make_unique<ErrorEstimator>(
+            std::move(d), discretisation_settings_, solver_settings_, RicherSpace::mesh));
+        }
   }
 
   void Study::choose_for_accuracy(const bool root)
   {
     const Boundary bc = study_.boundaries.front();
     discretisation_choice_ = choose_discretisation(
-      lattice_, discretisation_settings_, BoundaryConditions(lattice_.dimension(), bc),
-      solver_settings_, potential_.cell_values(study_.seed, study_.first_realisation),
-      *error_settings_.accuracy);
+      lattice_, discretisation_settings_, geometry_.conditions(bc, lattice_.dimension()),
+      solver_settings_, solver_cell_values(study_.first_realisation), *error_settings_.accuracy);
     discretisation_settings_ = discretisation_choice_->settings;
     if (root)
       std::cout << "Pilot solve for 'discretisation/accuracy' = " << *error_settings_.accuracy
@@ -300,7 +360,7 @@ namespace alloyspec
   RealisationRecord Study::solve_one(std::uint64_t realisation, std::size_t b)
   {
     const auto start = std::chrono::steady_clock::now();
-    const std::vector<double> q = potential_.cell_values(study_.seed, realisation);
+    const std::vector<double> q = solver_cell_values(realisation);
     discretisations_[b]->assemble_potential(q, *problems_[b]);
     EigenResult result = solver_->solve(*problems_[b]);
 
@@ -399,8 +459,9 @@ namespace alloyspec
     stored.parameters = flatten_parameters(parameters_prm);
     stored.seed       = study_.seed;
     AnalysisInput &in = stored.input;
+    const auto [volume, cell_volumes] = domain_volumes();
     in.dimension      = lattice_.dimension();
-    in.volume         = lattice_.volume();
+    in.volume         = volume;
     in.cells          = lattice_.cells();
     in.cell_size      = lattice_.cell_size();
     for (const Boundary bc : study_.boundaries)
@@ -413,6 +474,20 @@ namespace alloyspec
                        std::to_string(discretisation_settings_.degree) + ") with " +
                        std::to_string(discretisation_settings_.elements_per_cell) +
                        " elements per cell edge.";
+    if (geometry_.has_mesh())
+      in.model_summary += " Domain: " + geometry_.description() + " inside the lattice's box, "
+                          "volume " + std::to_string(volume) + " (IDS per unit volume of the mesh).";
+    else if (geometry_.any_periodic())
+      in.model_summary += " Faces: " + geometry_.description() +
+                          ", the listed boundary conditions on the other faces.";
+    in.model_summary += " Units: " + units_.description() + ".";
+    // Stored records are in solver units; everything analysed and shown is in the user's unit.
+    if (units_.is_physical())
+      {
+        in.energy_unit        = "E (" + units_.energy_label() + ")";
+        in.energy_column      = "energy_" + units_.energy_label();
+        in.solver_energy_unit = units_.solver_energy_unit();
+      }
     in.parameters_text = parameters_prm;
 
     std::set<std::uint64_t> realisations;
@@ -424,6 +499,10 @@ namespace alloyspec
           }) != study_.boundaries.end())
         {
           realisations.insert(r.realisation);
+          r.eigenvalues    = units_.to_user_energies(std::move(r.eigenvalues));
+          r.complete_up_to = units_.to_user_energy(r.complete_up_to);
+          r.potential_min  = units_.to_user_energy(r.potential_min);
+          r.potential_max  = units_.to_user_energy(r.potential_max);
           in.records.push_back(std::move(r));
         }
     if (!potential_.is_random())
@@ -433,14 +512,24 @@ namespace alloyspec
       }
 
     // Phase-space (semiclassical) count of the same realisations; the cell
-    // values are regenerated from the counter-based stream, not stored.
+    // values are regenerated from the counter-based stream, not stored. In
+    // solver units (a density per unit volume does not depend on the energy
+    // unit); each cell weighs with the volume of the domain that carries its
+    // value (all alike in a box, the mesh's share otherwise).
     stored.semiclassical_sum.assign(study_.energies.size(), 0.0);
+    const std::vector<double> solver_energies = units_.to_solver_energies(study_.energies);
     for (const std::uint64_t r : realisations)
       {
-        const std::vector<double> q = potential_.cell_values(study_.seed, r);
+        const std::vector<double> q = solver_cell_values(r);
         for (std::size_t i = 0; i < study_.energies.size(); ++i)
-          stored.semiclassical_sum[i] +=
-            semiclassical_ids(lattice_.dimension(), q, study_.energies[i]);
+          {
+            double sum = 0;
+            for (std::size_t n = 0; n < q.size(); ++n)
+              if (cell_volumes[n] > 0)
+                sum += cell_volumes[n] *
+                       free_ids_density(lattice_.dimension(), solver_energies[i] - q[n]);
+            stored.semiclassical_sum[i] += sum / volume;
+          }
       }
     return stored;
   }
@@ -481,7 +570,7 @@ namespace alloyspec
     std::set<std::uint64_t> realisations;
     for (const auto &r : stored.input.records)
       realisations.insert(r.realisation);
-    const double volume = lattice_.volume();
+    const double volume = domain_volumes().first;
 
     // run.json: what was run, with what, how long, how big.
     rusage usage{};
@@ -498,6 +587,12 @@ namespace alloyspec
          << "  \"host\": \"" << json_escape(host) << "\",\n"
          << "  \"lattice\": \"" << json_escape(lattice_.description()) << "\",\n"
          << "  \"volume\": " << number(volume) << ",\n"
+         << "  \"units\": {\"system\": \"" << (units_.is_physical() ? "physical" : "reduced")
+         << "\", \"energy_unit\": \"" << units_.energy_label()
+         << "\", \"length_unit\": \"" << units_.length_label()
+         << "\", \"records_energy_unit_in_user_unit\": " << number(units_.solver_energy_unit())
+         << ", \"description\": \"" << json_escape(units_.description()) << "\"},\n"
+         << "  \"geometry\": \"" << json_escape(geometry_.description()) << "\",\n"
          << "  \"potential\": \"" << json_escape(potential_.description()) << "\",\n"
          << "  \"degrees_of_freedom\": {";
     for (std::size_t b = 0; b < study_.boundaries.size(); ++b)

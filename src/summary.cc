@@ -195,7 +195,9 @@ namespace alloyspec
     std::filesystem::create_directories(output_dir);
     ResultsStore::write_file_in(
       output_dir, "ids.csv",
-      format_ids_table(merged.boundaries, merged.energies, rows, semiclassical, n_realisations));
+      with_energy_columns(
+        format_ids_table(merged.boundaries, merged.energies, rows, semiclassical, n_realisations),
+        merged));
 
     merged.ids_table = (std::filesystem::path(output_dir) / "ids.csv").string();
     return write_analysis(output_dir, merged, settings);

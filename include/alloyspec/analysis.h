@@ -26,6 +26,16 @@ namespace alloyspec
     double                    band_bottom    = 0; ///< E0 = min of the law's support
     double                    mean_potential = 0; ///< E[q], band edge of the averaged potential
     std::string               energy_unit = "E (reduced units, ħ²/2m = 1, length = cell)";
+    /**
+     * Header of the energy column of the tables: "energy" in reduced units,
+     * "energy_eV" / "energy_meV" in physical units (see with_energy_columns()).
+     */
+    std::string               energy_column = "energy";
+    /**
+     * Physical units: one solver energy unit @f$\hbar^2/(2m^*\,\mathrm{nm}^2)@f$
+     * (the unit of the stored records) in the user's unit; 0 in reduced units.
+     */
+    double                    solver_energy_unit = 0;
     std::string               model_summary;   ///< one paragraph: model, law, box
     std::string               parameters_text; ///< effective parameters, shown verbatim
     std::vector<RealisationRecord> records;
@@ -36,6 +46,16 @@ namespace alloyspec
      */
     std::string ids_table;
   };
+
+  /**
+   * A CSV table whose first column is "energy" (values in the user's unit),
+   * relabelled for @p input's units: unchanged in reduced units; in physical
+   * units the column is renamed to input.energy_column (e.g. "energy_eV") and
+   * followed by "energy_reduced", the same energy in solver units
+   * @f$\hbar^2/(2m^*\,\mathrm{nm}^2)@f$ (the unit of eigenvalues.csv).
+   * Tables read back with read_csv_columns() still find "energy".
+   */
+  std::string with_energy_columns(const std::string &csv, const AnalysisInput &input);
 
   /**
    * Analyses one study and writes into @p output_dir (created if needed):

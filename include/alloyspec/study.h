@@ -4,15 +4,18 @@
 #include <alloyspec/discretisation.h>
 #include <alloyspec/eigen_solver.h>
 #include <alloyspec/error_estimate.h>
+#include <alloyspec/geometry.h>
 #include <alloyspec/lattice.h>
 #include <alloyspec/potential_model.h>
 #include <alloyspec/spectral_analysis.h>
+#include <alloyspec/units.h>
 
 #include <cstdint>
 #include <map>
 #include <memory>
 #include <optional>
 #include <string>
+#include <utility>
 #include <vector>
 
 namespace dealii
@@ -103,7 +106,22 @@ namespace alloyspec
 
     RealisationRecord solve_one(std::uint64_t realisation, std::size_t boundary_index);
 
+    /** Cell values of realisation @p r in solver units (UnitSystem::to_solver_energies). */
+    std::vector<double> solver_cell_values(std::uint64_t realisation) const;
+    /** Discretisation of solve @p b: the box with periodic directions, or the mesh. */
+    std::unique_ptr<Discretisation> make_discretisation(Boundary bracketing) const;
+    /**
+     * @f$|\Omega|@f$ and, per lattice cell, the volume that carries its value:
+     * the box's, or the mesh's (read from its file when no grid was made).
+     */
+    std::pair<double, std::vector<double>> domain_volumes() const;
+
+    /** The landscape command reuses the set-up of the eigenvalue study. */
+    friend class LandscapeStudy;
+
     Lattice                lattice_;
+    UnitSystem             units_;
+    GeometrySettings       geometry_;
     PotentialModel         potential_;
     DiscretisationSettings discretisation_settings_;
     EigenSolverSettings    solver_settings_;
