@@ -240,6 +240,28 @@ namespace alloyspec::internal
       return l4 / (l2 * l2);
     }
 
+    double cell_weight(const std::vector<double> &u, std::size_t lattice_cell) const override
+    {
+      const dealii::Vector<double> v = full_vector(u);
+      const dealii::QGauss<dim>    quadrature(fe_.degree + 1);
+      dealii::FEValues<dim> fe_values(fe_, quadrature, dealii::update_values | dealii::update_JxW_values);
+      std::vector<double> values(quadrature.size());
+      double              inside = 0, total = 0;
+      std::size_t         e = 0;
+      for (const auto &cell : dof_handler_.active_cell_iterators())
+        {
+          fe_values.reinit(cell);
+          fe_values.get_function_values(v, values);
+          double local = 0;
+          for (unsigned int q = 0; q < quadrature.size(); ++q)
+            local += values[q] * values[q] * fe_values.JxW(q);
+          total += local;
+          if (element_cell_[e++] == lattice_cell)
+            inside += local;
+        }
+      return inside / total;
+    }
+
     void write_vtu(const std::string &path, const std::vector<double> &cell_values,
                    const std::vector<std::string> &names,
                    const std::vector<std::vector<double>> &fields) const override

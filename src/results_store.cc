@@ -92,7 +92,8 @@ namespace alloyspec
         out += std::to_string(realisation) + "," + boundary + "," + std::to_string(i) + "," +
                full_precision(eigenvalues[i]) + "," + full_precision(residuals[i]) + "," +
                (i < errors.size() ? full_precision(errors[i]) : std::string("nan")) + "," +
-               (i < inverse_participation_ratios.size() ? full_precision(inverse_participation_ratios[i]) : std::string("nan")) + "\n";
+               (i < inverse_participation_ratios.size() ? full_precision(inverse_participation_ratios[i]) : std::string("nan")) + "," +
+               (i < central_weights.size() ? full_precision(central_weights[i]) : std::string("nan")) + "\n";
       }
     return out;
   }
@@ -222,18 +223,20 @@ namespace alloyspec
         if (eigen.eof())
           break;
         const auto f = split(line, ',');
-        // 7 fields; folders written before the error column have 6 (no error).
-        if (f.size() != 6 && f.size() != 7)
+        // 8 fields; older folders have 7 (no central weight) or 6 (no error either).
+        if (f.size() < 6 || f.size() > 8)
           continue;
-        const std::size_t ipr_field = f.size() - 1;
-        double realisation = 0, index = 0, value = 0, residual = 0, ipr = 0, error = 0;
+        const std::size_t ipr_field = f.size() == 8 ? 6 : f.size() - 1;
+        double realisation = 0, index = 0, value = 0, residual = 0, ipr = 0, error = 0, weight = 0;
         if (!parse_double(f[0], realisation) || !parse_double(f[2], index) ||
             !parse_double(f[3], value) || !parse_double(f[4], residual))
           continue;
         if (!parse_double(f[ipr_field], ipr))
           ipr = std::nan("");
-        if (f.size() != 7 || !parse_double(f[5], error))
+        if (f.size() < 7 || !parse_double(f[5], error))
           error = std::nan("");
+        if (f.size() != 8 || !parse_double(f[7], weight))
+          weight = std::nan("");
         const auto it = records.find(Key{static_cast<std::uint64_t>(realisation), f[1]});
         if (it == records.end())
           continue; // eigenvalues of a realisation whose summary never made it to disk
@@ -248,6 +251,7 @@ namespace alloyspec
                 r.residuals.clear();
                 r.inverse_participation_ratios.clear();
                 r.errors.clear();
+                r.central_weights.clear();
               }
             else
               continue;
@@ -256,6 +260,7 @@ namespace alloyspec
         r.residuals.push_back(residual);
         r.inverse_participation_ratios.push_back(ipr);
         r.errors.push_back(error);
+        r.central_weights.push_back(weight);
       }
 
     std::vector<RealisationRecord> result;

@@ -159,6 +159,14 @@ namespace alloyspec
     prm.declare_entry("energies", "0:0.1:10", dealii::Patterns::Anything(),
                       "Energy grid of the IDS table: 'start:step:stop' or a list 'E1, E2, ...' "
                       "(ascending), in the energy unit of the study.");
+    prm.declare_entry("export eigenfunctions", "",
+                      dealii::Patterns::List(dealii::Patterns::Integer(0, 100000), 0, 100),
+                      "Indices (0 = lowest) of eigenfunctions to write as VTU files "
+                      "(eigenfunctions_r<realisation>_<boundary>.vtu, with the cell potential as a "
+                      "cell field) for the realisations in 'export realisations'. Empty: none.");
+    prm.declare_entry("export realisations", "0",
+                      dealii::Patterns::List(dealii::Patterns::Integer(0), 0, 100),
+                      "Realisations whose eigenfunctions are exported (see 'export eigenfunctions').");
     prm.leave_subsection();
     prm.enter_subsection("spectrum");
     prm.declare_entry("boundary conditions", "dirichlet, neumann",
@@ -178,6 +186,12 @@ namespace alloyspec
     seed              = parse_count(prm.get("seed"), "study/seed", 0, ~0ULL);
     energies_text     = prm.get("energies");
     energies          = parse_energy_grid(energies_text, "study/energies");
+    export_eigenfunctions.clear();
+    for (const auto &x : dealii::Utilities::split_string_list(prm.get("export eigenfunctions")))
+      export_eigenfunctions.push_back(static_cast<unsigned int>(std::stoul(x)));
+    export_realisations.clear();
+    for (const auto &x : dealii::Utilities::split_string_list(prm.get("export realisations")))
+      export_realisations.push_back(std::stoull(x));
     prm.leave_subsection();
     prm.enter_subsection("spectrum");
     boundaries.clear();
@@ -239,6 +253,7 @@ namespace alloyspec
     // SIGINT/SIGTERM from here on finish the running realisation first.
     std::optional<InterruptGuard> interrupt_guard(std::in_place);
     ResultsStore store(options.output_directory, options.resume);
+    output_directory_ = options.output_directory;
     // Only rank 0 writes; every rank must learn if it refused (else the others hang).
     const auto [error, input_error] = capture_error([&] {
       if (root)
@@ -374,14 +389,46 @@ namespace alloyspec
     record.potential_min  = *std::min_element(q.begin(), q.end());
     record.potential_max  = *std::max_element(q.begin(), q.end());
     record.attempts       = result.attempts;
+    // The central cell (floor(L_i/2)) for the local-trace estimator.
+    std::array<unsigned int, 3> centre{0, 0, 0};
+    for (unsigned int d = 0; d < lattice_.dimension(); ++d)
+      centre[d] = lattice_.cells()[d] / 2;
+    const std::size_t central_cell = lattice_.cell_index(centre);
     for (const auto &u : result.eigenvectors)
-      record.inverse_participation_ratios.push_back(
-        discretisations_[b]->inverse_participation_ratio(u));
+      {
+        record.inverse_participation_ratios.push_back(
+          discretisations_[b]->inverse_participation_ratio(u));
+        record.central_weights.push_back(discretisations_[b]->cell_weight(u, central_cell));
+      }
     if (!estimators_.empty())
       record.errors = estimators_[b]->errors(q, result.eigenvalues);
+    export_eigenfunctions(realisation, b, q, result);
     record.solve_seconds =
       std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     return record;
+  }
+
+  void Study::export_eigenfunctions(std::uint64_t realisation, std::size_t b,
+                                    const std::vector<double> &q, const EigenResult &result) const
+  {
+    if (study_.export_eigenfunctions.empty() ||
+        std::find(study_.export_realisations.begin(), study_.export_realisations.end(),
+                  realisation) == study_.export_realisations.end())
+      return;
+    std::vector<std::string>         names;
+    std::vector<std::vector<double>> fields;
+    for (const unsigned int i : study_.export_eigenfunctions)
+      if (i < result.eigenvectors.size())
+        {
+          char name[64];
+          std::snprintf(name, sizeof name, "psi_%u_E=%.6g", i, result.eigenvalues[i]);
+          names.emplace_back(name);
+          fields.push_back(result.eigenvectors[i]);
+        }
+    const std::string file = "eigenfunctions_r" + std::to_string(realisation) + "_" +
+                             to_string(study_.boundaries[b]) + ".vtu";
+    discretisations_[b]->write_vtu(
+      (std::filesystem::path(output_directory_) / file).string(), q, names, fields);
   }
 
   void Study::solve(const ResultsStore &store, const RunOptions &options)

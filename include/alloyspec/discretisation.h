@@ -132,6 +132,13 @@ namespace alloyspec
     virtual double inverse_participation_ratio(const std::vector<double> &u) const = 0;
 
     /**
+     * Share @f$\int_{\text{cell}}|u|^2 / \int_\Omega |u|^2@f$ of the lattice cell
+     * @p cell (elements whose centre lies in it), by Gauss quadrature with p+1
+     * points per direction (exact for |u|² on the affine elements of a box).
+     */
+    virtual double cell_weight(const std::vector<double> &u, std::size_t cell) const = 0;
+
+    /**
      * Writes @p fields (DoF vectors with names) and the cell potential as a cell
      * field to a VTU file.
      */

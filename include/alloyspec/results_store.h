@@ -18,6 +18,12 @@ namespace alloyspec
     /** Discretisation error bound per eigenvalue (error_estimate.h); NaN when not estimated. */
     std::vector<double> errors;
     std::vector<double> inverse_participation_ratios;
+    /**
+     * @f$\int_{\text{cell } 0}|\psi_j|^2 / \int|\psi_j|^2@f$ over the central unit
+     * cell: summed over eigenvalues ≤ E and divided by the cell volume, the
+     * local-trace estimator of the IDS, @f$E[\operatorname{tr}(\chi_0 P_{(-\infty,E]}\chi_0)]@f$.
+     */
+    std::vector<double> central_weights;
     double              complete_up_to = 0; ///< all eigenvalues ≤ this are listed (inertia-verified)
     std::uint64_t       inertia_count  = 0;
     double              potential_min  = 0;
@@ -41,7 +47,7 @@ namespace alloyspec
   {
   public:
     static constexpr const char *eigenvalue_header =
-      "realisation,boundary,index,eigenvalue,residual,error,ipr";
+      "realisation,boundary,index,eigenvalue,residual,error,ipr,central_weight";
     static constexpr const char *summary_header =
       "realisation,boundary,n_eigenvalues,complete_up_to,inertia_count,potential_min,"
       "potential_max,solve_seconds,attempts";

@@ -38,6 +38,9 @@ namespace alloyspec
     std::vector<double>   energies;
     std::string           energies_text = "0:0.1:10";
     std::vector<Boundary> boundaries{Boundary::dirichlet, Boundary::neumann};
+    /** Eigenfunction indices written as VTU for the realisations below. */
+    std::vector<unsigned int>  export_eigenfunctions;
+    std::vector<std::uint64_t> export_realisations{0};
 
     static void declare_parameters(dealii::ParameterHandler &prm);
     void        parse_parameters(dealii::ParameterHandler &prm);
@@ -104,6 +107,9 @@ namespace alloyspec
     /** Pilot solve for `discretisation/accuracy`: sets degree and elements per cell. */
     void choose_for_accuracy(bool root);
 
+    /** Writes the requested eigenfunctions of one solve as VTU (see StudySettings). */
+    void export_eigenfunctions(std::uint64_t realisation, std::size_t boundary_index,
+                               const std::vector<double> &cell_values, const EigenResult &result) const;
     RealisationRecord solve_one(std::uint64_t realisation, std::size_t boundary_index);
 
     /** Cell values of realisation @p r in solver units (UnitSystem::to_solver_energies). */
@@ -137,5 +143,6 @@ namespace alloyspec
     std::vector<std::unique_ptr<ErrorEstimator>>  estimators_; ///< per boundary, if estimating
     std::map<std::string, double>                 timings_;
     std::size_t                                   solved_here_ = 0;
+    std::string                                   output_directory_;
   };
 } // namespace alloyspec

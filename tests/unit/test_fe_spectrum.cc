@@ -213,6 +213,21 @@ namespace alloyspec
                 1.0 / lattice.volume(), 1e-9);
   }
 
+  // Local trace: the cell weights ∫_cell|ψ|²/∫|ψ|² of a normalised function sum
+  // to 1 over the lattice; for the constant (Neumann ground state of V = 0)
+  // each cell holds |cell|/|Λ| (here 1/12).
+  TEST(Localisation, CellWeightsOfConstantAreCellVolumeFractions)
+  {
+    const Lattice lattice({2, 3, 2});
+    const Solved  s = solve(lattice, 2, 2, Boundary::neumann, std::vector<double>(12, 0.0), 4);
+    for (std::size_t c = 0; c < lattice.n_cells(); ++c)
+      EXPECT_NEAR(s.discretisation->cell_weight(s.result.eigenvectors[0], c), 1.0 / 12, 1e-12);
+    double total = 0;
+    for (std::size_t c = 0; c < lattice.n_cells(); ++c)
+      total += s.discretisation->cell_weight(s.result.eigenvectors[3], c);
+    EXPECT_NEAR(total, 1.0, 1e-12);
+  }
+
   // The energy-cutoff mode returns exactly the eigenvalues below the cutoff.
   TEST(EnergyCutoff, ReturnsAllEigenvaluesBelowCutoff)
   {
