@@ -1,3 +1,4 @@
+#include <alloyspec/collective_errors.h>
 #include <alloyspec/discretisation.h>
 #include <alloyspec/errors.h>
 #include <alloyspec/inertia_count.h>
@@ -113,25 +114,6 @@ namespace alloyspec
     return std::min(static_cast<std::size_t>(n_negative), n_genuine);
   }
 
-  namespace
-  {
-    /** Collective: every rank throws the first error any rank reported. */
-    void throw_if_any_failed(MPI_Comm comm, const std::string &error, bool input_error)
-    {
-      const std::string mine = error.empty() ? std::string() : (input_error ? "I" : "C") + error;
-      const auto        all  = dealii::Utilities::MPI::all_gather(comm, mine);
-      for (std::size_t p = 0; p < all.size(); ++p)
-        if (!all[p].empty())
-          {
-            std::string text = all[p].substr(1);
-            if (all.size() > 1)
-              text = "(MPI rank " + std::to_string(p) + ") " + text;
-            if (all[p][0] == 'I')
-              throw InputError(text);
-            throw std::runtime_error(text);
-          }
-    }
-  } // namespace
 
   void run_inertia_count(dealii::ParameterHandler &prm, const CountOptions &options)
   {

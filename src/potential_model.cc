@@ -1,4 +1,5 @@
 /** @file potential_model.cc  The cell-values file, the parameters of subsection "potential", the random cell potential. */
+#include <alloyspec/text_input.h>
 #include <alloyspec/errors.h>
 #include <alloyspec/lattice.h>
 #include <alloyspec/potential_model.h>
@@ -95,13 +96,7 @@ namespace alloyspec
     while (std::getline(in, line))
       {
         ++line_number;
-        const std::size_t hash = line.find('#');
-        if (hash != std::string::npos)
-          line.erase(hash);
-        std::istringstream       fields(line);
-        std::vector<std::string> tokens;
-        for (std::string t; fields >> t;)
-          tokens.push_back(t);
+        const std::vector<std::string> tokens = tokens_of_line(line);
         if (tokens.empty())
           continue;
         if (tokens.size() != dim + 1)

@@ -1,4 +1,5 @@
 /** @file single_site_laws.cc  Laws of one cell value, and the special functions behind their quantiles. */
+#include <alloyspec/text_input.h>
 #include <alloyspec/errors.h>
 #include <alloyspec/single_site_laws.h>
 
@@ -779,13 +780,7 @@ namespace alloyspec
     while (std::getline(in, line))
       {
         ++line_number;
-        const std::size_t hash = line.find('#');
-        if (hash != std::string::npos)
-          line.erase(hash);
-        std::istringstream       fields(line);
-        std::vector<std::string> tokens;
-        for (std::string t; fields >> t;)
-          tokens.push_back(t);
+        const std::vector<std::string> tokens = tokens_of_line(line);
         if (tokens.empty())
           continue;
         if (tokens.size() != 2)

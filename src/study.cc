@@ -1,3 +1,4 @@
+#include <alloyspec/collective_errors.h>
 #include <alloyspec/errors.h>
 #include <alloyspec/landscape.h>
 #include <alloyspec/interrupt.h>
@@ -103,45 +104,6 @@ namespace alloyspec
 
     constexpr std::uint64_t max_realisations = 4294967295ULL; // the stream counter holds 32 bits
 
-    /**
-     * Collective: when any rank reports an error, every rank throws it, so that
-     * no rank is left waiting in a later collective call (a hang) and the
-     * message reaches rank 0, which prints it. @p error empty means no error.
-     */
-    void throw_if_any_failed(MPI_Comm comm, const std::string &error, bool input_error)
-    {
-      const std::string mine = error.empty() ? std::string() : (input_error ? "I" : "C") + error;
-      const auto        all  = dealii::Utilities::MPI::all_gather(comm, mine);
-      for (std::size_t p = 0; p < all.size(); ++p)
-        if (!all[p].empty())
-          {
-            std::string text = all[p].substr(1);
-            if (all.size() > 1)
-              text = "(MPI rank " + std::to_string(p) + ") " + text;
-            if (all[p][0] == 'I')
-              throw InputError(text);
-            throw std::runtime_error(text);
-          }
-    }
-
-    /** Runs @p job, turning an exception into (message, is input error). */
-    template <typename Job>
-    std::pair<std::string, bool> capture_error(Job &&job)
-    {
-      try
-        {
-          job();
-        }
-      catch (const InputError &e)
-        {
-          return {e.what(), true};
-        }
-      catch (const std::exception &e)
-        {
-          return {e.what(), false};
-        }
-      return {std::string(), false};
-    }
   } // namespace
 
   void StudySettings::declare_parameters(dealii::ParameterHandler &prm)
