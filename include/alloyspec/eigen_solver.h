@@ -57,8 +57,12 @@ namespace alloyspec
 
   /**
    * Shift-and-invert Krylov–Schur (SLEPc) with a sparse LDLᵀ factorisation
-   * (MUMPS) of @f$K - \sigma M@f$, σ below the spectrum (σ < min potential,
-   * so the factorised matrix is positive definite).
+   * (MUMPS) of @f$K - \sigma M@f$. "baseline": σ below the spectrum
+   * (σ < min potential, so the factorised matrix is positive definite), fresh
+   * objects per solve. "tuned": the solver objects (and so the MUMPS
+   * analysis) live across realisations of one problem, and after the first
+   * verified list σ sits just below that list's lowest eigenvalue (possibly
+   * inside the spectrum, so @f$K - \sigma M@f$ may be indefinite; LDLᵀ copes).
    *
    * After the solve, the list is cut at a gap E between two returned
    * eigenvalues (so a degenerate cluster is never split) and the number of
@@ -86,7 +90,12 @@ namespace alloyspec
     /** Inertia count for the list check: reuses one symbolic factorisation per problem ("tuned"). */
     std::size_t verified_count(const SpectralProblem &problem, double energy);
 
+    /** Krylov–Schur objects and the first verified spectrum of one problem ("tuned"); defined in the .cc. */
+    struct Workspace;
+
     EigenSolverSettings settings_;
+    /** One workspace per problem: EPS/ST/KSP and the MUMPS analysis live across realisations. */
+    std::map<const SpectralProblem *, std::unique_ptr<Workspace>> workspaces_;
     /** One counter per problem (boundary condition): K and M keep their pattern across realisations. */
     std::map<const SpectralProblem *, std::unique_ptr<InertiaCounter>> counters_;
   };
