@@ -91,21 +91,10 @@ namespace alloyspec
 
     Eigen::MatrixXd dense(const backend::SparseMatrix &A)
     {
-      const Mat m = A;
-      PetscInt  n = 0;
-      MatGetSize(m, &n, nullptr);
-      Eigen::MatrixXd D = Eigen::MatrixXd::Zero(n, n);
-      for (PetscInt i = 0; i < n; ++i)
-        {
-          PetscInt           nc   = 0;
-          const PetscInt    *cols = nullptr;
-          const PetscScalar *vals = nullptr;
-          MatGetRow(m, i, &nc, &cols, &vals);
-          for (PetscInt j = 0; j < nc; ++j)
-            D(i, cols[j]) = vals[j];
-          MatRestoreRow(m, i, &nc, &cols, &vals);
-        }
-      return D;
+      const std::vector<double> values = backend::dense_row_major(A);
+      const auto n = static_cast<Eigen::Index>(std::llround(std::sqrt(double(values.size()))));
+      return Eigen::Map<const Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>>(
+        values.data(), n, n);
     }
 
     std::vector<double> uniform_values(std::size_t n, double lo, double hi, unsigned int seed)

@@ -3,6 +3,8 @@
 
 #include <deal.II/lac/petsc_sparse_matrix.h>
 
+#include <vector>
+
 namespace alloyspec::backend
 {
   /**
@@ -11,4 +13,27 @@ namespace alloyspec::backend
    * themselves are not distributed.
    */
   using SparseMatrix = dealii::PETScWrappers::SparseMatrix;
+
+  /**
+   * Dense row-major copy (n × n entries) of a small matrix, for cross-checks
+   * against dense reference solvers (verify, tests). Only for a few thousand rows.
+   */
+  inline std::vector<double> dense_row_major(const SparseMatrix &A)
+  {
+    const Mat m = A;
+    PetscInt  n = 0;
+    MatGetSize(m, &n, nullptr);
+    std::vector<double> dense(static_cast<std::size_t>(n) * n, 0.0);
+    for (PetscInt i = 0; i < n; ++i)
+      {
+        PetscInt           nc   = 0;
+        const PetscInt    *cols = nullptr;
+        const PetscScalar *vals = nullptr;
+        MatGetRow(m, i, &nc, &cols, &vals);
+        for (PetscInt j = 0; j < nc; ++j)
+          dense[static_cast<std::size_t>(i) * n + cols[j]] = vals[j];
+        MatRestoreRow(m, i, &nc, &cols, &vals);
+      }
+    return dense;
+  }
 } // namespace alloyspec::backend
