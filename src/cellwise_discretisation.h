@@ -262,6 +262,71 @@ namespace alloyspec::internal
       return inside / total;
     }
 
+    void localisation_measures(const std::vector<std::vector<double>> &vectors,
+                               const std::size_t lattice_cell, std::vector<double> &ipr,
+                               std::vector<double> &weight) const override
+    {
+      const std::size_t k = vectors.size();
+      ipr.assign(k, 0.0);
+      weight.assign(k, 0.0);
+      if (k == 0 || element_cell_.empty())
+        return;
+      std::vector<dealii::Vector<double>> full;
+      full.reserve(k);
+      for (const auto &u : vectors)
+        full.push_back(full_vector(u));
+      // p+2 points per direction: exact for |u|⁴ in 1D and for |u|² always,
+      // the rules of inverse_participation_ratio() and cell_weight().
+      const dealii::QGauss<dim> quadrature(fe_.degree + 2);
+      dealii::FEValues<dim>     fe_values(fe_, quadrature,
+                                      dealii::update_values | dealii::update_JxW_values);
+      // Values of FE_Q shape functions at the quadrature points are those of
+      // the reference element on every element; only the weights change.
+      fe_values.reinit(dof_handler_.begin_active());
+      const unsigned int  n_q = quadrature.size(), dofs_per_cell = fe_.n_dofs_per_cell();
+      std::vector<double> shape(dofs_per_cell * n_q), jxw(n_q);
+      for (unsigned int q = 0; q < n_q; ++q)
+        for (unsigned int i = 0; i < dofs_per_cell; ++i)
+          shape[i * n_q + q] = fe_values.shape_value(i, q);
+      std::vector<double> l2(k, 0.0), l4(k, 0.0), inside(k, 0.0), values(n_q);
+      std::size_t         e = 0;
+      for (const auto &cell : dof_handler_.active_cell_iterators())
+        {
+          fe_values.reinit(cell);
+          for (unsigned int q = 0; q < n_q; ++q)
+            jxw[q] = fe_values.JxW(q);
+          const auto  *dofs  = element_dofs_.data() + e * dofs_per_cell;
+          for (std::size_t j = 0; j < k; ++j)
+            {
+              std::fill(values.begin(), values.end(), 0.0);
+              for (unsigned int i = 0; i < dofs_per_cell; ++i)
+                {
+                  const double  c   = full[j][dofs[i]];
+                  const double *row = shape.data() + i * n_q;
+                  for (unsigned int q = 0; q < n_q; ++q)
+                    values[q] += c * row[q];
+                }
+              double local2 = 0, local4 = 0;
+              for (unsigned int q = 0; q < n_q; ++q)
+                {
+                  const double s = values[q] * values[q];
+                  local2 += s * jxw[q];
+                  local4 += s * s * jxw[q];
+                }
+              l2[j] += local2;
+              l4[j] += local4;
+              if (element_cell_[e] == lattice_cell)
+                inside[j] += local2;
+            }
+          ++e;
+        }
+      for (std::size_t j = 0; j < k; ++j)
+        {
+          ipr[j]    = l4[j] / (l2[j] * l2[j]);
+          weight[j] = inside[j] / l2[j];
+        }
+    }
+
     void write_vtu(const std::string &path, const std::vector<double> &cell_values,
                    const std::vector<std::string> &names,
                    const std::vector<std::vector<double>> &fields) const override

@@ -231,7 +231,9 @@ namespace alloyspec
     { ScopedTimer t(timings_, "setup_system"); setup_system(); }
     { ScopedTimer t(timings_, "assemble");     assemble(); }
     { ScopedTimer t(timings_, "solve");        solve(store, options); }
-    interrupt_guard.reset(); // the tables are quick and rewritten on resume anyway
+    // The guard stays up: a stop request that arrives once every realisation
+    // is stored lets the (quick) tables be written and the run end normally,
+    // rather than die half-way through them; a second signal still ends it.
     if (root)
       {
         ScopedTimer t(timings_, "postprocess");
@@ -356,12 +358,9 @@ namespace alloyspec
     for (unsigned int d = 0; d < lattice_.dimension(); ++d)
       centre[d] = lattice_.cells()[d] / 2;
     const std::size_t central_cell = lattice_.cell_index(centre);
-    for (const auto &u : result.eigenvectors)
-      {
-        record.inverse_participation_ratios.push_back(
-          discretisations_[b]->inverse_participation_ratio(u));
-        record.central_weights.push_back(discretisations_[b]->cell_weight(u, central_cell));
-      }
+    discretisations_[b]->localisation_measures(result.eigenvectors, central_cell,
+                                               record.inverse_participation_ratios,
+                                               record.central_weights);
     if (!estimators_.empty())
       record.errors = estimators_[b]->errors(q, result.eigenvalues);
     export_eigenfunctions(realisation, b, q, result);

@@ -139,6 +139,15 @@ namespace alloyspec
     virtual double cell_weight(const std::vector<double> &u, std::size_t cell) const = 0;
 
     /**
+     * inverse_participation_ratio() and cell_weight(@p lattice_cell) of every
+     * vector in @p vectors, into @p ipr and @p weight, in one pass over the
+     * elements (one FEValues set-up per element for all vectors).
+     */
+    virtual void localisation_measures(const std::vector<std::vector<double>> &vectors,
+                                       std::size_t lattice_cell, std::vector<double> &ipr,
+                                       std::vector<double> &weight) const;
+
+    /**
      * Writes @p fields (DoF vectors with names) and the cell potential as a cell
      * field to a VTU file.
      */

@@ -56,13 +56,15 @@ namespace alloyspec
   };
 
   /**
-   * Shift-and-invert Krylov–Schur (SLEPc) with a sparse LDLᵀ factorisation
-   * (MUMPS) of @f$K - \sigma M@f$. "baseline": σ below the spectrum
-   * (σ < min potential, so the factorised matrix is positive definite), fresh
-   * objects per solve. "tuned": the solver objects (and so the MUMPS
-   * analysis) live across realisations of one problem, and after the first
-   * verified list σ sits just below that list's lowest eigenvalue (possibly
-   * inside the spectrum, so @f$K - \sigma M@f$ may be indefinite; LDLᵀ copes).
+   * Shift-and-invert Krylov–Schur with a sparse LDLᵀ factorisation (MUMPS)
+   * of @f$K - \sigma M@f$, σ below the spectrum (σ < min potential, so the
+   * factorised matrix is positive definite). "baseline": SLEPc's
+   * single-vector Krylov–Schur with fresh objects per solve. "tuned": the
+   * block variant of block_krylov.h, whose multi-right-hand-side solves read
+   * the factor once per block, with the MUMPS analysis kept across
+   * realisations of one problem; for problems too small for a block basis,
+   * and for the last retry, SLEPc's Krylov–Schur with kept objects and σ just
+   * below the first verified list (LDLᵀ copes with an indefinite K − σM).
    *
    * After the solve, the list is cut at a gap E between two returned
    * eigenvalues (so a degenerate cluster is never split) and the number of
@@ -86,6 +88,9 @@ namespace alloyspec
 
     const EigenSolverSettings &settings() const { return settings_; }
 
+    /** The kept factorisation of K − σM for the block solver ("tuned"); defined in the .cc. */
+    struct BlockFactor;
+
   private:
     /** Inertia count for the list check: reuses one symbolic factorisation per problem ("tuned"). */
     std::size_t verified_count(const SpectralProblem &problem, double energy);
@@ -96,6 +101,8 @@ namespace alloyspec
     EigenSolverSettings settings_;
     /** One workspace per problem: EPS/ST/KSP and the MUMPS analysis live across realisations. */
     std::map<const SpectralProblem *, std::unique_ptr<Workspace>> workspaces_;
+    /** One block-solver factor per problem: its symbolic analysis lives across realisations. */
+    std::map<const SpectralProblem *, std::unique_ptr<BlockFactor>> block_factors_;
     /** One counter per problem (boundary condition): K and M keep their pattern across realisations. */
     std::map<const SpectralProblem *, std::unique_ptr<InertiaCounter>> counters_;
   };
