@@ -213,6 +213,12 @@ end
     run->add_flag("--resume", resume,
                   "Continue an interrupted study in the same folder; stored realisations are kept.");
     run->add_flag("--no-progress", no_progress, "Never print the progress line.");
+    unsigned int ranks_per_realisation = 1;
+    run->add_option("--ranks-per-realisation", ranks_per_realisation,
+                    "MPI ranks that solve each realisation together (a divisor of the number of "
+                    "ranks; default 1: each rank solves its own realisations). The sparse "
+                    "factorisation and the Krylov iteration are then distributed; the mesh and "
+                    "assembly are repeated on each rank of a team.");
     run->add_flag("--print-parameters", print_only,
                   "Print the effective parameters and stop without computing.");
 
@@ -441,6 +447,7 @@ end
         RunOptions options;
         options.output_directory = output;
         options.resume           = resume;
+        options.ranks_per_realisation = ranks_per_realisation;
         options.progress         = !no_progress && Progress::stderr_is_terminal();
         options.parameters_json  = to_json(prm);
         options.parameters_prm   = to_short_prm(prm);

@@ -3,6 +3,7 @@
 #include <alloyspec/errors.h>
 #include <alloyspec/inertia_count.h>
 #include <alloyspec/spectral_problem.h>
+#include <alloyspec/team.h>
 
 #include <deal.II/base/parameter_handler.h>
 
@@ -29,6 +30,14 @@ namespace alloyspec
                                  " (error code " + std::to_string(code) + ")");
     }
 #define ALLOYSPEC_CHECK(call) check((call), #call)
+
+    /** The communicator of a matrix: PETSC_COMM_SELF, or the team's. */
+    MPI_Comm communicator(Mat A)
+    {
+      MPI_Comm comm = MPI_COMM_NULL;
+      check(PetscObjectGetComm(reinterpret_cast<PetscObject>(A), &comm), "PetscObjectGetComm");
+      return comm;
+    }
 
     /** Owns a PETSc object handle; destroys it with the matching *Destroy. */
     template <typename T, PetscErrorCode (*destroy)(T *)>
@@ -154,21 +163,58 @@ namespace alloyspec
     std::optional<double> lowest, highest;
   };
 
-  std::size_t EigenSolver::verified_count(const SpectralProblem &problem, double energy)
+  /**
+   * The matrices the solver works on (the problem's own, or the team's
+   * distributed copy) and the problem they belong to (constrained rows,
+   * bounds, and the key of everything kept across realisations).
+   */
+  struct EigenSolver::Pencil
+  {
+    Mat                    K = nullptr;
+    Mat                    M = nullptr;
+    const SpectralProblem *problem = nullptr;
+  };
+
+  namespace
+  {
+    std::size_t n_genuine_dofs(const SpectralProblem &problem)
+    {
+      return static_cast<std::size_t>(
+        std::count(problem.constrained.begin(), problem.constrained.end(), false));
+    }
+
+    /** Negative pivots of K − E M from a fresh factorisation (ordering and analysis included). */
+    std::size_t fresh_negative_pivots(Mat K, Mat M, double energy);
+  } // namespace
+
+  void EigenSolver::use_teams(RealisationTeams *teams) { teams_ = teams; }
+
+  std::size_t EigenSolver::verified_count(const Pencil &pencil, double energy)
   {
     // baseline: a fresh ordering and symbolic factorisation every time.
+    std::size_t negative = 0;
     if (settings_.method != "tuned")
-      return count_below(problem, energy);
-    auto &counter = counters_[&problem];
-    if (!counter)
-      counter = std::make_unique<InertiaCounter>();
-    return counter->count_below(problem, energy);
+      negative = fresh_negative_pivots(pencil.K, pencil.M, energy);
+    else
+      {
+        auto &counter = counters_[pencil.problem];
+        if (!counter)
+          counter = std::make_unique<InertiaCounter>();
+        negative = counter->negative_pivots(backend::MatrixPair{pencil.K, pencil.M}, energy);
+      }
+    // Above μ the constrained rows count too; every genuine eigenvalue is below μ.
+    return std::min(negative, n_genuine_dofs(*pencil.problem));
   }
 
   std::size_t EigenSolver::count_below(const SpectralProblem &problem, double energy)
   {
-    const Mat K = problem.K;
-    const Mat M = problem.M;
+    return std::min(fresh_negative_pivots(problem.K, problem.M, energy), n_genuine_dofs(problem));
+  }
+
+  namespace
+  {
+  std::size_t fresh_negative_pivots(const Mat K, const Mat M, const double energy)
+  {
     OwnedMat  shifted;
     ALLOYSPEC_CHECK(MatDuplicate(K, MAT_COPY_VALUES, &shifted));
     ALLOYSPEC_CHECK(MatAXPY(shifted, -energy, M, SAME_NONZERO_PATTERN));
@@ -187,9 +233,47 @@ namespace alloyspec
     ALLOYSPEC_CHECK(MatGetInertia(factor, &n_negative, &n_zero, &n_positive));
     return static_cast<std::size_t>(n_negative);
   }
+  } // namespace
 
   namespace
   {
+    /**
+     * Every process of a problem gets whole eigenvectors (the post-processing
+     * integrates over the whole mesh): a gather for a distributed vector.
+     */
+    class WholeVector
+    {
+    public:
+      explicit WholeVector(Vec like)
+      {
+        PetscInt n_local = 0;
+        ALLOYSPEC_CHECK(VecGetSize(like, &n_));
+        ALLOYSPEC_CHECK(VecGetLocalSize(like, &n_local));
+        if (n_local != n_)
+          ALLOYSPEC_CHECK(VecScatterCreateToAll(like, &to_all_, &whole_));
+      }
+      std::vector<double> operator()(Vec x)
+      {
+        Vec source = x;
+        if (to_all_.handle)
+          {
+            ALLOYSPEC_CHECK(VecScatterBegin(to_all_, x, whole_, INSERT_VALUES, SCATTER_FORWARD));
+            ALLOYSPEC_CHECK(VecScatterEnd(to_all_, x, whole_, INSERT_VALUES, SCATTER_FORWARD));
+            source = whole_;
+          }
+        const PetscScalar *data = nullptr;
+        ALLOYSPEC_CHECK(VecGetArrayRead(source, &data));
+        std::vector<double> values(data, data + n_);
+        ALLOYSPEC_CHECK(VecRestoreArrayRead(source, &data));
+        return values;
+      }
+
+    private:
+      PetscInt                             n_ = 0;
+      Owned<VecScatter, VecScatterDestroy> to_all_;
+      OwnedVec                             whole_;
+    };
+
     struct RawPairs
     {
       std::vector<double>              values;
@@ -220,11 +304,9 @@ namespace alloyspec
      * Runs Krylov–Schur on @p eps (configured by configure(); a persistent
      * one keeps its ST, KSP and MUMPS analysis from the previous call).
      */
-    RawPairs krylov_schur(EPS eps, const SpectralProblem &problem, unsigned int nev, double sigma,
-                          const EigenSolverSettings &settings)
+    RawPairs krylov_schur(EPS eps, Mat K, Mat M, const SpectralProblem &problem, unsigned int nev,
+                          double sigma, const EigenSolverSettings &settings)
     {
-      const Mat K = problem.K;
-      const Mat M = problem.M;
       PetscInt  n = 0;
       ALLOYSPEC_CHECK(MatGetSize(K, &n, nullptr));
       nev = std::min<unsigned int>(nev, static_cast<unsigned int>(n));
@@ -261,6 +343,7 @@ namespace alloyspec
       OwnedVec x, kx, mx;
       ALLOYSPEC_CHECK(MatCreateVecs(K, &x, &kx));
       ALLOYSPEC_CHECK(VecDuplicate(x, &mx));
+      WholeVector                                 whole(x);
       std::vector<std::pair<double, std::size_t>> order;
       for (PetscInt i = 0; i < n_converged; ++i)
         {
@@ -274,13 +357,10 @@ namespace alloyspec
           ALLOYSPEC_CHECK(VecNorm(mx, NORM_2, &mx_norm));
           ALLOYSPEC_CHECK(VecAXPY(kx, -lambda, mx));
           ALLOYSPEC_CHECK(VecNorm(kx, NORM_2, &r_norm));
-          const PetscScalar *data = nullptr;
-          ALLOYSPEC_CHECK(VecGetArrayRead(x, &data));
           order.emplace_back(lambda, pairs.values.size());
           pairs.values.push_back(lambda);
           pairs.residuals.push_back(r_norm / (std::max(std::abs(lambda), 1.0) * mx_norm));
-          pairs.vectors.emplace_back(data, data + n);
-          ALLOYSPEC_CHECK(VecRestoreArrayRead(x, &data));
+          pairs.vectors.push_back(whole(x));
         }
       std::sort(order.begin(), order.end());
       RawPairs sorted;
@@ -344,11 +424,9 @@ namespace alloyspec
      * spectrum. The residuals are then recomputed from K and M exactly as
      * for the SLEPc path, so both are judged alike.
      */
-    RawPairs block_pairs(const SpectralProblem &problem, EigenSolver::BlockFactor &f,
+    RawPairs block_pairs(Mat K, Mat M, const SpectralProblem &problem, EigenSolver::BlockFactor &f,
                          unsigned int nev, double sigma, const EigenSolverSettings &settings)
     {
-      const Mat K = problem.K;
-      const Mat M = problem.M;
       MPI_Comm  comm;
       ALLOYSPEC_CHECK(PetscObjectGetComm(reinterpret_cast<PetscObject>(K), &comm));
       PetscInt64       k_id    = -1;
@@ -424,13 +502,10 @@ namespace alloyspec
 
       RawPairs pairs;
       pairs.iterations = found.restarts;
-      OwnedVec x, kx, mx, whole;
+      OwnedVec x, kx, mx;
       ALLOYSPEC_CHECK(MatCreateVecs(K, &x, &kx));
       ALLOYSPEC_CHECK(VecDuplicate(x, &mx));
-      // Every process of the problem gets the whole eigenvector (the
-      // post-processing integrates over the whole mesh).
-      Owned<VecScatter, VecScatterDestroy> to_all;
-      ALLOYSPEC_CHECK(VecScatterCreateToAll(x, &to_all, &whole));
+      WholeVector whole(x);
       std::vector<std::pair<double, std::size_t>> order;
       RawPairs                                    unsorted;
       for (std::size_t i = 0; i < found.theta.size(); ++i)
@@ -456,15 +531,10 @@ namespace alloyspec
           ALLOYSPEC_CHECK(VecNorm(mx, NORM_2, &mx_norm));
           ALLOYSPEC_CHECK(VecAXPY(kx, -lambda, mx));
           ALLOYSPEC_CHECK(VecNorm(kx, NORM_2, &r_norm));
-          ALLOYSPEC_CHECK(VecScatterBegin(to_all, x, whole, INSERT_VALUES, SCATTER_FORWARD));
-          ALLOYSPEC_CHECK(VecScatterEnd(to_all, x, whole, INSERT_VALUES, SCATTER_FORWARD));
-          const PetscScalar *data = nullptr;
-          ALLOYSPEC_CHECK(VecGetArrayRead(whole, &data));
           order.emplace_back(lambda, unsorted.values.size());
           unsorted.values.push_back(lambda);
           unsorted.residuals.push_back(r_norm / (std::max(std::abs(lambda), 1.0) * mx_norm));
-          unsorted.vectors.emplace_back(data, data + n_global);
-          ALLOYSPEC_CHECK(VecRestoreArrayRead(whole, &data));
+          unsorted.vectors.push_back(whole(x));
         }
       // Rayleigh quotients may swap within a cluster.
       std::sort(order.begin(), order.end());
@@ -492,6 +562,19 @@ namespace alloyspec
 
   EigenResult EigenSolver::solve(const SpectralProblem &problem)
   {
+    Pencil pencil{problem.K, problem.M, &problem};
+    if (teams_ && teams_->size() > 1)
+      {
+        const backend::MatrixPair copy = teams_->distributed(problem);
+        pencil.K = copy.K;
+        pencil.M = copy.M;
+      }
+    return solve_pencil(pencil);
+  }
+
+  EigenResult EigenSolver::solve_pencil(const Pencil &pencil)
+  {
+    const SpectralProblem &problem = *pencil.problem;
     Workspace *workspace = nullptr; // set by run_krylov_schur ("tuned" only)
     // H ≥ min q exactly, and so is its Rayleigh–Ritz approximation: a shift
     // below it makes K − σM positive definite and puts σ next to the wanted end.
@@ -500,7 +583,7 @@ namespace alloyspec
     // solver at the safe shift whenever the problem is large enough for it).
     // The last attempt uses the single-vector path, an independent second opinion.
     bool       allow_block = true;
-    const auto run_krylov_schur = [this, &problem, &workspace, safe_sigma,
+    const auto run_krylov_schur = [this, &pencil, &problem, &workspace, safe_sigma,
                                    &allow_block](unsigned int nev, double sigma) -> RawPairs
     {
       if (settings_.method == "tuned" && allow_block)
@@ -510,7 +593,7 @@ namespace alloyspec
             factor = std::make_unique<BlockFactor>();
           try
             {
-              return block_pairs(problem, *factor, nev, safe_sigma, settings_);
+              return block_pairs(pencil.K, pencil.M, problem, *factor, nev, safe_sigma, settings_);
             }
           catch (const std::invalid_argument &)
             {
@@ -521,14 +604,14 @@ namespace alloyspec
         {
           // baseline: fresh objects, so a fresh ordering and symbolic analysis.
           OwnedEPS eps;
-          ALLOYSPEC_CHECK(EPSCreate(PETSC_COMM_SELF, &eps));
+          ALLOYSPEC_CHECK(EPSCreate(communicator(pencil.K), &eps));
           configure(eps);
-          return krylov_schur(eps, problem, nev, sigma, settings_);
+          return krylov_schur(eps, pencil.K, pencil.M, problem, nev, sigma, settings_);
         }
       PetscInt64       k_id    = -1;
       PetscObjectState pattern = 0;
-      ALLOYSPEC_CHECK(PetscObjectGetId(reinterpret_cast<PetscObject>(Mat(problem.K)), &k_id));
-      ALLOYSPEC_CHECK(MatGetNonzeroState(problem.K, &pattern));
+      ALLOYSPEC_CHECK(PetscObjectGetId(reinterpret_cast<PetscObject>(pencil.K), &k_id));
+      ALLOYSPEC_CHECK(MatGetNonzeroState(pencil.K, &pattern));
       auto &ws = workspaces_[&problem];
       // Another matrix (or a changed pattern): start afresh.
       if (ws && (ws->k_id != k_id || ws->pattern != pattern))
@@ -538,7 +621,7 @@ namespace alloyspec
           ws          = std::make_unique<Workspace>();
           ws->k_id    = k_id;
           ws->pattern = pattern;
-          ALLOYSPEC_CHECK(EPSCreate(PETSC_COMM_SELF, &ws->eps));
+          ALLOYSPEC_CHECK(EPSCreate(communicator(pencil.K), &ws->eps));
           configure(ws->eps);
           // K and M share one pattern, so the ST's copy of K − σM keeps its
           // pattern and MUMPS's symbolic analysis stays valid for every
@@ -548,7 +631,7 @@ namespace alloyspec
           ALLOYSPEC_CHECK(STSetMatStructure(st, SAME_NONZERO_PATTERN));
         }
       workspace = ws.get();
-      return krylov_schur(ws->eps, problem, nev, sigma, settings_);
+      return krylov_schur(ws->eps, pencil.K, pencil.M, problem, nev, sigma, settings_);
     };
 
     // "tuned" (single-vector path): the first attempt shifts to just below the first verified
@@ -578,7 +661,7 @@ namespace alloyspec
     std::size_t wanted = settings_.n_eigenvalues;
     if (settings_.energy_cutoff)
       {
-        wanted = verified_count(problem, *settings_.energy_cutoff);
+        wanted = verified_count(pencil, *settings_.energy_cutoff);
         if (wanted > settings_.max_eigenvalues)
           throw InputError("parameter 'spectrum/energy cutoff': " +
                            std::to_string(wanted) + " eigenvalues lie below the cutoff " +
@@ -624,7 +707,7 @@ namespace alloyspec
         if (j >= std::min(wanted, n_genuine) && j > 0)
           {
             const double      cut   = 0.5 * (pairs.values[j - 1] + pairs.values[j]);
-            const std::size_t count = verified_count(problem, cut);
+            const std::size_t count = verified_count(pencil, cut);
             if (count == j)
               {
                 EigenResult result;

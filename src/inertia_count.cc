@@ -75,8 +75,17 @@ namespace alloyspec
 
   std::size_t InertiaCounter::count_below(const SpectralProblem &problem, const double energy)
   {
-    const Mat K = problem.K;
-    const Mat M = problem.M;
+    const std::size_t n_negative = negative_pivots(backend::MatrixPair{problem.K, problem.M}, energy);
+    // Above μ the constrained rows count too; every genuine eigenvalue is below μ.
+    const std::size_t n_genuine = static_cast<std::size_t>(
+      std::count(problem.constrained.begin(), problem.constrained.end(), false));
+    return std::min(n_negative, n_genuine);
+  }
+
+  std::size_t InertiaCounter::negative_pivots(const backend::MatrixPair pencil, const double energy)
+  {
+    const Mat K = pencil.K;
+    const Mat M = pencil.M;
     MatFactorInfo info;
     ALLOYSPEC_CHECK(MatFactorInfoInitialize(&info));
     PetscInt64       k_id    = -1;
@@ -108,10 +117,7 @@ namespace alloyspec
     ++n_factorisations_;
     PetscInt n_negative = 0, n_zero = 0, n_positive = 0;
     ALLOYSPEC_CHECK(MatGetInertia(factor_->factor, &n_negative, &n_zero, &n_positive));
-    // Above μ the constrained rows count too; every genuine eigenvalue is below μ.
-    const std::size_t n_genuine = static_cast<std::size_t>(
-      std::count(problem.constrained.begin(), problem.constrained.end(), false));
-    return std::min(static_cast<std::size_t>(n_negative), n_genuine);
+    return static_cast<std::size_t>(n_negative);
   }
 
 

@@ -7,6 +7,7 @@
 #include <alloyspec/spectral_problem.h>
 #include <alloyspec/spectrum_statistics.h>
 #include <alloyspec/study.h>
+#include <alloyspec/team.h>
 #include <alloyspec/summary.h>
 #include <alloyspec/weyl_law.h>
 
@@ -212,6 +213,8 @@ namespace alloyspec
   void Study::run(const RunOptions &options)
   {
     const bool   root = dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0;
+    // Checked before anything is written (the same verdict on every rank).
+    teams_ = std::make_unique<RealisationTeams>(options.ranks_per_realisation);
     // SIGINT/SIGTERM from here on finish the running realisation first.
     std::optional<InterruptGuard> interrupt_guard(std::in_place);
     ResultsStore store(options.output_directory, options.resume);
@@ -299,6 +302,7 @@ namespace alloyspec
         problems_.push_back(d->make_problem());
       }
     solver_ = std::make_unique<EigenSolver>(solver_settings_);
+    solver_->use_teams(teams_.get());
     estimators_.clear();
     if (error_settings_.enabled())
       for (const Boundary bc : study_.boundaries)
@@ -372,7 +376,8 @@ namespace alloyspec
   void Study::export_eigenfunctions(std::uint64_t realisation, std::size_t b,
                                     const std::vector<double> &q, const EigenResult &result) const
   {
-    if (study_.export_eigenfunctions.empty() ||
+    // One file per solve: only the rank that reports a team's realisation writes it.
+    if ((teams_ && !teams_->leader()) || study_.export_eigenfunctions.empty() ||
         std::find(study_.export_realisations.begin(), study_.export_realisations.end(),
                   realisation) == study_.export_realisations.end())
       return;
@@ -415,8 +420,11 @@ namespace alloyspec
       if (done.count(r) == 0)
         pending.push_back(r);
 
+    // A team (one rank, or several sharing each realisation) takes one
+    // realisation per round; its leader reports it.
+    const unsigned int teams = teams_->count();
     Progress progress("realisations", pending.size(), options.progress && rank == 0);
-    const std::size_t rounds = (pending.size() + ranks - 1) / ranks;
+    const std::size_t rounds = (pending.size() + teams - 1) / teams;
     for (std::size_t round = 0; round < rounds; ++round)
       {
         // A stop request on any rank stops all, between two rounds, so every
@@ -425,19 +433,21 @@ namespace alloyspec
           {
             progress.finish();
             const std::size_t stored =
-              study_.realisations - pending.size() + std::min(pending.size(), round * ranks);
+              study_.realisations - pending.size() + std::min(pending.size(), round * teams);
             throw Interrupted(signal, "stopped on " + signal_name(signal) + ": " +
                                         std::to_string(stored) + " of " +
                                         std::to_string(study_.realisations) +
                                         " realisations are stored in '" + store.directory() + "'");
           }
-        const std::size_t slot = round * ranks + rank;
+        const std::size_t slot = round * teams + teams_->index();
         std::string       eigen_text, summary_text;
         const auto [error, input_error] = capture_error([&] {
           if (slot < pending.size())
             for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
               {
                 const RealisationRecord record = solve_one(pending[slot], b);
+                if (!teams_->leader())
+                  continue;
                 eigen_text += record.eigenvalue_lines();
                 summary_text += record.summary_line();
                 ++solved_here_;
@@ -452,7 +462,7 @@ namespace alloyspec
             for (unsigned int p = 0; p < ranks; ++p)
               if (!summary_all[p].empty())
                 store.append_text(eigen_all[p], summary_all[p]);
-            progress.update(std::min(pending.size(), (round + 1) * ranks));
+            progress.update(std::min(pending.size(), (round + 1) * teams));
           }
         // After storing what the other ranks finished.
         throw_if_any_failed(comm, error, input_error);
@@ -592,6 +602,7 @@ namespace alloyspec
          << "  \"realisations_requested\": " << study_.realisations << ",\n"
          << "  \"realisations_stored\": " << realisations.size() << ",\n"
          << "  \"mpi_ranks\": " << dealii::Utilities::MPI::n_mpi_processes(MPI_COMM_WORLD) << ",\n"
+         << "  \"ranks_per_realisation\": " << (teams_ ? teams_->size() : 1u) << ",\n"
          << "  \"host\": \"" << json_escape(host) << "\",\n"
          << "  \"lattice\": \"" << json_escape(lattice_.description()) << "\",\n"
          << "  \"volume\": " << number(volume) << ",\n"

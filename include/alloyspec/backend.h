@@ -8,11 +8,22 @@
 namespace alloyspec::backend
 {
   /**
-   * Serial sparse matrix (PETSc AIJ). Realisations are distributed over MPI
-   * ranks, each solving its own problems on PETSC_COMM_SELF, so the matrices
-   * themselves are not distributed.
+   * Serial sparse matrix (PETSc AIJ). Each rank assembles its problems on
+   * PETSC_COMM_SELF; when several ranks share one realisation, the solver
+   * works on a row-distributed copy (team.h).
    */
   using SparseMatrix = dealii::PETScWrappers::SparseMatrix;
+
+  /**
+   * Non-owning handles of a pencil's two matrices (K, M): the serial ones of
+   * a SpectralProblem, or a copy distributed by rows over a team of ranks
+   * (RealisationTeams::distributed).
+   */
+  struct MatrixPair
+  {
+    Mat K = nullptr;
+    Mat M = nullptr;
+  };
 
   /**
    * Dense row-major copy (n × n entries) of a small matrix, for cross-checks

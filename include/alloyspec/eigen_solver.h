@@ -17,6 +17,7 @@ namespace alloyspec
 {
   struct SpectralProblem;
   class InertiaCounter;
+  class RealisationTeams;
 
   /** Subsection `spectrum` (solver part). */
   struct EigenSolverSettings
@@ -83,6 +84,13 @@ namespace alloyspec
 
     EigenResult solve(const SpectralProblem &problem);
 
+    /**
+     * With teams of two or more ranks, solve() works on the team's
+     * row-distributed copy of the problem (collective over the team; every
+     * rank of it gets the same, whole eigenvectors). Not owned.
+     */
+    void use_teams(RealisationTeams *teams);
+
     /** Number of eigenvalues of the pencil strictly below @p energy (inertia count). */
     static std::size_t count_below(const SpectralProblem &problem, double energy);
 
@@ -92,13 +100,17 @@ namespace alloyspec
     struct BlockFactor;
 
   private:
+    /** The matrices worked on and their problem; defined in the .cc. */
+    struct Pencil;
+    EigenResult solve_pencil(const Pencil &pencil);
     /** Inertia count for the list check: reuses one symbolic factorisation per problem ("tuned"). */
-    std::size_t verified_count(const SpectralProblem &problem, double energy);
+    std::size_t verified_count(const Pencil &pencil, double energy);
 
     /** Krylov–Schur objects and the first verified spectrum of one problem ("tuned"); defined in the .cc. */
     struct Workspace;
 
     EigenSolverSettings settings_;
+    RealisationTeams   *teams_ = nullptr;
     /** One workspace per problem: EPS/ST/KSP and the MUMPS analysis live across realisations. */
     std::map<const SpectralProblem *, std::unique_ptr<Workspace>> workspaces_;
     /** One block-solver factor per problem: its symbolic analysis lives across realisations. */

@@ -1,6 +1,8 @@
 /** @file inertia_count.h  The IDS from inertia counts alone, without eigenvectors. */
 #pragma once
 
+#include <alloyspec/backend.h>
+
 #include <cstddef>
 #include <memory>
 #include <string>
@@ -41,6 +43,11 @@ namespace alloyspec
      * redone only when the matrix K (or its sparsity pattern) changes.
      */
     std::size_t count_below(const SpectralProblem &problem, double energy);
+    /**
+     * Negative pivots of @f$K - E M@f$ for a pencil given by its matrices
+     * (serial, or distributed over a team), constrained rows included.
+     */
+    std::size_t negative_pivots(backend::MatrixPair pencil, double energy);
 
     /** Numeric factorisations done so far (symbolic ones: at most 1). */
     std::size_t n_factorisations() const { return n_factorisations_; }

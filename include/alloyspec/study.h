@@ -26,6 +26,7 @@ namespace dealii
 namespace alloyspec
 {
   class ResultsStore;
+  class RealisationTeams;
   struct RealisationRecord;
   struct StoredStudy;
 
@@ -52,6 +53,12 @@ namespace alloyspec
     std::string output_directory;
     bool        resume   = false;
     bool        progress = false;
+    /**
+     * MPI ranks that solve one realisation together (a divisor of the
+     * number of ranks): the factorisation and the Krylov iteration are
+     * distributed over them (team.h). 1: every rank solves its own.
+     */
+    unsigned int ranks_per_realisation = 1;
     /** Effective parameters as JSON, copied into run.json. */
     std::string parameters_json;
     /** Effective parameters in deal.II's short format, stored as parameters.prm. */
@@ -68,9 +75,10 @@ namespace alloyspec
    * Dirichlet and Neumann columns bracket the infinite-volume IDS:
    * @f$E[N^D_L] \le N \le E[N^N_L]@f$ (Kirsch & Martinelli 1982).
    *
-   * Realisations are dealt out to MPI ranks in rounds; every number depends on
-   * (seed, realisation, cell) only, so the results do not depend on the number
-   * of ranks.
+   * Realisations are dealt out to teams of MPI ranks in rounds (a team is
+   * one rank unless RunOptions::ranks_per_realisation says otherwise); every
+   * number depends on (seed, realisation, cell) only, so the results do not
+   * depend on the number of ranks, up to rounding in a team's distributed sums.
    */
   class Study
   {
@@ -139,6 +147,8 @@ namespace alloyspec
 
     std::vector<std::unique_ptr<Discretisation>>  discretisations_;
     std::vector<std::unique_ptr<SpectralProblem>> problems_;
+    /** Teams of ranks that share a realisation (made by run()). */
+    std::unique_ptr<RealisationTeams>             teams_;
     std::unique_ptr<EigenSolver>                  solver_;
     std::vector<std::unique_ptr<ErrorEstimator>>  estimators_; ///< per boundary, if estimating
     std::map<std::string, double>                 timings_;
