@@ -384,13 +384,16 @@ namespace alloyspec
     }
 
     /**
-     * Right-hand sides per block solve. Measured (L = 8 and 12, Q2, r = 2):
-     * per right-hand side, a block of 8 costs 1/4.6–1/5.1 of a single solve,
-     * 16 costs 1/5.7–1/7.0, 32 costs 1/7.1–1/9.0; small k need no large blocks.
+     * Right-hand sides per block solve. Per right-hand side a block of 8
+     * costs 1/4.6–1/5.1 of a single solve, 16 costs 1/5.7–1/7.0, 32 costs
+     * 1/7.1–1/9.0 (L = 8 and 12, Q2, r = 2), but larger blocks need more
+     * columns to converge. Measured at L = 8, time per solve: k = 50 (55
+     * wanted) b = 8 8.6 s, 12 9.4 s, 16 9.8 s, 24 11.7 s; k = 200 (220
+     * wanted) b = 12 22.4 s, 24 22.3 s, 32 25.5 s, 48 32.0 s, 64 38.9 s.
      */
     unsigned int block_size_for(unsigned int nev)
     {
-      return nev < 40 ? 8 : nev < 120 ? 16 : 32;
+      return std::clamp(nev / 9, 8u, 24u);
     }
 
     /** A dense PETSc matrix on the caller's column-major array (no copy). */
