@@ -1,3 +1,4 @@
+#include "petsc_check.h"
 #include <alloyspec/block_krylov.h>
 #include <alloyspec/eigen_solver.h>
 #include <alloyspec/errors.h>
@@ -23,19 +24,12 @@ namespace alloyspec
 {
   namespace
   {
-    void check(PetscErrorCode code, const char *call)
-    {
-      if (code != 0)
-        throw std::runtime_error(std::string("PETSc/SLEPc call failed: ") + call +
-                                 " (error code " + std::to_string(code) + ")");
-    }
-#define ALLOYSPEC_CHECK(call) check((call), #call)
 
     /** The communicator of a matrix: PETSC_COMM_SELF, or the team's. */
     MPI_Comm communicator(Mat A)
     {
       MPI_Comm comm = MPI_COMM_NULL;
-      check(PetscObjectGetComm(reinterpret_cast<PetscObject>(A), &comm), "PetscObjectGetComm");
+      ALLOYSPEC_CHECK(PetscObjectGetComm(reinterpret_cast<PetscObject>(A), &comm));
       return comm;
     }
 
@@ -274,6 +268,19 @@ namespace alloyspec
       OwnedVec                             whole_;
     };
 
+    /**
+     * ‖Kx − λMx‖₂ / (max(|λ|, 1) ‖Mx‖₂), the residual every reported pair
+     * carries, from @p kx = Kx and @p mx = Mx (@p kx is overwritten).
+     */
+    double relative_residual(Vec kx, Vec mx, double lambda)
+    {
+      PetscReal mx_norm = 0, r_norm = 0;
+      ALLOYSPEC_CHECK(VecNorm(mx, NORM_2, &mx_norm));
+      ALLOYSPEC_CHECK(VecAXPY(kx, -lambda, mx));
+      ALLOYSPEC_CHECK(VecNorm(kx, NORM_2, &r_norm));
+      return r_norm / (std::max(std::abs(lambda), 1.0) * mx_norm);
+    }
+
     struct RawPairs
     {
       std::vector<double>              values;
@@ -281,6 +288,24 @@ namespace alloyspec
       std::vector<double>              residuals;
       unsigned int                     iterations = 0;
     };
+
+    /** The same pairs in ascending order of their values. */
+    RawPairs sorted(RawPairs pairs)
+    {
+      std::vector<std::size_t> order(pairs.values.size());
+      std::iota(order.begin(), order.end(), std::size_t(0));
+      std::sort(order.begin(), order.end(),
+                [&](std::size_t a, std::size_t b) { return pairs.values[a] < pairs.values[b]; });
+      RawPairs result;
+      result.iterations = pairs.iterations;
+      for (const std::size_t index : order)
+        {
+          result.values.push_back(pairs.values[index]);
+          result.residuals.push_back(pairs.residuals[index]);
+          result.vectors.push_back(std::move(pairs.vectors[index]));
+        }
+      return result;
+    }
 
     /** Krylov–Schur, shift-and-invert, MUMPS Cholesky (LDLᵀ) for the shifted matrix. */
     void configure(EPS eps)
@@ -343,8 +368,7 @@ namespace alloyspec
       OwnedVec x, kx, mx;
       ALLOYSPEC_CHECK(MatCreateVecs(K, &x, &kx));
       ALLOYSPEC_CHECK(VecDuplicate(x, &mx));
-      WholeVector                                 whole(x);
-      std::vector<std::pair<double, std::size_t>> order;
+      WholeVector whole(x);
       for (PetscInt i = 0; i < n_converged; ++i)
         {
           PetscScalar lambda = 0;
@@ -353,25 +377,11 @@ namespace alloyspec
             continue; // an eigenvalue of the constrained rows, not of H
           ALLOYSPEC_CHECK(MatMult(K, x, kx));
           ALLOYSPEC_CHECK(MatMult(M, x, mx));
-          PetscReal mx_norm = 0, r_norm = 0;
-          ALLOYSPEC_CHECK(VecNorm(mx, NORM_2, &mx_norm));
-          ALLOYSPEC_CHECK(VecAXPY(kx, -lambda, mx));
-          ALLOYSPEC_CHECK(VecNorm(kx, NORM_2, &r_norm));
-          order.emplace_back(lambda, pairs.values.size());
           pairs.values.push_back(lambda);
-          pairs.residuals.push_back(r_norm / (std::max(std::abs(lambda), 1.0) * mx_norm));
+          pairs.residuals.push_back(relative_residual(kx, mx, lambda));
           pairs.vectors.push_back(whole(x));
         }
-      std::sort(order.begin(), order.end());
-      RawPairs sorted;
-      sorted.iterations = pairs.iterations;
-      for (const auto &[value, index] : order)
-        {
-          sorted.values.push_back(value);
-          sorted.residuals.push_back(pairs.residuals[index]);
-          sorted.vectors.push_back(std::move(pairs.vectors[index]));
-        }
-      return sorted;
+      return sorted(std::move(pairs));
     }
 
     /** Rows of the block vectors a process holds (its rows of K), and the global size. */
@@ -503,14 +513,12 @@ namespace alloyspec
           }
       }
 
-      RawPairs pairs;
-      pairs.iterations = found.restarts;
       OwnedVec x, kx, mx;
       ALLOYSPEC_CHECK(MatCreateVecs(K, &x, &kx));
       ALLOYSPEC_CHECK(VecDuplicate(x, &mx));
       WholeVector whole(x);
-      std::vector<std::pair<double, std::size_t>> order;
-      RawPairs                                    unsorted;
+      RawPairs unsorted;
+      unsorted.iterations = found.restarts;
       for (std::size_t i = 0; i < found.theta.size(); ++i)
         {
           PetscScalar *local = nullptr;
@@ -530,24 +538,12 @@ namespace alloyspec
           const double lambda = xkx / xmx;
           if (!(lambda < 0.5 * problem.spurious_eigenvalue))
             continue;
-          PetscReal mx_norm = 0, r_norm = 0;
-          ALLOYSPEC_CHECK(VecNorm(mx, NORM_2, &mx_norm));
-          ALLOYSPEC_CHECK(VecAXPY(kx, -lambda, mx));
-          ALLOYSPEC_CHECK(VecNorm(kx, NORM_2, &r_norm));
-          order.emplace_back(lambda, unsorted.values.size());
           unsorted.values.push_back(lambda);
-          unsorted.residuals.push_back(r_norm / (std::max(std::abs(lambda), 1.0) * mx_norm));
+          unsorted.residuals.push_back(relative_residual(kx, mx, lambda));
           unsorted.vectors.push_back(whole(x));
         }
       // Rayleigh quotients may swap within a cluster.
-      std::sort(order.begin(), order.end());
-      for (const auto &[value, index] : order)
-        {
-          pairs.values.push_back(value);
-          pairs.residuals.push_back(unsorted.residuals[index]);
-          pairs.vectors.push_back(std::move(unsorted.vectors[index]));
-        }
-      return pairs;
+      return sorted(std::move(unsorted));
     }
 
     /**

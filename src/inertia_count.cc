@@ -1,3 +1,4 @@
+#include "petsc_check.h"
 #include <alloyspec/collective_errors.h>
 #include <alloyspec/discretisation.h>
 #include <alloyspec/errors.h>
@@ -31,13 +32,6 @@ namespace alloyspec
 {
   namespace
   {
-    void check(PetscErrorCode code, const char *call)
-    {
-      if (code != 0)
-        throw std::runtime_error(std::string("PETSc call failed: ") + call + " (error code " +
-                                 std::to_string(code) + ")");
-    }
-#define ALLOYSPEC_CHECK(call) check((call), #call)
 
     std::string number(double x)
     {

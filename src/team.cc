@@ -1,3 +1,4 @@
+#include "petsc_check.h"
 #include <alloyspec/errors.h>
 #include <alloyspec/spectral_problem.h>
 #include <alloyspec/team.h>
@@ -15,13 +16,6 @@ namespace alloyspec
 {
   namespace
   {
-    void check(PetscErrorCode code, const char *call)
-    {
-      if (code != 0)
-        throw std::runtime_error(std::string("PETSc call failed: ") + call + " (error code " +
-                                 std::to_string(code) + ")");
-    }
-#define ALLOYSPEC_CHECK(call) check((call), #call)
 
     /** A distributed matrix that frees itself. */
     struct OwnedMatrix
