@@ -440,8 +440,7 @@ namespace alloyspec
     RawPairs block_pairs(Mat K, Mat M, const SpectralProblem &problem, EigenSolver::BlockFactor &f,
                          unsigned int nev, double sigma, const EigenSolverSettings &settings)
     {
-      MPI_Comm  comm;
-      ALLOYSPEC_CHECK(PetscObjectGetComm(reinterpret_cast<PetscObject>(K), &comm));
+      const MPI_Comm   comm    = communicator(K);
       PetscInt64       k_id    = -1;
       PetscObjectState pattern = 0;
       ALLOYSPEC_CHECK(PetscObjectGetId(reinterpret_cast<PetscObject>(K), &k_id));
