@@ -560,6 +560,8 @@ namespace alloyspec
 
   EigenResult EigenSolver::solve(const SpectralProblem &problem)
   {
+    if (std::find(first_solved_.begin(), first_solved_.end(), &problem) == first_solved_.end())
+      first_solved_.push_back(&problem);
     Pencil pencil{problem.K, problem.M, &problem};
     if (teams_ && teams_->size() > 1)
       {
@@ -745,5 +747,13 @@ namespace alloyspec
     throw std::runtime_error(message.str());
   }
   // Here, where BlockFactor is complete.
-  EigenSolver::~EigenSolver() = default;
+  EigenSolver::~EigenSolver()
+  {
+    for (const SpectralProblem *problem : first_solved_)
+      {
+        workspaces_.erase(problem);
+        block_factors_.erase(problem);
+        counters_.erase(problem);
+      }
+  }
 } // namespace alloyspec

@@ -7,7 +7,9 @@
 
 #include <petscmat.h>
 
-#include <map>
+#include <algorithm>
+#include <memory>
+#include <utility>
 #include <stdexcept>
 #include <string>
 #include <vector>
@@ -57,11 +59,17 @@ namespace alloyspec
       OwnedMatrix K, M;
       PetscInt    first = 0, last = 0;
     };
-    std::map<const SpectralProblem *, Copy> copies;
+    /**
+     * In the order first distributed, the same on every rank (not keyed by
+     * address, which differs between ranks), so that the collective
+     * destruction happens in one order everywhere.
+     */
+    std::vector<std::pair<const SpectralProblem *, std::unique_ptr<Copy>>> copies;
 
     ~Impl()
     {
-      copies.clear();
+      while (!copies.empty())
+        copies.pop_back();
       if (comm != MPI_COMM_NULL)
         MPI_Comm_free(&comm);
     }
@@ -97,10 +105,12 @@ namespace alloyspec
       throw std::logic_error("RealisationTeams::distributed needs teams of two or more ranks");
     const Mat K = problem.K;
     const Mat M = problem.M;
-    auto      found = impl_->copies.find(&problem);
+    auto found = std::find_if(impl_->copies.begin(), impl_->copies.end(),
+                              [&](const auto &entry) { return entry.first == &problem; });
     if (found == impl_->copies.end())
       {
-        Impl::Copy &copy = impl_->copies[&problem];
+        impl_->copies.emplace_back(&problem, std::make_unique<Impl::Copy>());
+        Impl::Copy &copy = *impl_->copies.back().second;
         PetscInt    n    = 0;
         ALLOYSPEC_CHECK(MatGetSize(K, &n, nullptr));
         // Contiguous blocks of rows, the first n mod size ranks one row more.
@@ -131,9 +141,9 @@ namespace alloyspec
             ALLOYSPEC_CHECK(MatSetOption(target->handle, MAT_SYMMETRIC, PETSC_TRUE));
           }
         copy_rows(M, copy.M.handle, copy.first, copy.last);
-        found = impl_->copies.find(&problem);
+        found = impl_->copies.end() - 1;
       }
-    Impl::Copy &copy = found->second;
+    Impl::Copy &copy = *found->second;
     copy_rows(K, copy.K.handle, copy.first, copy.last);
     return {copy.K.handle, copy.M.handle};
   }

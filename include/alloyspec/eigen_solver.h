@@ -117,5 +117,12 @@ namespace alloyspec
     std::map<const SpectralProblem *, std::unique_ptr<BlockFactor>> block_factors_;
     /** One counter per problem (boundary condition): K and M keep their pattern across realisations. */
     std::map<const SpectralProblem *, std::unique_ptr<InertiaCounter>> counters_;
+    /**
+     * Problems in the order first solved, the same on every rank. Destroying
+     * a distributed MUMPS factor is collective, so the kept objects are
+     * destroyed in this order, not in the order of their keys (addresses,
+     * which differ between ranks).
+     */
+    std::vector<const SpectralProblem *> first_solved_;
   };
 } // namespace alloyspec
