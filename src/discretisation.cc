@@ -165,18 +165,4 @@ namespace alloyspec
           throw InputError("parameter 'lattice/cells': 1 to 3 entries allowed");
       }
   }
-
-  void Discretisation::localisation_measures(const std::vector<std::vector<double>> &vectors,
-                                             const std::size_t lattice_cell,
-                                             std::vector<double> &ipr,
-                                             std::vector<double> &weight) const
-  {
-    ipr.clear();
-    weight.clear();
-    for (const auto &u : vectors)
-      {
-        ipr.push_back(inverse_participation_ratio(u));
-        weight.push_back(cell_weight(u, lattice_cell));
-      }
-  }
 } // namespace alloyspec

@@ -145,7 +145,7 @@ namespace alloyspec
      */
     virtual void localisation_measures(const std::vector<std::vector<double>> &vectors,
                                        std::size_t lattice_cell, std::vector<double> &ipr,
-                                       std::vector<double> &weight) const;
+                                       std::vector<double> &weight) const = 0;
 
     /**
      * Writes @p fields (DoF vectors with names) and the cell potential as a cell

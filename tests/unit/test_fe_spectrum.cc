@@ -217,6 +217,29 @@ namespace alloyspec
     EXPECT_NEAR(total, 1.0, 1e-12);
   }
 
+  // The one-pass version used by the study: the same closed forms (IPR 1/|Λ|,
+  // cell weights |cell|/|Λ| for the constant), and for every other mode the
+  // same numbers as the separate calls, whose quadrature it shares.
+  TEST(Localisation, OnePassMeasuresMatchClosedFormsAndSeparateCalls)
+  {
+    const Lattice lattice({2, 3, 2});
+    const Solved  s = solve(lattice, 2, 2, Boundary::neumann, std::vector<double>(12, 0.0), 4);
+    for (std::size_t c = 0; c < lattice.n_cells(); ++c)
+      {
+        std::vector<double> ipr, weight;
+        s.discretisation->localisation_measures(s.result.eigenvectors, c, ipr, weight);
+        ASSERT_EQ(ipr.size(), s.result.eigenvectors.size());
+        EXPECT_NEAR(ipr[0], 1.0 / lattice.volume(), 1e-9);
+        EXPECT_NEAR(weight[0], 1.0 / 12, 1e-12);
+        for (std::size_t j = 1; j < ipr.size(); ++j)
+          {
+            const auto &u = s.result.eigenvectors[j];
+            EXPECT_NEAR(ipr[j], s.discretisation->inverse_participation_ratio(u), 1e-12 * ipr[j]);
+            EXPECT_NEAR(weight[j], s.discretisation->cell_weight(u, c), 1e-12);
+          }
+      }
+  }
+
   // The energy-cutoff mode returns exactly the eigenvalues below the cutoff.
   TEST(EnergyCutoff, ReturnsAllEigenvaluesBelowCutoff)
   {
