@@ -171,12 +171,6 @@ namespace alloyspec
 
   namespace
   {
-    std::size_t n_genuine_dofs(const SpectralProblem &problem)
-    {
-      return static_cast<std::size_t>(
-        std::count(problem.constrained.begin(), problem.constrained.end(), false));
-    }
-
     /** Negative pivots of K − E M from a fresh factorisation (ordering and analysis included). */
     std::size_t fresh_negative_pivots(Mat K, Mat M, double energy);
   } // namespace
@@ -197,12 +191,12 @@ namespace alloyspec
         negative = counter->negative_pivots(backend::MatrixPair{pencil.K, pencil.M}, energy);
       }
     // Above μ the constrained rows count too; every genuine eigenvalue is below μ.
-    return std::min(negative, n_genuine_dofs(*pencil.problem));
+    return std::min(negative, pencil.problem->n_genuine());
   }
 
   std::size_t EigenSolver::count_below(const SpectralProblem &problem, double energy)
   {
-    return std::min(fresh_negative_pivots(problem.K, problem.M, energy), n_genuine_dofs(problem));
+    return std::min(fresh_negative_pivots(problem.K, problem.M, energy), problem.n_genuine());
   }
 
   namespace
@@ -699,8 +693,7 @@ namespace alloyspec
           pairs = run_krylov_schur(request, safe_sigma);
         // When the whole discrete spectrum was returned (tiny problems), the
         // pushed-out eigenvalue of the constrained rows closes the list.
-        const std::size_t n_genuine = static_cast<std::size_t>(
-          std::count(problem.constrained.begin(), problem.constrained.end(), false));
+        const std::size_t n_genuine = problem.n_genuine();
         if (pairs.values.size() == n_genuine)
           pairs.values.push_back(problem.spurious_eigenvalue);
         const std::size_t j = cut_index(pairs.values, std::min(wanted, n_genuine));

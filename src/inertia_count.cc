@@ -71,9 +71,7 @@ namespace alloyspec
   {
     const std::size_t n_negative = negative_pivots(backend::MatrixPair{problem.K, problem.M}, energy);
     // Above μ the constrained rows count too; every genuine eigenvalue is below μ.
-    const std::size_t n_genuine = static_cast<std::size_t>(
-      std::count(problem.constrained.begin(), problem.constrained.end(), false));
-    return std::min(n_negative, n_genuine);
+    return std::min(n_negative, problem.n_genuine());
   }
 
   std::size_t InertiaCounter::negative_pivots(const backend::MatrixPair pencil, const double energy)

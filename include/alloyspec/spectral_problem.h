@@ -3,6 +3,8 @@
 
 #include <alloyspec/backend.h>
 
+#include <algorithm>
+#include <cstddef>
 #include <vector>
 
 namespace alloyspec
@@ -20,5 +22,11 @@ namespace alloyspec
     std::vector<bool>     constrained;        ///< per DoF
     double                spurious_eigenvalue = 0;
     double                lower_bound = 0;    ///< every eigenvalue is ≥ this (min of the potential)
+
+    /** Number of genuine eigenvalues: the DoFs that are not constrained (all lie below μ). */
+    std::size_t n_genuine() const
+    {
+      return static_cast<std::size_t>(std::count(constrained.begin(), constrained.end(), false));
+    }
   };
 } // namespace alloyspec
