@@ -1,7 +1,7 @@
 // alloyspec: spectra and integrated density of states of random Schrödinger
 // operators -Δ + V_ω on boxes of unit cells. The driver only initialises MPI,
 // PETSc and SLEPc; everything else lives in the library.
-#include <alloyspec/command_line.h>
+#include <alloyspec/app/command_line.h>
 
 #include <deal.II/base/mpi.h>
 

@@ -18,7 +18,7 @@
  */
 #pragma once
 
-#include <alloyspec/weyl_law.h> // Boundary
+#include <alloyspec/model/weyl_law.h> // Boundary
 
 #include <algorithm>
 #include <cmath>

@@ -1,0 +1,36 @@
+/** @file count.h  The `count` command: the IDS from inertia counts alone, without eigenvectors. */
+#pragma once
+
+#include <string>
+
+namespace dealii
+{
+  class ParameterHandler;
+}
+
+namespace alloyspec
+{
+  /** How to run `alloyspec count` (command-line side). */
+  struct CountOptions
+  {
+    std::string output_directory;
+    bool        progress = false;
+    /** Effective parameters as JSON (copied into run.json) and in short format (parameters.prm). */
+    std::string parameters_json;
+    std::string parameters_prm;
+  };
+
+  /**
+   * `alloyspec count`: for every realisation and boundary condition of the
+   * study in @p prm, the counting function
+   * @f$N_L(E_i) = \#\{\lambda_j \le E_i\}/|\Lambda|@f$ on the energy grid from
+   * inertia counts only (no eigenvectors, so memory is that of one
+   * factorisation and boxes far larger than `run` can handle fit). Writes
+   * counts.csv (realisation, boundary, energy, count), ids.csv with the same
+   * columns as `run` (complete at every energy) and run.json with timings and
+   * the memory high-water mark. At an energy equal to an eigenvalue the count
+   * is of eigenvalues strictly below it (a zero pivot); grids rarely hit one.
+   * Realisations are dealt out to MPI ranks round-robin.
+   */
+  void run_inertia_count(dealii::ParameterHandler &prm, const CountOptions &options);
+} // namespace alloyspec

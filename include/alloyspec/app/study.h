@@ -1,0 +1,158 @@
+/** @file study.h  A study: many realisations, several boundary conditions, the averaged IDS. */
+#pragma once
+
+#include <alloyspec/fe/discretisation.h>
+#include <alloyspec/solver/eigen_solver.h>
+#include <alloyspec/solver/error_estimate.h>
+#include <alloyspec/fe/geometry.h>
+#include <alloyspec/model/lattice.h>
+#include <alloyspec/model/potential_model.h>
+#include <alloyspec/analysis/spectral_analysis.h>
+#include <alloyspec/model/units.h>
+
+#include <cstdint>
+#include <map>
+#include <memory>
+#include <optional>
+#include <string>
+#include <utility>
+#include <vector>
+
+namespace dealii
+{
+  class ParameterHandler;
+}
+
+namespace alloyspec
+{
+  class ResultsStore;
+  class RealisationTeams;
+  struct RealisationRecord;
+  struct StoredStudy;
+
+  /** Subsection `study`: how many realisations, which seed, which energy grid. */
+  struct StudySettings
+  {
+    std::uint64_t         realisations      = 20;
+    std::uint64_t         first_realisation = 0;
+    std::uint64_t         seed              = 1;
+    std::vector<double>   energies;
+    std::string           energies_text = "0:0.1:10";
+    std::vector<Boundary> boundaries{Boundary::dirichlet, Boundary::neumann};
+    /** Eigenfunction indices written as VTU for the realisations below. */
+    std::vector<unsigned int>  export_eigenfunctions;
+    std::vector<std::uint64_t> export_realisations{0};
+
+    static void declare_parameters(dealii::ParameterHandler &prm);
+    void        parse_parameters(dealii::ParameterHandler &prm);
+  };
+
+  /** How to run (command-line side, not science). */
+  struct RunOptions
+  {
+    std::string output_directory;
+    bool        resume   = false;
+    bool        progress = false;
+    /**
+     * MPI ranks that solve one realisation together (a divisor of the
+     * number of ranks): the factorisation and the Krylov iteration are
+     * distributed over them (team.h). 1: every rank solves its own.
+     */
+    unsigned int ranks_per_realisation = 1;
+    /** Effective parameters as JSON, copied into run.json. */
+    std::string parameters_json;
+    /** Effective parameters in deal.II's short format, stored as parameters.prm. */
+    std::string parameters_prm;
+  };
+
+  /**
+   * The main job: for realisations r = first, …, first + n − 1 draw the cell
+   * values @f$q_n(\omega_r)@f$, solve for the lowest eigenvalues of
+   * @f$H_\omega = -\Delta + V_\omega@f$ under each boundary condition with the
+   * same values (common random numbers tighten the bracket), store every
+   * record durably, and average the counting functions
+   * @f$N^X_L(E) = \#\{\lambda_j \le E\}/|\Lambda|@f$ into ids.csv, whose
+   * Dirichlet and Neumann columns bracket the infinite-volume IDS:
+   * @f$E[N^D_L] \le N \le E[N^N_L]@f$ (Kirsch & Martinelli 1982).
+   *
+   * Realisations are dealt out to teams of MPI ranks in rounds (a team is
+   * one rank unless RunOptions::ranks_per_realisation says otherwise); every
+   * number depends on (seed, realisation, cell) only, so the results do not
+   * depend on the number of ranks, up to rounding in a team's distributed sums.
+   */
+  class Study
+  {
+  public:
+    Study();
+    ~Study();
+
+    /** Declares every parameter of every subsection. */
+    static void declare_parameters(dealii::ParameterHandler &prm);
+    void        parse_parameters(dealii::ParameterHandler &prm);
+
+    /** make_grid, setup_system, assemble, solve, postprocess — each timed. */
+    void run(const RunOptions &options);
+
+    const std::map<std::string, double> &timings() const { return timings_; }
+    const AnalysisSettings              &analysis_settings() const { return analysis_; }
+
+    /**
+     * The records of this study's realisations stored in @p directory, with
+     * everything needed to tabulate them (see summary.h). Cell values for the
+     * semiclassical count are regenerated from the counter-based stream.
+     */
+    StoredStudy collect(const std::string &directory, const std::string &parameters_prm) const;
+
+  private:
+    void make_grid();
+    void setup_system();
+    void assemble();
+    void solve(const ResultsStore &store, const RunOptions &options);
+    void postprocess(const ResultsStore &store, const RunOptions &options);
+    /** Stores parameters.prm; on resume, refuses other model parameters than stored. */
+    void check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const;
+
+    /** Pilot solve for `discretisation/accuracy`: sets degree and elements per cell. */
+    void choose_for_accuracy(bool root);
+
+    /** Writes the requested eigenfunctions of one solve as VTU (see StudySettings). */
+    void export_eigenfunctions(std::uint64_t realisation, std::size_t boundary_index,
+                               const std::vector<double> &cell_values, const EigenResult &result) const;
+    RealisationRecord solve_one(std::uint64_t realisation, std::size_t boundary_index);
+
+    /** Cell values of realisation @p r in solver units (UnitSystem::to_solver_energies). */
+    std::vector<double> solver_cell_values(std::uint64_t realisation) const;
+    /** Discretisation of solve @p b: the box with periodic directions, or the mesh. */
+    std::unique_ptr<Discretisation> make_discretisation(Boundary bracketing) const;
+    /**
+     * @f$|\Omega|@f$ and, per lattice cell, the volume that carries its value:
+     * the box's, or the mesh's (read from its file when no grid was made).
+     */
+    std::pair<double, std::vector<double>> domain_volumes() const;
+
+    /** The landscape command reuses the set-up of the eigenvalue study. */
+    friend class LandscapeStudy;
+
+    Lattice                lattice_;
+    UnitSystem             units_;
+    GeometrySettings       geometry_;
+    PotentialModel         potential_;
+    DiscretisationSettings discretisation_settings_;
+    EigenSolverSettings    solver_settings_;
+    ErrorEstimateSettings  error_settings_;
+    /** Set when `discretisation/accuracy` chose degree and elements per cell. */
+    std::optional<DiscretisationChoice> discretisation_choice_;
+    StudySettings          study_;
+    AnalysisSettings       analysis_;
+
+    std::vector<std::unique_ptr<Discretisation>>  discretisations_;
+    std::vector<std::unique_ptr<SpectralProblem>> problems_;
+    /** Teams of ranks that share a realisation (made by run()). */
+    std::unique_ptr<RealisationTeams>             teams_;
+    std::unique_ptr<EigenSolver>                  solver_;
+    std::vector<std::unique_ptr<ErrorEstimator>>  estimators_; ///< per boundary, if estimating
+    std::map<std::string, double>                 timings_;
+    std::size_t                                   solved_here_ = 0;
+    std::string                                   output_directory_;
+  };
+} // namespace alloyspec

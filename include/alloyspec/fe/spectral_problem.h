@@ -1,0 +1,32 @@
+/** @file spectral_problem.h  The matrix pair (K, M) of one generalised eigenproblem. */
+#pragma once
+
+#include <alloyspec/fe/backend.h>
+
+#include <algorithm>
+#include <cstddef>
+#include <vector>
+
+namespace alloyspec
+{
+  /**
+   * @f$K u = \lambda M u@f$ with @f$K = A + \sum_n q_n M_n@f$ (stiffness plus
+   * potential) and @f$M@f$ the mass matrix, both symmetric with the same
+   * sparsity pattern, M positive definite. Rows of constrained DoFs are
+   * decoupled and carry the eigenvalue @c spurious_eigenvalue only.
+   */
+  struct SpectralProblem
+  {
+    backend::SparseMatrix K;
+    backend::SparseMatrix M;
+    std::vector<bool>     constrained;        ///< per DoF
+    double                spurious_eigenvalue = 0;
+    double                lower_bound = 0;    ///< every eigenvalue is ≥ this (min of the potential)
+
+    /** Number of genuine eigenvalues: the DoFs that are not constrained (all lie below μ). */
+    std::size_t n_genuine() const
+    {
+      return static_cast<std::size_t>(std::count(constrained.begin(), constrained.end(), false));
+    }
+  };
+} // namespace alloyspec

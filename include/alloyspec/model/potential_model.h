@@ -1,0 +1,84 @@
+/** @file potential_model.h  The random cell potential V_ω and the cell-values file (laws: single_site_laws.h). */
+#pragma once
+
+#include <alloyspec/model/single_site_laws.h>
+
+#include <cstdint>
+#include <memory>
+#include <string>
+#include <vector>
+
+namespace dealii
+{
+  class ParameterHandler;
+}
+
+namespace alloyspec
+{
+  class Lattice;
+
+  /**
+   * Reads a cell-values file for @p lattice: one line per cell with
+   * dimension() 0-based integer indices and then the value ("i j k value" in
+   * 3D, "i value" in 1D); blank lines and text after '#' are ignored. Throws
+   * InputError naming the file and line for a malformed line, an out-of-range
+   * index, a duplicated cell, a non-finite value; and naming the first missing
+   * cell if any is absent. Returns values in Lattice::cell_index order.
+   */
+  std::vector<double> read_cell_values(const std::string &path, const Lattice &lattice);
+
+  /**
+   * The cell potential @f$V_\omega = \sum_n q_n(\omega)\chi_n@f$.
+   *
+   * Parameters (subsection `potential`): `law` = uniform | bernoulli |
+   * discrete | gaussian | beta | tabulated | binomial | file, and per law:
+   * - uniform: `minimum`, `maximum`;
+   * - bernoulli: `concentration`, `value A`, `value B`;
+   * - discrete: `values`, `probabilities`;
+   * - gaussian: `mean`, `standard deviation`, `truncate`; with
+   *   `truncate = true` the law is conditioned on [`minimum`, `maximum`];
+   * - beta: `shape at minimum` (α), `shape at maximum` (β), scaled to
+   *   [`minimum`, `maximum`];
+   * - tabulated: `density file` (two columns q, h(q); piecewise linear);
+   * - binomial: `atoms per cell`, `concentration` (of A), `value A`,
+   *   `value B` (coarse-grained alloy, see make_binomial_alloy_law());
+   * - file: `file` (one fixed potential).
+   * `minimum` and `maximum` mean the same for every law that uses them: the
+   * interval all values lie in.
+   */
+  class PotentialModel
+  {
+  public:
+    static void declare_parameters(dealii::ParameterHandler &prm);
+    /** Reads subsection `potential`; for law = file also reads and checks the file. */
+    void parse_parameters(dealii::ParameterHandler &prm, const Lattice &lattice);
+
+    /** Build directly (tests): a random law on the given lattice. */
+    void set_law(std::unique_ptr<SingleSiteLaw> law, const Lattice &lattice);
+    /** Build directly (tests): fixed cell values (size must be lattice.n_cells()). */
+    void set_fixed_values(std::vector<double> values, const Lattice &lattice);
+
+    /** Values of all cells for realisation @p r: q_n = F^{-1}(uniform_open01(seed, r, n)). */
+    std::vector<double> cell_values(std::uint64_t seed, std::uint64_t realisation) const;
+
+    bool                 is_random() const { return law_ != nullptr; }
+    const SingleSiteLaw *law() const { return law_.get(); }
+    /**
+     * Lower bound of every cell value: the infimum of the law's support (the
+     * bottom of the almost-sure spectrum; -∞ for an untruncated Gaussian
+     * law), or the minimum of fixed values. A realisation's own minimum is
+     * the minimum of cell_values().
+     */
+    double               bottom() const;
+    /** Upper bound of every cell value (+∞ for an untruncated Gaussian law). */
+    double               top() const;
+    std::string          description() const;
+
+  private:
+    std::shared_ptr<const SingleSiteLaw> law_;
+    std::vector<double>                  fixed_values_;
+    std::size_t                          n_cells_ = 0;
+    /** Where fixed values came from (for description()). */
+    std::string                          fixed_source_;
+  };
+} // namespace alloyspec

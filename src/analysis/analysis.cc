@@ -1,0 +1,587 @@
+/** @file analysis.cc  From stored spectra to tables, tail fits, figures and report.html. */
+#include <alloyspec/analysis/analysis.h>
+#include <alloyspec/core/errors.h>
+#include <alloyspec/analysis/figures.h>
+#include <alloyspec/analysis/report.h>
+#include <alloyspec/analysis/spectrum_statistics.h>
+#include <alloyspec/analysis/tail_fits.h>
+
+#include <algorithm>
+#include <cmath>
+#include <filesystem>
+#include <fstream>
+#include <limits>
+#include <map>
+#include <sstream>
+
+namespace alloyspec
+{
+  namespace
+  {
+    constexpr double nan = std::numeric_limits<double>::quiet_NaN();
+
+    std::string num(const double x)
+    {
+      if (!std::isfinite(x))
+        return "";
+      std::ostringstream s;
+      s.precision(10);
+      s << x;
+      return s.str();
+    }
+
+    /** Short form for tables of the report. */
+    std::string brief(const double x)
+    {
+      if (std::isnan(x))
+        return "–";
+      if (std::isinf(x))
+        return x > 0 ? "∞" : "−∞";
+      std::ostringstream s;
+      s.precision(4);
+      s << x;
+      return s.str();
+    }
+
+    std::string json_number(const double x) { return std::isfinite(x) ? num(x) : "null"; }
+
+    std::string json_string(const std::string &s)
+    {
+      std::string out = "\"";
+      for (const char c : s)
+        {
+          if (c == '"' || c == '\\')
+            out += '\\', out += c;
+          else if (c == '\n')
+            out += "\\n";
+          else if (static_cast<unsigned char>(c) < 0x20)
+            out += ' ';
+          else
+            out += c;
+        }
+      return out + "\"";
+    }
+
+    /** Writes @p content to @p path through a temporary file and a rename. */
+    void write_text(const std::string &path, const std::string &content)
+    {
+      const std::string temporary = path + ".tmp";
+      {
+        std::ofstream out(temporary, std::ios::binary);
+        out << content;
+        out.flush();
+        if (!out)
+          throw InputError(path + ": cannot write the file");
+      }
+      std::filesystem::rename(temporary, path);
+    }
+
+    /** Everything computed for one boundary condition. */
+    struct BoundaryAnalysis
+    {
+      std::string              name;
+      CountingSamples          samples;
+      std::vector<IntervalRow> band, lorentzian, gaussian;
+      std::vector<GridValue>   ids, dos;
+      TailFit                  lifshitz, urbach;
+      std::vector<BinRow>      ratios, ipr;
+      std::size_t              realisations = 0;
+    };
+
+    BoundaryAnalysis analyse_boundary(const AnalysisInput &in, const std::string &bc,
+                                      const AnalysisSettings &s)
+    {
+      BoundaryAnalysis a;
+      a.name        = bc;
+      const double cell_volume = std::pow(in.cell_size, double(in.dimension));
+      a.samples      = counting_samples(in.records, bc, in.energies, in.volume);
+      a.realisations = a.samples.counts.size();
+      a.band = bootstrap_mean_interval(a.samples, s.bootstrap_samples, s.confidence_level,
+                                       s.bootstrap_seed);
+      a.lorentzian = density_of_states(in.records, bc, in.energies, in.volume,
+                                       Broadening::lorentzian, s.lorentzian_width);
+      a.gaussian   = density_of_states(in.records, bc, in.energies, in.volume,
+                                       Broadening::gaussian, s.gaussian_width);
+      for (std::size_t i = 0; i < in.energies.size(); ++i)
+        {
+          const auto &r = a.band[i];
+          a.ids.push_back({r.energy, r.mean, r.standard_error, r.complete,
+                           a.samples.states_below[i], a.samples.realisations_with_states[i]});
+          const auto &g = a.gaussian[i];
+          a.dos.push_back({g.energy, g.mean, g.standard_error, g.complete,
+                           a.samples.states_below[i], a.samples.realisations_with_states[i]});
+        }
+      a.lifshitz = lifshitz_fit(a.ids, in.band_bottom, in.dimension, cell_volume,
+                                s.lifshitz_window, s.lifshitz_fraction, s.confidence_level);
+      std::vector<double> window = s.urbach_window;
+      if (window.empty() && in.mean_potential > in.band_bottom)
+        window = {in.band_bottom, in.mean_potential};
+      if (window.empty())
+        a.urbach.reason = "no automatic Urbach window: the mean potential is not above E0";
+      else
+        a.urbach = urbach_fit(a.dos, window, s.gaussian_width, s.confidence_level);
+      const double lo = in.energies.front(), hi = in.energies.back();
+      if (hi > lo)
+        {
+          a.ratios = spacing_ratio_bins(in.records, bc, lo, hi, s.bin_width);
+          a.ipr    = ipr_bins(in.records, bc, lo, hi, s.bin_width);
+        }
+      return a;
+    }
+
+    std::string ids_band_csv(const std::vector<BoundaryAnalysis> &all,
+                             const std::vector<double> &energies)
+    {
+      std::ostringstream csv;
+      csv << "energy";
+      for (const auto &a : all)
+        csv << ",ids_" << a.name << ",lower_" << a.name << ",upper_" << a.name << ",complete_"
+            << a.name;
+      csv << '\n';
+      for (std::size_t i = 0; i < energies.size(); ++i)
+        {
+          csv << num(energies[i]);
+          for (const auto &a : all)
+            csv << ',' << num(a.band[i].mean) << ',' << num(a.band[i].lower) << ','
+                << num(a.band[i].upper) << ',' << (a.band[i].complete ? 1 : 0);
+          csv << '\n';
+        }
+      return csv.str();
+    }
+
+    std::string dos_csv(const std::vector<BoundaryAnalysis> &all, const std::vector<double> &energies)
+    {
+      std::ostringstream csv;
+      csv << "energy";
+      for (const auto &a : all)
+        for (const char *k : {"lorentzian", "gaussian"})
+          csv << ',' << k << '_' << a.name << ',' << k << "_stderr_" << a.name << ',' << k
+              << "_complete_" << a.name;
+      csv << '\n';
+      for (std::size_t i = 0; i < energies.size(); ++i)
+        {
+          csv << num(energies[i]);
+          for (const auto &a : all)
+            for (const auto *rows : {&a.lorentzian, &a.gaussian})
+              csv << ',' << num((*rows)[i].mean) << ',' << num((*rows)[i].standard_error) << ','
+                  << ((*rows)[i].complete ? 1 : 0);
+          csv << '\n';
+        }
+      return csv.str();
+    }
+
+    std::string localisation_csv(const std::vector<BoundaryAnalysis> &all)
+    {
+      std::ostringstream csv;
+      csv << "bin_low,bin_high";
+      for (const auto &a : all)
+        csv << ",ratio_" << a.name << ",ratio_stderr_" << a.name << ",ratio_count_" << a.name
+            << ",ipr_" << a.name << ",ipr_stderr_" << a.name << ",ipr_count_" << a.name;
+      csv << '\n';
+      const std::size_t n = all.empty() ? 0 : all[0].ratios.size();
+      for (std::size_t b = 0; b < n; ++b)
+        {
+          csv << num(all[0].ratios[b].lower) << ',' << num(all[0].ratios[b].upper);
+          for (const auto &a : all)
+            csv << ',' << num(a.ratios[b].mean) << ',' << num(a.ratios[b].standard_error) << ','
+                << a.ratios[b].count << ',' << num(a.ipr[b].mean) << ','
+                << num(a.ipr[b].standard_error) << ',' << a.ipr[b].count;
+          csv << '\n';
+        }
+      return csv.str();
+    }
+
+    std::string fit_json(const TailFit &f, bool lifshitz)
+    {
+      std::ostringstream j;
+      j << "{\"resolved\": " << (f.resolved ? "true" : "false")
+        << ", \"reason\": " << json_string(f.reason)
+        << ", \"window\": [" << json_number(f.window_low) << ", " << json_number(f.window_high)
+        << "], \"points\": " << f.points << ", \"states\": " << f.states
+        << ", \"realisations\": " << f.realisations << ", \"slope\": " << json_number(f.slope)
+        << ", \"slope_stderr\": " << json_number(f.slope_error) << ", \"slope_interval\": ["
+        << json_number(f.slope_low) << ", " << json_number(f.slope_high)
+        << "], \"intercept\": " << json_number(f.intercept)
+        << ", \"chi_squared\": " << json_number(f.chi_squared) << ", \"dof\": " << f.dof;
+      if (lifshitz)
+        j << ", \"expected_slope\": " << json_number(f.expected_slope)
+          << ", \"consistent_with_expected\": " << (f.consistent ? "true" : "false");
+      else
+        j << ", \"urbach_energy\": " << json_number(f.urbach_energy) << ", \"urbach_interval\": ["
+          << json_number(f.urbach_low) << ", " << json_number(f.urbach_high)
+          << "], \"reference_energy\": " << json_number(f.reference_energy);
+      j << "}";
+      return j.str();
+    }
+
+    std::string tails_json(const std::vector<BoundaryAnalysis> &all, const AnalysisInput &in,
+                           const AnalysisSettings &s)
+    {
+      std::ostringstream j;
+      j << "{\n  \"band_bottom\": " << json_number(in.band_bottom)
+        << ",\n  \"dimension\": " << in.dimension
+        << ",\n  \"confidence_level\": " << json_number(s.confidence_level)
+        << ",\n  \"gaussian_width\": " << json_number(s.gaussian_width)
+        << ",\n  \"energy_unit\": " << json_string(in.energy_unit) << ",\n  \"lifshitz\": {";
+      for (std::size_t b = 0; b < all.size(); ++b)
+        j << (b ? "," : "") << "\n    " << json_string(all[b].name) << ": "
+          << fit_json(all[b].lifshitz, true);
+      j << "\n  },\n  \"urbach\": {";
+      for (std::size_t b = 0; b < all.size(); ++b)
+        j << (b ? "," : "") << "\n    " << json_string(all[b].name) << ": "
+          << fit_json(all[b].urbach, false);
+      j << "\n  }\n}\n";
+      return j.str();
+    }
+
+    /** IDS table for the figure: ids.csv by name if there is one, else from the records. */
+    Columns ids_columns(const std::string &output_dir, const AnalysisInput &in,
+                        const std::vector<BoundaryAnalysis> &all, std::vector<std::string> &notes)
+    {
+      std::string path = in.ids_table;
+      if (path.empty() && std::filesystem::exists(output_dir + "/ids.csv"))
+        path = output_dir + "/ids.csv";
+      Columns table;
+      if (!path.empty())
+        {
+          table = read_csv_columns(path);
+          if (table["energy"] != in.energies)
+            {
+              notes.push_back(path + " has another energy grid than the records' analysis: the IDS "
+                                     "figure shows its own columns with ±z·stderr bands");
+              return table;
+            }
+        }
+      else
+        {
+          table["energy"] = in.energies;
+          notes.push_back("no ids.csv given: the IDS figure is drawn from the records, without "
+                          "the semiclassical curve");
+        }
+      for (const auto &a : all)
+        {
+          auto &mean = table["ids_" + a.name], &lo = table["lower_" + a.name],
+               &hi = table["upper_" + a.name], &comp = table["complete_" + a.name];
+          const bool fill = mean.empty();
+          if (fill)
+            comp.clear();
+          lo.clear(), hi.clear();
+          for (const auto &r : a.band)
+            {
+              if (fill)
+                mean.push_back(r.mean), comp.push_back(r.complete ? 1.0 : 0.0);
+              lo.push_back(r.lower), hi.push_back(r.upper);
+            }
+        }
+      return table;
+    }
+
+    /**
+     * Checks that hold exactly for the model, whatever the data: every
+     * eigenvalue lies above E0 = min supp of the law (H ≥ q_min; Galerkin
+     * eigenvalues are upper bounds), and for each realisation the Dirichlet
+     * count lies below the Neumann count (min–max: the Dirichlet form domain is
+     * contained in the Neumann one), wherever both are complete.
+     */
+    std::vector<ReportCheck> exact_checks(const AnalysisInput &in)
+    {
+      std::vector<ReportCheck> checks;
+      double                   lowest = std::numeric_limits<double>::infinity();
+      for (const auto &r : in.records)
+        for (const double x : r.eigenvalues)
+          lowest = std::min(lowest, x);
+      const double tolerance = 1e-9 * std::max(1.0, std::abs(in.band_bottom));
+      checks.push_back({"spectrum above E0 (H ≥ min of the law's support)",
+                        !(lowest < in.band_bottom - tolerance),
+                        "lowest eigenvalue " + brief(lowest) + ", E0 = " + brief(in.band_bottom)});
+
+      std::map<std::uint64_t, const RealisationRecord *> dirichlet, neumann;
+      for (const auto &r : in.records)
+        (r.boundary == "dirichlet" ? dirichlet : neumann)[r.realisation] = &r;
+      std::size_t pairs = 0, violations = 0;
+      for (const auto &[id, d] : dirichlet)
+        {
+          const auto it = neumann.find(id);
+          if (it == neumann.end() || it->second->boundary != "neumann")
+            continue;
+          ++pairs;
+          const auto cd = counting_function(d->eigenvalues, in.volume, in.energies);
+          const auto cn = counting_function(it->second->eigenvalues, in.volume, in.energies);
+          for (std::size_t i = 0; i < in.energies.size(); ++i)
+            if (in.energies[i] <= std::min(d->complete_up_to, it->second->complete_up_to) &&
+                cd[i] > cn[i])
+              ++violations;
+        }
+      if (pairs > 0)
+        checks.push_back({"Dirichlet–Neumann bracketing per realisation", violations == 0,
+                          std::to_string(pairs) + " realisations compared, " +
+                            std::to_string(violations) + " grid points with N_D > N_N"});
+      return checks;
+    }
+
+    std::vector<std::string> analyse(const std::string &output_dir, const AnalysisInput &in,
+                                     const AnalysisSettings &s, ReportContent report)
+    {
+      if (in.energies.empty() || !(in.volume > 0.0) || in.dimension < 1 || in.dimension > 3 ||
+          !(in.cell_size > 0.0))
+        throw InputError("analysis: need a non-empty energy grid, a volume > 0, a cell size > 0 "
+                         "and a dimension of 1 to 3");
+      std::filesystem::create_directories(output_dir);
+      std::vector<BoundaryAnalysis> all;
+      for (const auto &bc : in.boundaries)
+        all.push_back(analyse_boundary(in, bc, s));
+
+      write_text(output_dir + "/ids_band.csv", with_energy_columns(ids_band_csv(all, in.energies), in));
+      write_text(output_dir + "/dos.csv", with_energy_columns(dos_csv(all, in.energies), in));
+      write_text(output_dir + "/localisation.csv", localisation_csv(all));
+      write_text(output_dir + "/tails.json", tails_json(all, in, s));
+
+      const double cell_volume = std::pow(in.cell_size, double(in.dimension));
+      FigureMaker  maker(output_dir + "/figures", s.figure_formats, in.energy_unit);
+      std::vector<std::string> names;
+      std::vector<std::vector<IntervalRow>> lor, gau;
+      std::vector<std::vector<GridValue>>   ids;
+      std::vector<std::vector<BinRow>>      ratios, ipr;
+      std::vector<TailFit>                  lif, urb;
+      for (const auto &a : all)
+        {
+          names.push_back(a.name), lor.push_back(a.lorentzian), gau.push_back(a.gaussian);
+          ids.push_back(a.ids), ratios.push_back(a.ratios), ipr.push_back(a.ipr);
+          lif.push_back(a.lifshitz), urb.push_back(a.urbach);
+        }
+      const Columns table = ids_columns(output_dir, in, all, report.notes);
+      report.figures.push_back(ids_figure(maker, table, names, s.confidence_level));
+      report.figures.push_back(dos_figure(maker, names, lor, gau, s.lorentzian_width,
+                                          s.gaussian_width));
+      report.figures.push_back(lifshitz_figure(maker, names, ids, lif, in.band_bottom, cell_volume));
+      report.figures.push_back(urbach_figure(maker, names, gau, urb));
+      if (!ratios.empty() && !ratios[0].empty())
+        {
+          report.figures.push_back(ipr_figure(maker, names, ipr, in.volume, cell_volume));
+          report.figures.push_back(ratio_figure(maker, names, ratios));
+        }
+
+      // Report: key numbers, fits, checks, notes.
+      if (report.title.empty())
+        report.title = "alloyspec analysis";
+      if (report.model_summary.empty())
+        report.model_summary = in.model_summary;
+      report.parameters_text = in.parameters_text;
+      std::ostringstream box;
+      for (std::size_t d = 0; d < in.cells.size(); ++d)
+        box << (d ? " × " : "") << in.cells[d];
+      report.key_numbers.insert(report.key_numbers.begin(),
+                                {{"box (cells)", box.str()},
+                                 {"cell size", brief(in.cell_size)},
+                                 {"volume |Λ|", brief(in.volume)},
+                                 {"bottom of the spectrum E0", brief(in.band_bottom)},
+                                 {"mean potential", brief(in.mean_potential)},
+                                 {"energy unit", in.energy_unit}});
+      for (const auto &a : all)
+        {
+          std::size_t complete = 0;
+          for (const auto &r : a.band)
+            complete += r.complete;
+          report.key_numbers.push_back({"realisations (" + a.name + ")",
+                                        std::to_string(a.realisations) + ", IDS complete at " +
+                                          std::to_string(complete) + " of " +
+                                          std::to_string(a.band.size()) + " grid energies"});
+        }
+      ReportTable fits{"Tail fits (interval at confidence " + brief(s.confidence_level) + ")",
+                       {"boundary", "fit", "window", "points / states / realisations", "result",
+                        "resolved", "comment"},
+                       {}};
+      for (const auto &a : all)
+        {
+          const auto window = [](const TailFit &f) {
+            return "[" + brief(f.window_low) + ", " + brief(f.window_high) + "]";
+          };
+          const auto counts = [](const TailFit &f) {
+            return std::to_string(f.points) + " / " + std::to_string(f.states) + " / " +
+                   std::to_string(f.realisations);
+          };
+          fits.rows.push_back({a.name, "Lifshitz slope", window(a.lifshitz), counts(a.lifshitz),
+                               brief(a.lifshitz.slope) + " [" + brief(a.lifshitz.slope_low) + ", " +
+                                 brief(a.lifshitz.slope_high) + "], −d/2 = " +
+                                 brief(a.lifshitz.expected_slope),
+                               a.lifshitz.resolved ? "yes" : "no", a.lifshitz.reason});
+          fits.rows.push_back({a.name, "Urbach energy", window(a.urbach), counts(a.urbach),
+                               brief(a.urbach.urbach_energy) + " [" + brief(a.urbach.urbach_low) +
+                                 ", " + brief(a.urbach.urbach_high) + "]",
+                               a.urbach.resolved ? "yes" : "no", a.urbach.reason});
+        }
+      report.tables.push_back(fits);
+      ReportTable sample{"IDS at selected energies (mean and bootstrap interval; * = incomplete)",
+                         {"energy"},
+                         {}};
+      for (const auto &a : all)
+        sample.header.push_back("N(E) " + a.name);
+      const std::size_t n_e = in.energies.size(), step = std::max<std::size_t>(1, n_e / 10);
+      for (std::size_t i = 0; i < n_e; i += step)
+        {
+          std::vector<std::string> row{brief(in.energies[i])};
+          for (const auto &a : all)
+            row.push_back(brief(a.band[i].mean) + " [" + brief(a.band[i].lower) + ", " +
+                          brief(a.band[i].upper) + "]" + (a.band[i].complete ? "" : " *"));
+          sample.rows.push_back(row);
+        }
+      report.tables.push_back(sample);
+      for (auto &c : exact_checks(in))
+        report.checks.push_back(c);
+      report.notes.push_back(
+        "Lifshitz fits use neighbouring grid points that share realisations; their errors are "
+        "correlated, so the slope interval is approximate. In a Dirichlet box of L cells the "
+        "spectrum starts about dπ²/(La)² above E0, which cuts the tail off at low energy.");
+      for (const auto &w : maker.warnings())
+        report.notes.push_back(w);
+      write_text(output_dir + "/report.html", render_report(report));
+      return maker.warnings();
+    }
+  } // namespace
+
+  std::string with_energy_columns(const std::string &csv, const AnalysisInput &input)
+  {
+    if (!(input.solver_energy_unit > 0.0))
+      return csv;
+    std::istringstream in(csv);
+    std::ostringstream out;
+    std::string        line;
+    bool               header = true;
+    while (std::getline(in, line))
+      {
+        const auto  comma = line.find(',');
+        std::string first = line.substr(0, comma);
+        std::string rest  = comma == std::string::npos ? std::string() : line.substr(comma);
+        if (header)
+          {
+            if (first != "energy")
+              return csv; // not an energy table: leave it alone
+            out << input.energy_column << ",energy_reduced" << rest << '\n';
+            header = false;
+            continue;
+          }
+        const double e = std::strtod(first.c_str(), nullptr);
+        out << first << ',' << num(e / input.solver_energy_unit) << rest << '\n';
+      }
+    return out.str();
+  }
+
+  std::vector<std::string> write_analysis(const std::string &output_dir, const AnalysisInput &input,
+                                          const AnalysisSettings &settings)
+  {
+    return analyse(output_dir, input, settings, ReportContent{});
+  }
+
+  std::vector<std::string> write_summary(const std::string                &output_dir,
+                                         const std::vector<AnalysisInput> &studies,
+                                         const AnalysisSettings           &settings)
+  {
+    if (studies.size() < 2)
+      throw InputError("summarise: need at least two studies (box sizes) to extrapolate");
+    for (const auto &s : studies)
+      if (s.energies != studies[0].energies || s.dimension != studies[0].dimension ||
+          !(s.volume > 0.0) || !(s.cell_size > 0.0))
+        throw InputError("summarise: all studies must share the energy grid and the dimension "
+                         "and have a positive volume and cell size");
+    const auto &energies = studies[0].energies;
+    const double d       = double(studies[0].dimension);
+    std::vector<double> sizes;
+    std::size_t         largest = 0;
+    for (std::size_t k = 0; k < studies.size(); ++k)
+      {
+        const auto &s = studies[k];
+        sizes.push_back(std::pow(s.volume / std::pow(s.cell_size, d), 1.0 / d));
+        if (sizes.back() > sizes[largest])
+          largest = k;
+      }
+    std::filesystem::create_directories(output_dir);
+
+    // Per boundary and energy: N_L from every study where it is complete.
+    const auto &bcs = studies[largest].boundaries;
+    std::vector<std::vector<Extrapolation>> fits(bcs.size(), std::vector<Extrapolation>(energies.size()));
+    std::vector<std::vector<bool>>          ok(bcs.size(), std::vector<bool>(energies.size(), false));
+    for (std::size_t b = 0; b < bcs.size(); ++b)
+      {
+        std::vector<std::vector<IdsAccumulator::Row>> rows;
+        for (const auto &s : studies)
+          {
+            IdsAccumulator acc(energies, s.volume);
+            for (const auto &r : s.records)
+              if (r.boundary == bcs[b])
+                acc.add(r.eigenvalues, r.complete_up_to);
+            rows.push_back(acc.rows());
+          }
+        for (std::size_t i = 0; i < energies.size(); ++i)
+          {
+            std::vector<double> l, m, e;
+            for (std::size_t k = 0; k < studies.size(); ++k)
+              if (rows[k][i].complete && rows[k][i].standard_error > 0.0)
+                l.push_back(sizes[k]), m.push_back(rows[k][i].mean),
+                  e.push_back(rows[k][i].standard_error);
+            // Three sizes at least, so that χ² has a degree of freedom to test the 1/L form.
+            if (l.size() >= 3)
+              fits[b][i] = extrapolate_in_inverse_size(l, m, e), ok[b][i] = true;
+          }
+      }
+    const auto index = [&](const char *name) {
+      const auto it = std::find(bcs.begin(), bcs.end(), name);
+      return it == bcs.end() ? -1 : int(it - bcs.begin());
+    };
+    const int          di = index("dirichlet"), ni = index("neumann");
+    std::ostringstream csv;
+    csv << "energy";
+    for (const auto &bc : bcs)
+      csv << ",n_infinity_" << bc << ",stderr_" << bc << ",c_" << bc << ",c_stderr_" << bc
+          << ",chi_squared_" << bc << ",dof_" << bc;
+    csv << ",agree\n";
+    std::size_t compared = 0, agreeing = 0;
+    for (std::size_t i = 0; i < energies.size(); ++i)
+      {
+        csv << num(energies[i]);
+        for (std::size_t b = 0; b < bcs.size(); ++b)
+          {
+            const auto &f = fits[b][i];
+            if (ok[b][i])
+              csv << ',' << num(f.n_infinity) << ',' << num(f.n_infinity_error) << ',' << num(f.c)
+                  << ',' << num(f.c_error) << ',' << num(f.chi_squared) << ',' << f.dof;
+            else
+              csv << ",,,,,,";
+          }
+        csv << ',';
+        if (di >= 0 && ni >= 0 && ok[di][i] && ok[ni][i])
+          {
+            const bool agree = extrapolations_agree(fits[di][i], fits[ni][i],
+                                                    settings.confidence_level);
+            ++compared, agreeing += agree;
+            csv << (agree ? 1 : 0);
+          }
+        csv << '\n';
+      }
+    write_text(output_dir + "/extrapolation.csv", with_energy_columns(csv.str(), studies[largest]));
+
+    ReportContent report;
+    report.title = "alloyspec summary of " + std::to_string(studies.size()) + " box sizes";
+    std::ostringstream list;
+    for (std::size_t k = 0; k < sizes.size(); ++k)
+      list << (k ? ", " : "") << brief(sizes[k]);
+    report.key_numbers.push_back({"box sizes L (cells per direction)", list.str()});
+    report.key_numbers.push_back({"figures and tail fits below", "largest box, L = " +
+                                                                   brief(sizes[largest])});
+    if (compared > 0)
+      report.checks.push_back(
+        {"Dirichlet and Neumann extrapolations agree (N + c/L)", agreeing == compared,
+         std::to_string(agreeing) + " of " + std::to_string(compared) +
+           " energies agree within the interval at confidence " +
+           brief(settings.confidence_level) +
+           " (treated as independent, which is conservative for common cell values)"});
+    FigureMaker maker(output_dir + "/figures", settings.figure_formats,
+                      studies[largest].energy_unit);
+    report.figures.push_back(extrapolation_figure(
+      maker, read_csv_columns(output_dir + "/extrapolation.csv"), bcs, settings.confidence_level));
+    for (const auto &w : maker.warnings())
+      report.notes.push_back(w);
+    auto warnings = analyse(output_dir, studies[largest], settings, report);
+    warnings.insert(warnings.end(), maker.warnings().begin(), maker.warnings().end());
+    return warnings;
+  }
+} // namespace alloyspec

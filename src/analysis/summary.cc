@@ -1,0 +1,334 @@
+#include <alloyspec/core/errors.h>
+#include <alloyspec/io/results_store.h>
+#include <alloyspec/analysis/spectrum_statistics.h>
+#include <alloyspec/analysis/summary.h>
+
+#include <algorithm>
+#include <array>
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <set>
+#include <sstream>
+
+namespace alloyspec
+{
+  namespace
+  {
+    std::string number(double x)
+    {
+      if (!std::isfinite(x))
+        return "nan";
+      char buffer[40];
+      std::snprintf(buffer, sizeof buffer, "%.17g", x);
+      return buffer;
+    }
+
+    /** Entries that may differ between folders of one model. */
+    bool is_run_only(const std::string &key)
+    {
+      return key == "study/realisations" || key == "study/first realisation" ||
+             key == "study/seed" || key.rfind("analysis/", 0) == 0;
+    }
+
+    std::vector<std::string> differences(const StoredStudy &a, const StoredStudy &b,
+                                         bool allow_cells)
+    {
+      std::set<std::string> keys;
+      for (const auto &[k, v] : a.parameters)
+        keys.insert(k);
+      for (const auto &[k, v] : b.parameters)
+        keys.insert(k);
+      std::vector<std::string> differ;
+      for (const auto &k : keys)
+        {
+          if (is_run_only(k) || (allow_cells && k == "lattice/cells"))
+            continue;
+          const auto ia = a.parameters.find(k), ib = b.parameters.find(k);
+          const std::string va = ia == a.parameters.end() ? "<absent>" : ia->second;
+          const std::string vb = ib == b.parameters.end() ? "<absent>" : ib->second;
+          if (va != vb)
+            differ.push_back(k + " ('" + va + "' in " + a.directory + ", '" + vb + "' in " +
+                             b.directory + ")");
+        }
+      return differ;
+    }
+
+    void refuse_overlap(const std::vector<StoredStudy> &group)
+    {
+      std::set<std::pair<std::uint64_t, std::uint64_t>> seen; // (seed, realisation)
+      for (const auto &s : group)
+        {
+          std::set<std::uint64_t> own;
+          for (const auto &r : s.input.records)
+            own.insert(r.realisation);
+          for (const auto r : own)
+            if (!seen.insert({s.seed, r}).second)
+              throw InputError("summarise: realisation " + std::to_string(r) + " of seed " +
+                               std::to_string(s.seed) + " is stored in more than one folder (" +
+                               s.directory +
+                               "); merged samples must be independent (use disjoint "
+                               "'study/first realisation' ranges or different seeds)");
+        }
+    }
+  } // namespace
+
+  std::map<std::string, std::string> flatten_parameters(const std::string &text)
+  {
+    std::map<std::string, std::string> flat;
+    std::vector<std::string>           path;
+    std::istringstream                 in(text);
+    for (std::string line; std::getline(in, line);)
+      {
+        const auto hash = line.find('#');
+        if (hash != std::string::npos)
+          line.erase(hash);
+        std::istringstream words(line);
+        std::string        first;
+        if (!(words >> first))
+          continue;
+        if (first == "subsection")
+          {
+            std::string name;
+            std::getline(words, name);
+            name.erase(0, name.find_first_not_of(" \t"));
+            name.erase(name.find_last_not_of(" \t\r") + 1);
+            path.push_back(name);
+          }
+        else if (first == "end")
+          {
+            if (!path.empty())
+              path.pop_back();
+          }
+        else if (first == "set")
+          {
+            std::string rest;
+            std::getline(words, rest);
+            const auto  eq    = rest.find('=');
+            std::string name  = rest.substr(0, eq);
+            std::string value = eq == std::string::npos ? "" : rest.substr(eq + 1);
+            for (std::string *s : {&name, &value})
+              {
+                s->erase(0, s->find_first_not_of(" \t"));
+                s->erase(s->find_last_not_of(" \t\r") + 1);
+              }
+            std::string key;
+            for (const auto &p : path)
+              key += p + "/";
+            flat[key + name] = value;
+          }
+      }
+    return flat;
+  }
+
+  std::string format_ids_table(const std::vector<std::string>                   &boundaries,
+                               const std::vector<double>                        &energies,
+                               const std::vector<std::vector<IdsAccumulator::Row>> &rows,
+                               const std::vector<double>                        &semiclassical,
+                               const std::size_t                                 n_realisations)
+  {
+    auto index_of = [&](const std::string &name) -> int {
+      const auto it = std::find(boundaries.begin(), boundaries.end(), name);
+      return it == boundaries.end() ? -1 : static_cast<int>(it - boundaries.begin());
+    };
+    const int d = index_of("dirichlet"), n = index_of("neumann"), p = index_of("periodic");
+    std::ostringstream csv;
+    csv << "energy";
+    for (const int b : {d, n, p})
+      if (b >= 0)
+        csv << ",ids_" << boundaries[b] << ",stderr_" << boundaries[b];
+    if (d >= 0 && n >= 0)
+      csv << ",width";
+    for (const int b : {d, n, p})
+      if (b >= 0)
+        csv << ",complete_" << boundaries[b];
+    csv << ",semiclassical,realisations\n";
+    for (std::size_t i = 0; i < energies.size(); ++i)
+      {
+        csv << number(energies[i]);
+        for (const int b : {d, n, p})
+          if (b >= 0)
+            csv << ',' << number(rows[b][i].mean) << ',' << number(rows[b][i].standard_error);
+        if (d >= 0 && n >= 0)
+          csv << ',' << number(rows[n][i].mean - rows[d][i].mean);
+        for (const int b : {d, n, p})
+          if (b >= 0)
+            csv << ',' << (rows[b][i].complete ? 1 : 0);
+        csv << ',' << number(semiclassical[i]) << ',' << n_realisations << '\n';
+      }
+    return csv.str();
+  }
+
+  namespace
+  {
+    /**
+     * local_trace.csv: the local-trace estimators of the IDS and DOS from the
+     * central cell's weights w_j = ∫_{χ0}|ψ_j|²,
+     * N_loc(E) = E[Σ_{λ_j ≤ E} w_j]/|χ0| and n_loc(E) = E[Σ_j w_j δ_η(E − λ_j)]/|χ0|
+     * (Lorentzian δ_η), next to the counting estimator and their difference in
+     * combined standard errors. Both estimate the same N(E) (local-trace
+     * definition of the IDS; e.g. Kirsch, "An invitation to random Schrödinger
+     * operators", 2008, from memory); in a finite box they differ by boundary
+     * effects that fall with L.
+     */
+    void write_local_trace_table(const std::string &output_dir, const AnalysisInput &merged,
+                                 const std::vector<std::vector<IdsAccumulator::Row>> &rows,
+                                 double eta)
+    {
+      const double cell_volume = std::pow(merged.cell_size, merged.dimension);
+      constexpr double pi      = 3.14159265358979323846;
+      std::ostringstream csv;
+      csv << "energy";
+      for (const auto &bc : merged.boundaries)
+        csv << ",ids_local_" << bc << ",stderr_local_" << bc << ",ids_" << bc
+            << ",difference_in_stderr_" << bc << ",dos_local_" << bc << ",complete_" << bc;
+      csv << '\n';
+      std::vector<std::vector<std::array<double, 4>>> sums(merged.boundaries.size());
+      std::vector<std::size_t>                        count(merged.boundaries.size(), 0);
+      bool                                            have_weights = false;
+      for (std::size_t b = 0; b < merged.boundaries.size(); ++b)
+        {
+          sums[b].assign(merged.energies.size(), {0, 0, 0, 0});
+          for (const auto &r : merged.records)
+            {
+              if (r.boundary != merged.boundaries[b] || r.central_weights.size() != r.eigenvalues.size())
+                continue;
+              ++count[b];
+              for (std::size_t i = 0; i < merged.energies.size(); ++i)
+                {
+                  double n_local = 0, dos = 0;
+                  for (std::size_t j = 0; j < r.eigenvalues.size(); ++j)
+                    if (std::isfinite(r.central_weights[j]))
+                      {
+                        have_weights = true;
+                        const double x = merged.energies[i] - r.eigenvalues[j];
+                        if (x >= 0)
+                          n_local += r.central_weights[j];
+                        dos += r.central_weights[j] * eta / (pi * (x * x + eta * eta));
+                      }
+                  sums[b][i][0] += n_local / cell_volume;
+                  sums[b][i][1] += (n_local / cell_volume) * (n_local / cell_volume);
+                  sums[b][i][2] += dos / cell_volume;
+                }
+            }
+        }
+      if (!have_weights)
+        return; // records of an older version without central weights
+      for (std::size_t i = 0; i < merged.energies.size(); ++i)
+        {
+          csv << number(merged.energies[i]);
+          for (std::size_t b = 0; b < merged.boundaries.size(); ++b)
+            {
+              const double n    = std::max<std::size_t>(count[b], 1);
+              const double mean = sums[b][i][0] / n;
+              const double var  = count[b] > 1 ? std::max(0.0, (sums[b][i][1] - n * mean * mean) / (n - 1)) : 0.0;
+              const double se   = std::sqrt(var / n);
+              const double combined = std::hypot(se, rows[b][i].standard_error);
+              csv << ',' << number(mean) << ',' << number(se) << ',' << number(rows[b][i].mean) << ','
+                  << number(combined > 0 ? (mean - rows[b][i].mean) / combined : 0.0) << ','
+                  << number(sums[b][i][2] / n) << ',' << (rows[b][i].complete ? 1 : 0);
+            }
+          csv << '\n';
+        }
+      ResultsStore::write_file_in(output_dir, "local_trace.csv", csv.str());
+    }
+  } // namespace
+
+  std::vector<std::string> write_study_tables(const std::string              &output_dir,
+                                              const std::vector<StoredStudy> &studies,
+                                              const AnalysisSettings         &settings)
+  {
+    if (studies.empty())
+      throw InputError("summarise: no study folder given");
+    AnalysisInput merged = studies.front().input;
+    merged.records.clear();
+    std::vector<double> semiclassical(merged.energies.size(), 0.0);
+    std::size_t         n_realisations = 0;
+    for (const auto &s : studies)
+      {
+        merged.records.insert(merged.records.end(), s.input.records.begin(), s.input.records.end());
+        for (std::size_t i = 0; i < semiclassical.size(); ++i)
+          semiclassical[i] += s.semiclassical_sum[i];
+        std::set<std::uint64_t> own;
+        for (const auto &r : s.input.records)
+          own.insert(r.realisation);
+        n_realisations += own.size();
+      }
+    for (double &x : semiclassical)
+      x /= std::max<std::size_t>(1, n_realisations);
+
+    std::vector<IdsAccumulator> ids;
+    for (std::size_t b = 0; b < merged.boundaries.size(); ++b)
+      ids.emplace_back(merged.energies, merged.volume);
+    for (const auto &r : merged.records)
+      for (std::size_t b = 0; b < merged.boundaries.size(); ++b)
+        if (r.boundary == merged.boundaries[b])
+          ids[b].add(r.eigenvalues, r.complete_up_to);
+    std::vector<std::vector<IdsAccumulator::Row>> rows;
+    for (const auto &a : ids)
+      rows.push_back(a.rows());
+
+    std::filesystem::create_directories(output_dir);
+    ResultsStore::write_file_in(
+      output_dir, "ids.csv",
+      with_energy_columns(
+        format_ids_table(merged.boundaries, merged.energies, rows, semiclassical, n_realisations),
+        merged));
+
+    write_local_trace_table(output_dir, merged, rows, settings.lorentzian_width);
+    merged.ids_table = (std::filesystem::path(output_dir) / "ids.csv").string();
+    return write_analysis(output_dir, merged, settings);
+  }
+
+  std::vector<std::string> summarise_studies(const std::string              &output_dir,
+                                             const std::vector<StoredStudy> &studies,
+                                             const AnalysisSettings         &settings)
+  {
+    if (studies.empty())
+      throw InputError("summarise: no study folder given");
+    // Group by box; everything else must agree.
+    std::map<std::string, std::vector<StoredStudy>> by_cells;
+    for (const auto &s : studies)
+      {
+        const auto differ = differences(studies.front(), s, true);
+        if (!differ.empty())
+          {
+            std::string message = "summarise: these folders describe different models; differing "
+                                  "parameters:";
+            for (const auto &x : differ)
+              message += "\n  " + x;
+            throw InputError(message);
+          }
+        by_cells[s.parameters.count("lattice/cells") ? s.parameters.at("lattice/cells") : ""]
+          .push_back(s);
+      }
+    for (const auto &[cells, group] : by_cells)
+      refuse_overlap(group);
+
+    if (by_cells.size() == 1)
+      return write_study_tables(output_dir, studies, settings);
+
+    // A box-size series: one merged study per size, then the 1/L extrapolation.
+    std::vector<std::string>   warnings;
+    std::vector<AnalysisInput> per_size;
+    for (const auto &[cells, group] : by_cells)
+      {
+        std::string folder = "box";
+        for (const char c : cells)
+          folder += (c == ',' ? 'x' : c);
+        folder.erase(std::remove(folder.begin(), folder.end(), ' '), folder.end());
+        const std::string dir = (std::filesystem::path(output_dir) / folder).string();
+        const auto        w   = write_study_tables(dir, group, settings);
+        warnings.insert(warnings.end(), w.begin(), w.end());
+        AnalysisInput input = group.front().input;
+        input.records.clear();
+        for (const auto &s : group)
+          input.records.insert(input.records.end(), s.input.records.begin(), s.input.records.end());
+        input.ids_table = (std::filesystem::path(dir) / "ids.csv").string();
+        per_size.push_back(std::move(input));
+      }
+    const auto w = write_summary(output_dir, per_size, settings);
+    warnings.insert(warnings.end(), w.begin(), w.end());
+    return warnings;
+  }
+} // namespace alloyspec

@@ -1,0 +1,496 @@
+#include <alloyspec/app/command_line.h>
+#include <alloyspec/core/errors.h>
+#include <alloyspec/app/count.h>
+#include <alloyspec/core/interrupt.h>
+#include <alloyspec/app/landscape_study.h>
+#include <alloyspec/core/progress.h>
+#include <alloyspec/app/study.h>
+#include <alloyspec/analysis/summary.h>
+#include <alloyspec/app/verify.h>
+
+#include <deal.II/base/exceptions.h>
+#include <deal.II/base/mpi.h>
+#include <deal.II/base/parameter_handler.h>
+
+#include <CLI/CLI.hpp>
+
+#include <chrono>
+#include <ctime>
+#include <filesystem>
+#include <fstream>
+#include <iostream>
+#include <sstream>
+
+namespace alloyspec
+{
+  const char *const default_scenario = R"(# Embedded demo scenario (invented, not data): a binary alloy in which 20 % of
+# the cells sit 1.5 energy units higher than the host (reduced units,
+# hbar^2/2m = 1, lengths in cells). A 6 x 6 x 6 box, 10 realisations.
+subsection lattice
+  set cells = 6, 6, 6
+  set cell size = 1
+end
+subsection potential
+  set law = bernoulli
+  set concentration = 0.2
+  set value A = 1.5
+  set value B = 0
+end
+subsection discretisation
+  set degree = 2
+  set elements per cell = 2
+end
+subsection spectrum
+  set boundary conditions = dirichlet, neumann
+  set eigenvalues = 40
+end
+subsection study
+  set realisations = 10
+  set seed = 1
+  set energies = 0:0.05:3
+end
+)";
+
+  namespace
+  {
+    /** The message part of a deal.II exception, without file and line. */
+    std::string exception_text(const dealii::ExceptionBase &e)
+    {
+      std::ostringstream out;
+      e.print_info(out);
+      std::string text = out.str();
+      while (!text.empty() && (text.back() == '\n' || text.back() == ' '))
+        text.pop_back();
+      const auto first = text.find_first_not_of(" \n");
+      return first == std::string::npos ? text : text.substr(first);
+    }
+
+    /**
+     * Study::parse_parameters() with deal.II's conversion errors reported as
+     * bad input: a value containing '{' skips deal.II's pattern check (the
+     * syntax of its parameter loops), so get_double() may be the first to see it.
+     */
+    void parse_study(Study &study, dealii::ParameterHandler &prm)
+    {
+      try
+        {
+          study.parse_parameters(prm);
+        }
+      catch (const dealii::ExceptionBase &e)
+        {
+          throw InputError("parameter file: " + exception_text(e) +
+                           " (see 'alloyspec parameters' for every entry and its allowed values)");
+        }
+    }
+
+    /** Applies "section/sub/entry=value". */
+    void apply_override(dealii::ParameterHandler &prm, const std::string &assignment)
+    {
+      const auto equals = assignment.find('=');
+      if (equals == std::string::npos)
+        throw InputError("option '--set': '" + assignment +
+                         "' is not of the form \"section/entry=value\"");
+      std::string path  = assignment.substr(0, equals);
+      std::string value = assignment.substr(equals + 1);
+      auto trim = [](std::string &s) {
+        s.erase(0, s.find_first_not_of(" \t"));
+        s.erase(s.find_last_not_of(" \t") + 1);
+      };
+      trim(path);
+      trim(value);
+      std::vector<std::string> parts;
+      std::stringstream        stream(path);
+      for (std::string part; std::getline(stream, part, '/');)
+        parts.push_back(part);
+      if (parts.size() < 2)
+        throw InputError("option '--set': '" + assignment +
+                         "' must name a section and an entry, as \"section/entry=value\"");
+      unsigned int entered = 0;
+      try
+        {
+          for (std::size_t i = 0; i + 1 < parts.size(); ++i, ++entered)
+            prm.enter_subsection(parts[i]);
+          prm.set(parts.back(), value);
+        }
+      catch (const dealii::ParameterHandler::ExcEntryUndeclared &)
+        {
+          for (; entered > 0; --entered)
+            prm.leave_subsection();
+          throw InputError("option '--set': there is no such entry '" + parts.back() +
+                           "' in section '" + path.substr(0, path.rfind('/')) +
+                           "' (see 'alloyspec parameters' for every entry and its allowed values)");
+        }
+      catch (const dealii::ExceptionBase &e)
+        {
+          for (; entered > 0; --entered)
+            prm.leave_subsection();
+          throw InputError("option '--set': parameter '" + path + "' = '" + value +
+                           "' is not accepted: " + exception_text(e) +
+                           " (see 'alloyspec parameters' for every entry and its allowed values)");
+        }
+      for (; entered > 0; --entered)
+        prm.leave_subsection();
+    }
+
+    void read_parameters(dealii::ParameterHandler &prm, const std::string &config)
+    {
+      try
+        {
+          if (config.empty())
+            prm.parse_input_from_string(default_scenario);
+          else
+            {
+              if (!std::filesystem::exists(config))
+                throw InputError("parameter file '" + config + "' does not exist");
+              prm.parse_input(config, "", false);
+              // A data file named in a parameter file is found next to it.
+              prm.enter_subsection("potential");
+              for (const char *entry : {"file", "density file"})
+                {
+                  const std::filesystem::path file = prm.get(entry);
+                  if (!file.empty() && file.is_relative())
+                    prm.set(entry, std::filesystem::absolute(
+                                     std::filesystem::path(config).parent_path() / file)
+                                     .string());
+                }
+              prm.leave_subsection();
+              prm.enter_subsection("lattice");
+              if (const std::filesystem::path mesh = prm.get("mesh file");
+                  !mesh.empty() && mesh.is_relative())
+                prm.set("mesh file",
+                        std::filesystem::absolute(std::filesystem::path(config).parent_path() / mesh)
+                          .lexically_normal()
+                          .string());
+              prm.leave_subsection();
+            }
+        }
+      catch (const dealii::ExceptionBase &e)
+        {
+          throw InputError("parameter file '" + (config.empty() ? std::string("<embedded demo>") : config) +
+                           "': " + exception_text(e) +
+                           " (see 'alloyspec parameters' for every entry and its allowed values)");
+        }
+    }
+
+    std::string to_short_prm(const dealii::ParameterHandler &prm)
+    {
+      std::ostringstream out;
+      prm.print_parameters(out, dealii::ParameterHandler::ShortPRM);
+      return out.str();
+    }
+
+    std::string to_json(const dealii::ParameterHandler &prm)
+    {
+      std::ostringstream out;
+      prm.print_parameters(out, dealii::ParameterHandler::JSON);
+      std::string text = out.str();
+      while (!text.empty() && (text.back() == '\n' || text.back() == ' '))
+        text.pop_back();
+      return text;
+    }
+  } // namespace
+
+  int run_command_line(int argc, char **argv)
+  {
+    const bool root = dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0;
+    CLI::App   app{"alloyspec: eigenvalues and integrated density of states of random "
+                 "Schrödinger operators -Δ + V on boxes of unit cells"};
+    app.require_subcommand(1);
+    app.set_version_flag("--version", std::string(ALLOYSPEC_VERSION));
+
+    std::string              config, output;
+    std::vector<std::string> overrides;
+    std::string              seed;
+    bool                     resume = false, no_progress = false, print_only = false;
+    auto *run = app.add_subcommand("run", "Run a study: realisations, eigenvalues, IDS bracket.");
+    run->add_option("config", config,
+                    "Parameter file (deal.II format). Without it the embedded demo scenario runs.");
+    run->add_option("-o,--output", output, "Folder for the results (must not hold an earlier study).")
+      ->default_val("alloyspec-output");
+    run->add_option("-s,--set", overrides,
+                    "Override one parameter: \"section/entry=value\" (repeatable).");
+    run->add_option("--seed", seed, "Override study/seed.");
+    run->add_flag("--resume", resume,
+                  "Continue an interrupted study in the same folder; stored realisations are kept.");
+    run->add_flag("--no-progress", no_progress, "Never print the progress line.");
+    unsigned int ranks_per_realisation = 1;
+    run->add_option("--ranks-per-realisation", ranks_per_realisation,
+                    "MPI ranks that solve each realisation together (a divisor of the number of "
+                    "ranks; default 1: each rank solves its own realisations). The sparse "
+                    "factorisation and the Krylov iteration are then distributed; the mesh and "
+                    "assembly are repeated on each rank of a team.");
+    run->add_flag("--print-parameters", print_only,
+                  "Print the effective parameters and stop without computing.");
+
+    std::string count_config, count_output;
+    std::vector<std::string> count_overrides;
+    bool                     count_no_progress = false;
+    auto *count = app.add_subcommand(
+      "count", "IDS from inertia counts only (no eigenvectors; for large boxes): N(E) on the "
+               "energy grid per realisation and boundary condition; writes counts.csv, ids.csv, "
+               "run.json.");
+    count->add_option("config", count_config,
+                      "Parameter file (deal.II format). Without it the embedded demo scenario is used.");
+    count->add_option("-o,--output", count_output, "Folder for the results (must be new or empty).")
+      ->required();
+    count->add_option("-s,--set", count_overrides,
+                      "Override one parameter: \"section/entry=value\" (repeatable).");
+    count->add_flag("--no-progress", count_no_progress, "Never print the progress line.");
+
+    std::string              landscape_config, landscape_output;
+    std::vector<std::string> landscape_overrides;
+    bool                     landscape_no_progress = false;
+    auto *landscape = app.add_subcommand(
+      "landscape", "Landscape estimate: one linear solve (H + shift) u = 1 per realisation and "
+                   "boundary condition instead of an eigen-solve; IDS estimate N_W(E) from "
+                   "W = 1/u and eigenvalue estimates from the minima of W, compared with the "
+                   "eigenvalues stored in the folder by 'alloyspec run' when there are any. "
+                   "Writes landscape.csv, landscape_eigenvalues.csv, landscape.json.");
+    landscape->add_option("config", landscape_config,
+                          "Parameter file (deal.II format). Without it the embedded demo scenario "
+                          "is used.");
+    landscape->add_option("-o,--output", landscape_output,
+                          "Folder for the results; may hold the same study run by 'alloyspec run'.")
+      ->required();
+    landscape->add_option("-s,--set", landscape_overrides,
+                          "Override one parameter: \"section/entry=value\" (repeatable).");
+    landscape->add_flag("--no-progress", landscape_no_progress, "Never print the progress line.");
+
+    std::string format = "prm";
+    auto *parameters = app.add_subcommand(
+      "parameters", "Print every parameter with its description and default value.");
+    parameters->add_option("--format", format, "prm or json")->check(CLI::IsMember({"prm", "json"}));
+    auto *demo = app.add_subcommand("demo", "Print the embedded demo scenario's parameter file.");
+    bool  thorough = false;
+    auto *verify   = app.add_subcommand(
+      "verify", "Check the solver against closed forms, exact 1D spectra and a dense reference "
+                "solver; prints a table, exit status 0 only if every check passes.");
+    verify->add_flag("--thorough", thorough, "Larger problems and more modes (slower).");
+
+    std::vector<std::string> summary_inputs;
+    std::string              summary_output;
+    std::vector<std::string> summary_overrides;
+    auto *summarise = app.add_subcommand(
+      "summarise", "Recompute tables, figures and report from stored results, without solving; "
+                   "merge folders of one model, or extrapolate a series of box sizes.");
+    summarise->add_option("folders", summary_inputs, "Study folders written by 'alloyspec run'.")
+      ->required();
+    summarise->add_option("-o,--output", summary_output,
+                          "Folder for the tables (default: the study folder itself when one is "
+                          "given; required for several).");
+    summarise->add_option("-s,--set", summary_overrides,
+                          "Override an analysis parameter, e.g. \"analysis/lorentzian width=0.05\", "
+                          "or study/energies (repeatable).");
+
+    try
+      {
+        app.parse(argc, argv);
+      }
+    catch (const CLI::ParseError &e)
+      {
+        const int code = app.exit(e);
+        return code == 0 ? 0 : 2;
+      }
+
+    try
+      {
+        dealii::ParameterHandler prm;
+        Study::declare_parameters(prm);
+        if (parameters->parsed())
+          {
+            if (root)
+              prm.print_parameters(std::cout, format == "json" ? dealii::ParameterHandler::JSON
+                                                               : dealii::ParameterHandler::PRM);
+            return 0;
+          }
+        if (verify->parsed())
+          {
+            const auto checks = run_verification(thorough, std::cerr);
+            return root ? print_verification(checks, std::cout) : 0;
+          }
+        if (demo->parsed())
+          {
+            if (root)
+              std::cout << default_scenario;
+            return 0;
+          }
+        if (summarise->parsed())
+          {
+            if (summary_output.empty())
+              {
+                if (summary_inputs.size() != 1)
+                  throw InputError("option '--output' is required when several folders are "
+                                   "summarised");
+                summary_output = summary_inputs.front();
+              }
+            for (const auto &assignment : summary_overrides)
+              {
+                const std::string key = assignment.substr(0, assignment.find('='));
+                if (key.rfind("analysis/", 0) != 0 && key != "study/energies")
+                  throw InputError("option '--set' of summarise: '" + key +
+                                   "' would change the model; only analysis/... entries and "
+                                   "study/energies may be changed without solving again");
+              }
+            std::vector<StoredStudy> stored;
+            AnalysisSettings         settings;
+            for (const auto &folder : summary_inputs)
+              {
+                const std::string file = (std::filesystem::path(folder) / "parameters.prm").string();
+                if (!std::filesystem::exists(file))
+                  throw InputError("summarise: '" + folder +
+                                   "' is not a study folder (no parameters.prm)");
+                dealii::ParameterHandler stored_prm;
+                Study::declare_parameters(stored_prm);
+                read_parameters(stored_prm, file);
+                for (const auto &assignment : summary_overrides)
+                  apply_override(stored_prm, assignment);
+                Study s;
+                parse_study(s, stored_prm);
+                stored.push_back(s.collect(folder, to_short_prm(stored_prm)));
+                if (stored.size() == 1)
+                  settings = s.analysis_settings();
+              }
+            if (root)
+              {
+                for (const auto &warning : summarise_studies(summary_output, stored, settings))
+                  std::cerr << "alloyspec: warning: " << warning << '\n';
+                std::cout << "Tables, figures and report written to " << summary_output << "/\n"
+                          << "These are model estimates for the stated model and box, not "
+                             "measurements.\n";
+              }
+            return 0;
+          }
+
+        if (count->parsed())
+          {
+            read_parameters(prm, count_config);
+            for (const auto &assignment : count_overrides)
+              apply_override(prm, assignment);
+            {
+              Study check; // the same validation as `run`
+              parse_study(check, prm);
+            }
+            CountOptions count_options;
+            count_options.output_directory = count_output;
+            count_options.progress         = !count_no_progress && Progress::stderr_is_terminal();
+            count_options.parameters_json  = to_json(prm);
+            count_options.parameters_prm   = to_short_prm(prm);
+            run_inertia_count(prm, count_options);
+            if (root)
+              std::cout << "Counts in " << count_output
+                        << "/: counts.csv, ids.csv, run.json, parameters.prm\n"
+                        << "These are model estimates for the stated model and box, not "
+                           "measurements.\n";
+            return 0;
+          }
+
+        if (landscape->parsed())
+          {
+            read_parameters(prm, landscape_config);
+            for (const auto &assignment : landscape_overrides)
+              apply_override(prm, assignment);
+            Study study;
+            parse_study(study, prm);
+            LandscapeSettings settings;
+            settings.parse_parameters(prm);
+            LandscapeStudy job(study, settings);
+            const auto lines =
+              job.run(landscape_output, !landscape_no_progress && Progress::stderr_is_terminal());
+            if (root)
+              {
+                for (const auto &line : lines)
+                  std::cout << line << '\n';
+                std::cout << "Results in " << landscape_output
+                          << "/: landscape.csv, landscape_eigenvalues.csv, landscape.json\n"
+                          << "These are model estimates for the stated model and box, not "
+                             "measurements.\n";
+              }
+            return 0;
+          }
+
+        read_parameters(prm, config);
+        for (const auto &assignment : overrides)
+          apply_override(prm, assignment);
+        if (!seed.empty())
+          apply_override(prm, "study/seed=" + seed);
+        // Stored parameters name data files absolutely, so that a study
+        // folder can be summarised or resumed from anywhere.
+        prm.enter_subsection("potential");
+        for (const char *entry : {"file", "density file"})
+          if (const std::filesystem::path file = prm.get(entry); !file.empty())
+            prm.set(entry, std::filesystem::absolute(file).string());
+        prm.leave_subsection();
+        prm.enter_subsection("lattice");
+        if (const std::filesystem::path mesh = prm.get("mesh file"); !mesh.empty())
+          prm.set("mesh file", std::filesystem::absolute(mesh).string());
+        prm.leave_subsection();
+
+        Study study;
+        parse_study(study, prm);
+
+        if (root)
+          {
+            prm.enter_subsection("study");
+            const std::string effective_seed = prm.get("seed");
+            prm.leave_subsection();
+            std::cout << "alloyspec " << ALLOYSPEC_VERSION << ": "
+                      << (config.empty() ? std::string("embedded demo scenario (invented)") : config)
+                      << ", seed " << effective_seed << ", "
+                      << dealii::Utilities::MPI::n_mpi_processes(MPI_COMM_WORLD)
+                      << " MPI rank(s)\nEffective parameters:\n";
+            prm.print_parameters(std::cout, dealii::ParameterHandler::ShortPRM);
+            std::cout.flush();
+          }
+        if (print_only)
+          return 0;
+
+        RunOptions options;
+        options.output_directory = output;
+        options.resume           = resume;
+        options.ranks_per_realisation = ranks_per_realisation;
+        options.progress         = !no_progress && Progress::stderr_is_terminal();
+        options.parameters_json  = to_json(prm);
+        options.parameters_prm   = to_short_prm(prm);
+        study.run(options);
+        if (root)
+          {
+            std::cout << "Timings (s):";
+            for (const auto &[name, seconds] : study.timings())
+              std::cout << ' ' << name << ' ' << seconds;
+            std::cout << "\nResults in " << output
+                      << "/: eigenvalues.csv, realisations.csv, ids.csv, dos.csv, tails.json, "
+                         "localisation.csv, figures/, report.html, run.json, parameters.prm\n"
+                      << "These are model estimates for the stated model and box, not measurements.\n";
+          }
+        return 0;
+      }
+    catch (const InputError &e)
+      {
+        if (root)
+          std::cerr << "alloyspec: error: " << e.what() << '\n';
+        return 2;
+      }
+    catch (const Interrupted &e)
+      {
+        // 128 + signal number, as a shell reports a process ended by it.
+        if (root)
+          std::cerr << "alloyspec: " << e.what()
+                    << ". To continue, run the same command again with --resume added, e.g.\n  "
+                    << "alloyspec run " << (config.empty() ? std::string() : config + " ")
+                    << "--output " << output << " --resume [same --set options]\n";
+        return 128 + e.signal();
+      }
+    catch (const dealii::ExceptionBase &e)
+      {
+        if (root)
+          std::cerr << "alloyspec: computation failed: " << exception_text(e) << '\n';
+        return 1;
+      }
+    catch (const std::exception &e)
+      {
+        if (root)
+          std::cerr << "alloyspec: computation failed: " << e.what() << '\n';
+        return 1;
+      }
+  }
+} // namespace alloyspec

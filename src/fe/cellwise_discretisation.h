@@ -1,0 +1,430 @@
+/**
+ * @file cellwise_discretisation.h  (private to src/) The finite-element
+ * machinery shared by the box and the mesh discretisations: DoFs, constraints,
+ * the element → lattice-cell map, assembly of K = A + Σ q_n M_n, and the
+ * evaluations (IPR, quadrature values, VTU output). A concrete class supplies
+ * the mesh, the constraints and the element matrices.
+ */
+#pragma once
+
+#include <alloyspec/fe/backend.h>
+#include <alloyspec/fe/discretisation.h>
+#include <alloyspec/model/lattice.h>
+#include <alloyspec/fe/spectral_problem.h>
+
+#include <deal.II/base/quadrature_lib.h>
+#include <deal.II/dofs/dof_handler.h>
+#include <deal.II/dofs/dof_tools.h>
+#include <deal.II/fe/fe_q.h>
+#include <deal.II/fe/fe_values.h>
+#include <deal.II/grid/tria.h>
+#include <deal.II/lac/affine_constraints.h>
+#include <deal.II/lac/dynamic_sparsity_pattern.h>
+#include <deal.II/lac/full_matrix.h>
+#include <deal.II/lac/sparsity_pattern.h>
+#include <deal.II/lac/vector.h>
+#include <deal.II/numerics/data_out.h>
+
+#include <petscmat.h>
+
+#include <algorithm>
+#include <array>
+#include <cmath>
+#include <fstream>
+#include <limits>
+
+namespace alloyspec::internal
+{
+  /**
+   * Q_p elements on a mesh whose every element takes the value of one lattice
+   * cell (the cell containing its centre).
+   */
+  template <int dim>
+  class CellwiseDiscretisation : public Discretisation
+  {
+  public:
+    using CellIterator = typename dealii::DoFHandler<dim>::active_cell_iterator;
+
+    CellwiseDiscretisation(const Lattice &lattice, const DiscretisationSettings &settings)
+      : lattice_(lattice)
+      , settings_(settings)
+      , fe_(settings.degree)
+      , dof_handler_(triangulation_)
+    {}
+
+    void setup_system() override
+    {
+      dof_handler_.distribute_dofs(fe_);
+      constraints_.clear();
+      dealii::DoFTools::make_hanging_node_constraints(dof_handler_, constraints_);
+      make_constraints();
+      constraints_.close();
+
+      dealii::DynamicSparsityPattern dsp(dof_handler_.n_dofs());
+      // Keep the constrained rows: their diagonal carries the pushed-out eigenvalue.
+      dealii::DoFTools::make_sparsity_pattern(dof_handler_, dsp, constraints_, true);
+      sparsity_.copy_from(dsp);
+
+      // Element → lattice cell, and the DoF indices of every element, cached
+      // because a realisation only needs these to add its potential.
+      const unsigned int dofs_per_cell = fe_.n_dofs_per_cell();
+      element_cell_.clear();
+      element_dofs_.clear();
+      element_volume_.clear();
+      element_cell_.reserve(triangulation_.n_active_cells());
+      element_dofs_.reserve(triangulation_.n_active_cells() * dofs_per_cell);
+      std::vector<dealii::types::global_dof_index> dofs(dofs_per_cell);
+      for (const auto &cell : dof_handler_.active_cell_iterators())
+        {
+          element_cell_.push_back(lattice_cell_of(cell->center()));
+          element_volume_.push_back(cell->measure());
+          cell->get_dof_indices(dofs);
+          element_dofs_.insert(element_dofs_.end(), dofs.begin(), dofs.end());
+        }
+    }
+
+    void assemble_fixed() override
+    {
+      compute_element_matrices();
+      const unsigned int dofs_per_cell = fe_.n_dofs_per_cell();
+      stiffness_.reinit(sparsity_);
+      mass_.reinit(sparsity_);
+      load_.reinit(dof_handler_.n_dofs());
+      dealii::Vector<double>                       local_load(dofs_per_cell);
+      dealii::Vector<double>                       ones(dofs_per_cell);
+      ones = 1.0;
+      std::vector<dealii::types::global_dof_index> dofs(dofs_per_cell);
+      for (std::size_t e = 0; e < element_cell_.size(); ++e)
+        {
+          dofs.assign(element_dofs_.begin() + e * dofs_per_cell,
+                      element_dofs_.begin() + (e + 1) * dofs_per_cell);
+          constraints_.distribute_local_to_global(element_stiffness(e), dofs, stiffness_);
+          constraints_.distribute_local_to_global(element_mass(e), dofs, mass_);
+          // Lagrange shape functions sum to 1, so ∫φ_i = Σ_j (M_e)_ij.
+          element_mass(e).vmult(local_load, ones);
+          constraints_.distribute_local_to_global(local_load, dofs, load_);
+        }
+      stiffness_.compress(dealii::VectorOperation::add);
+      mass_.compress(dealii::VectorOperation::add);
+      for (dealii::types::global_dof_index i = 0; i < dof_handler_.n_dofs(); ++i)
+        if (constraints_.is_constrained(i))
+          mass_.set(i, i, 1.0);
+      mass_.compress(dealii::VectorOperation::insert);
+    }
+
+    std::unique_ptr<SpectralProblem> make_problem() const override
+    {
+      auto problem = std::make_unique<SpectralProblem>();
+      problem->K.reinit(sparsity_);
+      problem->M.reinit(sparsity_);
+      MatCopy(mass_, problem->M, SAME_NONZERO_PATTERN);
+      problem->constrained.assign(dof_handler_.n_dofs(), false);
+      for (dealii::types::global_dof_index i = 0; i < dof_handler_.n_dofs(); ++i)
+        problem->constrained[i] = constraints_.is_constrained(i);
+      return problem;
+    }
+
+    void assemble_potential(const std::vector<double> &cell_values,
+                            SpectralProblem &          problem) const override
+    {
+      AssertThrow(cell_values.size() == lattice_.n_cells(),
+                  dealii::ExcMessage("cell value count does not match the lattice"));
+      // Only cells that carry elements bound the operator (a mesh may leave cells empty).
+      double q_min = std::numeric_limits<double>::infinity(), q_max = -q_min;
+      for (const std::size_t c : element_cell_)
+        q_min = std::min(q_min, cell_values[c]), q_max = std::max(q_max, cell_values[c]);
+      problem.lower_bound         = q_min;
+      problem.spurious_eigenvalue = spurious_eigenvalue(q_max);
+
+      MatCopy(stiffness_, problem.K, SAME_NONZERO_PATTERN);
+      const unsigned int         dofs_per_cell = fe_.n_dofs_per_cell();
+      dealii::FullMatrix<double> local(dofs_per_cell, dofs_per_cell);
+      std::vector<dealii::types::global_dof_index> dofs(dofs_per_cell);
+      for (std::size_t e = 0; e < element_cell_.size(); ++e)
+        {
+          const double q = cell_values[element_cell_[e]];
+          if (q == 0.0)
+            continue;
+          local.equ(q, element_mass(e));
+          dofs.assign(element_dofs_.begin() + e * dofs_per_cell,
+                      element_dofs_.begin() + (e + 1) * dofs_per_cell);
+          // The row/column form adds nothing to constrained diagonals.
+          constraints_.distribute_local_to_global(local, dofs, dofs, problem.K);
+        }
+      problem.K.compress(dealii::VectorOperation::add);
+      for (dealii::types::global_dof_index i = 0; i < dof_handler_.n_dofs(); ++i)
+        if (constraints_.is_constrained(i))
+          problem.K.set(i, i, problem.spurious_eigenvalue);
+      problem.K.compress(dealii::VectorOperation::insert);
+    }
+
+    std::size_t n_dofs() const override { return dof_handler_.n_dofs(); }
+    std::size_t n_constrained_dofs() const override { return constraints_.n_constraints(); }
+    std::size_t n_elements() const override { return triangulation_.n_active_cells(); }
+
+    double spurious_eigenvalue(double potential_max) const override
+    {
+      // tr(M_e^{-1} K_e) ≥ λ_max of the element pencil ≥ λ_max of the
+      // assembled pencil (element-by-element bound), so 2× it clears the spectrum.
+      return 2.0 * element_bound_ + std::abs(potential_max) + 1.0;
+    }
+
+    double volume() const override
+    {
+      double v = 0;
+      for (const double x : element_volume_)
+        v += x;
+      return v;
+    }
+
+    std::vector<double> cell_volumes() const override
+    {
+      std::vector<double> v(lattice_.n_cells(), 0.0);
+      for (std::size_t e = 0; e < element_cell_.size(); ++e)
+        v[element_cell_[e]] += element_volume_[e];
+      return v;
+    }
+
+    std::vector<double> load_vector() const override
+    {
+      return std::vector<double>(load_.begin(), load_.end());
+    }
+
+    std::vector<double> complete(const std::vector<double> &u) const override
+    {
+      const dealii::Vector<double> v = full_vector(u);
+      return std::vector<double>(v.begin(), v.end());
+    }
+
+    void quadrature_values(const std::vector<double> &u, std::vector<double> &values,
+                           std::vector<double> &weights) const override
+    {
+      const dealii::Vector<double> v = full_vector(u);
+      const dealii::QGauss<dim>    quadrature(fe_.degree + 1);
+      dealii::FEValues<dim> fe_values(fe_, quadrature, dealii::update_values | dealii::update_JxW_values);
+      std::vector<double> local(quadrature.size());
+      values.clear();
+      weights.clear();
+      values.reserve(quadrature.size() * triangulation_.n_active_cells());
+      weights.reserve(values.capacity());
+      for (const auto &cell : dof_handler_.active_cell_iterators())
+        {
+          fe_values.reinit(cell);
+          fe_values.get_function_values(v, local);
+          for (unsigned int q = 0; q < quadrature.size(); ++q)
+            {
+              values.push_back(local[q]);
+              weights.push_back(fe_values.JxW(q));
+            }
+        }
+    }
+
+    double inverse_participation_ratio(const std::vector<double> &u) const override
+    {
+      const dealii::Vector<double> v = full_vector(u);
+      const dealii::QGauss<dim>    quadrature(fe_.degree + 2);
+      dealii::FEValues<dim> fe_values(fe_, quadrature, dealii::update_values | dealii::update_JxW_values);
+      std::vector<double> values(quadrature.size());
+      double              l2 = 0, l4 = 0;
+      for (const auto &cell : dof_handler_.active_cell_iterators())
+        {
+          fe_values.reinit(cell);
+          fe_values.get_function_values(v, values);
+          for (unsigned int q = 0; q < quadrature.size(); ++q)
+            {
+              const double s = values[q] * values[q];
+              l2 += s * fe_values.JxW(q);
+              l4 += s * s * fe_values.JxW(q);
+            }
+        }
+      return l4 / (l2 * l2);
+    }
+
+    double cell_weight(const std::vector<double> &u, std::size_t lattice_cell) const override
+    {
+      const dealii::Vector<double> v = full_vector(u);
+      const dealii::QGauss<dim>    quadrature(fe_.degree + 1);
+      dealii::FEValues<dim> fe_values(fe_, quadrature, dealii::update_values | dealii::update_JxW_values);
+      std::vector<double> values(quadrature.size());
+      double              inside = 0, total = 0;
+      std::size_t         e = 0;
+      for (const auto &cell : dof_handler_.active_cell_iterators())
+        {
+          fe_values.reinit(cell);
+          fe_values.get_function_values(v, values);
+          double local = 0;
+          for (unsigned int q = 0; q < quadrature.size(); ++q)
+            local += values[q] * values[q] * fe_values.JxW(q);
+          total += local;
+          if (element_cell_[e++] == lattice_cell)
+            inside += local;
+        }
+      return inside / total;
+    }
+
+    void localisation_measures(const std::vector<std::vector<double>> &vectors,
+                               const std::size_t lattice_cell, std::vector<double> &ipr,
+                               std::vector<double> &weight) const override
+    {
+      const std::size_t k = vectors.size();
+      ipr.assign(k, 0.0);
+      weight.assign(k, 0.0);
+      if (k == 0 || element_cell_.empty())
+        return;
+      std::vector<dealii::Vector<double>> full;
+      full.reserve(k);
+      for (const auto &u : vectors)
+        full.push_back(full_vector(u));
+      // p+2 points per direction: exact for |u|⁴ in 1D and for |u|² always,
+      // the rules of inverse_participation_ratio() and cell_weight().
+      const dealii::QGauss<dim> quadrature(fe_.degree + 2);
+      dealii::FEValues<dim>     fe_values(fe_, quadrature,
+                                      dealii::update_values | dealii::update_JxW_values);
+      // Values of FE_Q shape functions at the quadrature points are those of
+      // the reference element on every element; only the weights change.
+      fe_values.reinit(dof_handler_.begin_active());
+      const unsigned int  n_q = quadrature.size(), dofs_per_cell = fe_.n_dofs_per_cell();
+      std::vector<double> shape(dofs_per_cell * n_q), jxw(n_q);
+      for (unsigned int q = 0; q < n_q; ++q)
+        for (unsigned int i = 0; i < dofs_per_cell; ++i)
+          shape[i * n_q + q] = fe_values.shape_value(i, q);
+      std::vector<double> l2(k, 0.0), l4(k, 0.0), inside(k, 0.0), values(n_q);
+      std::size_t         e = 0;
+      for (const auto &cell : dof_handler_.active_cell_iterators())
+        {
+          fe_values.reinit(cell);
+          for (unsigned int q = 0; q < n_q; ++q)
+            jxw[q] = fe_values.JxW(q);
+          const auto  *dofs  = element_dofs_.data() + e * dofs_per_cell;
+          for (std::size_t j = 0; j < k; ++j)
+            {
+              std::fill(values.begin(), values.end(), 0.0);
+              for (unsigned int i = 0; i < dofs_per_cell; ++i)
+                {
+                  const double  c   = full[j][dofs[i]];
+                  const double *row = shape.data() + i * n_q;
+                  for (unsigned int q = 0; q < n_q; ++q)
+                    values[q] += c * row[q];
+                }
+              double local2 = 0, local4 = 0;
+              for (unsigned int q = 0; q < n_q; ++q)
+                {
+                  const double s = values[q] * values[q];
+                  local2 += s * jxw[q];
+                  local4 += s * s * jxw[q];
+                }
+              l2[j] += local2;
+              l4[j] += local4;
+              if (element_cell_[e] == lattice_cell)
+                inside[j] += local2;
+            }
+          ++e;
+        }
+      for (std::size_t j = 0; j < k; ++j)
+        {
+          ipr[j]    = l4[j] / (l2[j] * l2[j]);
+          weight[j] = inside[j] / l2[j];
+        }
+    }
+
+    void write_vtu(const std::string &path, const std::vector<double> &cell_values,
+                   const std::vector<std::string> &names,
+                   const std::vector<std::vector<double>> &fields) const override
+    {
+      dealii::DataOut<dim> data_out;
+      data_out.attach_dof_handler(dof_handler_);
+      std::vector<dealii::Vector<double>> vectors;
+      vectors.reserve(fields.size());
+      for (const auto &f : fields)
+        vectors.push_back(full_vector(f));
+      for (std::size_t i = 0; i < vectors.size(); ++i)
+        data_out.add_data_vector(vectors[i], names[i]);
+      dealii::Vector<double> potential(triangulation_.n_active_cells());
+      for (std::size_t e = 0; e < element_cell_.size(); ++e)
+        potential[e] = cell_values[element_cell_[e]];
+      data_out.add_data_vector(potential, "potential", dealii::DataOut<dim>::type_cell_data);
+      data_out.build_patches(fe_.degree);
+      std::ofstream out(path);
+      AssertThrow(out, dealii::ExcMessage("cannot write " + path));
+      data_out.write_vtu(out);
+    }
+
+  protected:
+    /** Adds the boundary conditions to constraints_ (hanging nodes are done). */
+    virtual void make_constraints() = 0;
+    /** Fills the element matrices and element_bound_ (called by assemble_fixed()). */
+    virtual void compute_element_matrices() = 0;
+    /** @f$(M_e)_{ij} = \int_e \varphi_i\varphi_j@f$ of element e (active-cell order). */
+    virtual const dealii::FullMatrix<double> &element_mass(std::size_t e) const = 0;
+    /** @f$(A_e)_{ij} = \int_e \nabla\varphi_i\cdot\nabla\varphi_j@f$ of element e. */
+    virtual const dealii::FullMatrix<double> &element_stiffness(std::size_t e) const = 0;
+
+    /** Lattice cell containing @p p (clamped into the box, for points on its far faces). */
+    std::size_t lattice_cell_of(const dealii::Point<dim> &p) const
+    {
+      std::array<unsigned int, 3> c{0, 0, 0};
+      for (unsigned int d = 0; d < dim; ++d)
+        {
+          const double x = std::floor(p[d] / lattice_.cell_size());
+          c[d] = static_cast<unsigned int>(
+            std::clamp(x, 0.0, static_cast<double>(lattice_.cells()[d] - 1)));
+        }
+      return lattice_.cell_index(c);
+    }
+
+    /** Element mass and stiffness matrices of @p cell by Gauss quadrature with p+1 points. */
+    void local_matrices(const CellIterator &cell, dealii::FullMatrix<double> &mass,
+                        dealii::FullMatrix<double> &stiffness) const
+    {
+      const unsigned int        n = fe_.n_dofs_per_cell();
+      const dealii::QGauss<dim> quadrature(fe_.degree + 1);
+      dealii::FEValues<dim>     fe_values(fe_, quadrature,
+                                      dealii::update_values | dealii::update_gradients |
+                                        dealii::update_JxW_values);
+      fe_values.reinit(cell);
+      mass.reinit(n, n);
+      stiffness.reinit(n, n);
+      for (unsigned int q = 0; q < quadrature.size(); ++q)
+        for (unsigned int i = 0; i < n; ++i)
+          for (unsigned int j = 0; j < n; ++j)
+            {
+              mass(i, j) += fe_values.shape_value(i, q) * fe_values.shape_value(j, q) * fe_values.JxW(q);
+              stiffness(i, j) +=
+                fe_values.shape_grad(i, q) * fe_values.shape_grad(j, q) * fe_values.JxW(q);
+            }
+    }
+
+    /** @f$\mathrm{tr}(M_e^{-1}A_e)@f$, an upper bound of the element pencil's eigenvalues. */
+    static double pencil_bound(const dealii::FullMatrix<double> &mass,
+                               const dealii::FullMatrix<double> &stiffness)
+    {
+      dealii::FullMatrix<double> inverse(mass.m(), mass.n()), product(mass.m(), mass.n());
+      inverse.invert(mass);
+      inverse.mmult(product, stiffness);
+      return product.trace();
+    }
+
+    dealii::Vector<double> full_vector(const std::vector<double> &u) const
+    {
+      dealii::Vector<double> v(u.begin(), u.end());
+      constraints_.distribute(v);
+      return v;
+    }
+
+    const Lattice                lattice_;
+    const DiscretisationSettings settings_;
+
+    dealii::Triangulation<dim>        triangulation_;
+    dealii::FE_Q<dim>                 fe_;
+    dealii::DoFHandler<dim>           dof_handler_;
+    dealii::AffineConstraints<double> constraints_;
+    dealii::SparsityPattern           sparsity_;
+
+    std::vector<std::size_t>                     element_cell_;
+    std::vector<double>                          element_volume_;
+    std::vector<dealii::types::global_dof_index> element_dofs_;
+    double                                       element_bound_ = 0;
+    backend::SparseMatrix                        stiffness_, mass_;
+    dealii::Vector<double>                       load_;
+  };
+} // namespace alloyspec::internal
