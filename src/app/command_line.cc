@@ -5,6 +5,7 @@
 #include <alloyspec/app/landscape_study.h>
 #include <alloyspec/core/progress.h>
 #include <alloyspec/app/study.h>
+#include <alloyspec/app/study_model.h>
 #include <alloyspec/analysis/summary.h>
 #include <alloyspec/app/verify.h>
 
@@ -66,21 +67,40 @@ end
     }
 
     /**
-     * Study::parse_parameters() with deal.II's conversion errors reported as
-     * bad input: a value containing '{' skips deal.II's pattern check (the
-     * syntax of its parameter loops), so get_double() may be the first to see it.
+     * @p parsed.parse_parameters() (a Study, StudyModel or settings) with
+     * deal.II's conversion errors reported as bad input: a value containing '{'
+     * skips deal.II's pattern check (the syntax of its parameter loops), so
+     * get_double() may be the first to see it.
      */
-    void parse_study(Study &study, dealii::ParameterHandler &prm)
+    template <class Parsed>
+    void parse_checked(Parsed &parsed, dealii::ParameterHandler &prm)
     {
       try
         {
-          study.parse_parameters(prm);
+          parsed.parse_parameters(prm);
         }
       catch (const dealii::ExceptionBase &e)
         {
           throw InputError("parameter file: " + exception_text(e) +
                            " (see 'alloyspec parameters' for every entry and its allowed values)");
         }
+    }
+
+    /**
+     * Names data files (cell values, tabulated density, mesh) absolutely, so
+     * that a stored study folder can be summarised or resumed from anywhere.
+     */
+    void make_data_paths_absolute(dealii::ParameterHandler &prm)
+    {
+      prm.enter_subsection("potential");
+      for (const char *entry : {"file", "density file"})
+        if (const std::filesystem::path file = prm.get(entry); !file.empty())
+          prm.set(entry, std::filesystem::absolute(file).string());
+      prm.leave_subsection();
+      prm.enter_subsection("lattice");
+      if (const std::filesystem::path mesh = prm.get("mesh file"); !mesh.empty())
+        prm.set("mesh file", std::filesystem::absolute(mesh).string());
+      prm.leave_subsection();
     }
 
     /** Applies "section/sub/entry=value". */
@@ -344,11 +364,11 @@ end
                 read_parameters(stored_prm, file);
                 for (const auto &assignment : summary_overrides)
                   apply_override(stored_prm, assignment);
-                Study s;
-                parse_study(s, stored_prm);
-                stored.push_back(s.collect(folder, to_short_prm(stored_prm)));
+                StudyModel model;
+                parse_checked(model, stored_prm);
+                stored.push_back(model.describe_stored(folder, to_short_prm(stored_prm)));
                 if (stored.size() == 1)
-                  settings = s.analysis_settings();
+                  parse_checked(settings, stored_prm);
               }
             if (root)
               {
@@ -366,16 +386,15 @@ end
             read_parameters(prm, count_config);
             for (const auto &assignment : count_overrides)
               apply_override(prm, assignment);
-            {
-              Study check; // the same validation as `run`
-              parse_study(check, prm);
-            }
+            make_data_paths_absolute(prm);
+            StudyModel model;
+            parse_checked(model, prm);
             CountOptions count_options;
             count_options.output_directory = count_output;
             count_options.progress         = !count_no_progress && Progress::stderr_is_terminal();
             count_options.parameters_json  = to_json(prm);
             count_options.parameters_prm   = to_short_prm(prm);
-            run_inertia_count(prm, count_options);
+            run_inertia_count(model, count_options);
             if (root)
               std::cout << "Counts in " << count_output
                         << "/: counts.csv, ids.csv, run.json, parameters.prm\n"
@@ -389,11 +408,12 @@ end
             read_parameters(prm, landscape_config);
             for (const auto &assignment : landscape_overrides)
               apply_override(prm, assignment);
-            Study study;
-            parse_study(study, prm);
+            make_data_paths_absolute(prm);
+            StudyModel model;
+            parse_checked(model, prm);
             LandscapeSettings settings;
-            settings.parse_parameters(prm);
-            LandscapeStudy job(study, settings);
+            parse_checked(settings, prm);
+            LandscapeStudy job(model, settings);
             const auto lines =
               job.run(landscape_output, !landscape_no_progress && Progress::stderr_is_terminal());
             if (root)
@@ -413,20 +433,10 @@ end
           apply_override(prm, assignment);
         if (!seed.empty())
           apply_override(prm, "study/seed=" + seed);
-        // Stored parameters name data files absolutely, so that a study
-        // folder can be summarised or resumed from anywhere.
-        prm.enter_subsection("potential");
-        for (const char *entry : {"file", "density file"})
-          if (const std::filesystem::path file = prm.get(entry); !file.empty())
-            prm.set(entry, std::filesystem::absolute(file).string());
-        prm.leave_subsection();
-        prm.enter_subsection("lattice");
-        if (const std::filesystem::path mesh = prm.get("mesh file"); !mesh.empty())
-          prm.set("mesh file", std::filesystem::absolute(mesh).string());
-        prm.leave_subsection();
+        make_data_paths_absolute(prm);
 
         Study study;
-        parse_study(study, prm);
+        parse_checked(study, prm);
 
         if (root)
           {

@@ -10,11 +10,13 @@
 #include <alloyspec/io/results_store.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
 #include <alloyspec/analysis/summary.h>
-#include <alloyspec/app/study.h>
+#include <alloyspec/analysis/analysis.h>
+#include <alloyspec/app/study_model.h>
+#include <alloyspec/core/format.h>
+#include <alloyspec/io/manifest.h>
 #include <alloyspec/solver/inertia_counter.h>
 
 #include <deal.II/base/mpi.h>
-#include <deal.II/base/parameter_handler.h>
 
 #include <algorithm>
 #include <chrono>
@@ -31,14 +33,6 @@ namespace alloyspec
   namespace
   {
 
-    std::string number(double x)
-    {
-      if (!std::isfinite(x))
-        return "null";
-      char buffer[40];
-      std::snprintf(buffer, sizeof buffer, "%.17g", x);
-      return buffer;
-    }
 
     double seconds_since(std::chrono::steady_clock::time_point start)
     {
@@ -46,21 +40,16 @@ namespace alloyspec
     }
   } // namespace
 
-  void run_inertia_count(dealii::ParameterHandler &prm, const CountOptions &options)
+  void run_inertia_count(const StudyModel &model, const CountOptions &options)
   {
     const MPI_Comm     comm  = MPI_COMM_WORLD;
     const unsigned int rank  = dealii::Utilities::MPI::this_mpi_process(comm);
     const unsigned int ranks = dealii::Utilities::MPI::n_mpi_processes(comm);
     const auto         start = std::chrono::steady_clock::now();
-
-    Lattice                lattice;
-    PotentialModel         potential;
-    DiscretisationSettings discretisation_settings;
-    StudySettings          study;
-    lattice.parse_parameters(prm);
-    potential.parse_parameters(prm, lattice);
-    discretisation_settings.parse_parameters(prm);
-    study.parse_parameters(prm);
+    const StudySettings &study      = model.study();
+    const auto          &boundaries = model.boundaries();
+    // Counts are taken in solver units; the tables show the user's unit.
+    const std::vector<double> solver_energies = model.solver_energies();
 
     ResultsStore store(options.output_directory, false);
     if (rank == 0)
@@ -72,47 +61,48 @@ namespace alloyspec
     std::ostringstream            lines; // this rank's counts.csv lines
     std::vector<std::size_t>      n_dofs;
     std::size_t                   n_factorisations = 0;
+    std::pair<double, std::vector<double>> volumes;
     try
       {
         auto phase = std::chrono::steady_clock::now();
         std::vector<std::unique_ptr<Discretisation>>  discretisations;
         std::vector<std::unique_ptr<SpectralProblem>> problems;
-        for (const Boundary bc : study.boundaries)
+        for (const Boundary bc : boundaries)
           {
-            discretisations.push_back(Discretisation::create(
-              lattice, discretisation_settings, BoundaryConditions(lattice.dimension(), bc)));
+            discretisations.push_back(model.make_discretisation(bc));
             discretisations.back()->make_grid();
             discretisations.back()->setup_system();
             discretisations.back()->assemble_fixed();
             problems.push_back(discretisations.back()->make_problem());
             n_dofs.push_back(discretisations.back()->n_dofs());
           }
-        timings["setup"] = seconds_since(phase);
-        phase            = std::chrono::steady_clock::now();
+        volumes = model.domain_volumes(discretisations.front().get());
+        timings["set-up"] = seconds_since(phase);
+        phase             = std::chrono::steady_clock::now();
 
         // One counter per boundary condition: each keeps its own symbolic analysis.
-        std::vector<InertiaCounter> counters(study.boundaries.size());
+        std::vector<InertiaCounter> counters(boundaries.size());
         std::vector<std::uint64_t>  mine;
         for (std::uint64_t i = rank; i < study.realisations; i += ranks)
           mine.push_back(study.first_realisation + i);
         Progress progress("realisations", mine.size(), options.progress && rank == 0);
         for (std::size_t k = 0; k < mine.size(); ++k)
           {
-            const std::vector<double> q = potential.cell_values(study.seed, mine[k]);
-            for (std::size_t b = 0; b < study.boundaries.size(); ++b)
+            const std::vector<double> q = model.solver_cell_values(mine[k]);
+            for (std::size_t b = 0; b < boundaries.size(); ++b)
               {
                 discretisations[b]->assemble_potential(q, *problems[b]);
                 for (std::size_t i = 0; i < study.energies.size(); ++i)
-                  lines << mine[k] << ',' << to_string(study.boundaries[b]) << ','
-                        << number(study.energies[i]) << ','
-                        << counters[b].count_below(*problems[b], study.energies[i]) << '\n';
+                  lines << mine[k] << ',' << to_string(boundaries[b]) << ','
+                        << csv_number(study.energies[i]) << ','
+                        << counters[b].count_below(*problems[b], solver_energies[i]) << '\n';
               }
             progress.update(k + 1);
           }
         progress.finish();
         for (const auto &c : counters)
           n_factorisations += c.n_factorisations();
-        timings["count"] = seconds_since(phase);
+        timings["counts"] = seconds_since(phase);
       }
     catch (const InputError &e)
       {
@@ -137,8 +127,9 @@ namespace alloyspec
 
     // Realisation order does not matter for the mean, but sort for a stable file.
     std::map<std::pair<std::uint64_t, std::string>, std::vector<std::size_t>> counts;
-    std::string                                                            csv =
-      "realisation,boundary,energy,count\n";
+    const AnalysisInput labels = model.analysis_input(volumes.first);
+    // Energies in the user's unit, named as in the other tables (energy_eV, ...).
+    std::string csv = "realisation,boundary," + labels.energy_column + ",count\n";
     for (const auto &text : all_lines)
       {
         csv += text;
@@ -156,13 +147,10 @@ namespace alloyspec
       }
     store.write_file("counts.csv", csv);
 
-    std::vector<std::string> boundaries;
-    for (const Boundary bc : study.boundaries)
-      boundaries.push_back(to_string(bc));
     std::vector<std::vector<IdsAccumulator::Row>> rows;
-    for (const auto &name : boundaries)
+    for (const auto &name : labels.boundaries)
       {
-        IdsAccumulator ids(study.energies, lattice.volume());
+        IdsAccumulator ids(study.energies, volumes.first);
         for (const auto &[key, c] : counts)
           if (key.second == name)
             ids.add_counts(c);
@@ -172,39 +160,38 @@ namespace alloyspec
     for (std::uint64_t r = study.first_realisation;
          r < study.first_realisation + study.realisations; ++r)
       {
-        const std::vector<double> q = potential.cell_values(study.seed, r);
-        for (std::size_t i = 0; i < study.energies.size(); ++i)
-          semiclassical[i] += semiclassical_ids(lattice.dimension(), q, study.energies[i]) /
-                              double(study.realisations);
+        const std::vector<double> n_sc = model.semiclassical_count(r, volumes);
+        for (std::size_t i = 0; i < n_sc.size(); ++i)
+          semiclassical[i] += n_sc[i] / double(study.realisations);
       }
-    store.write_file("ids.csv", format_ids_table(boundaries, study.energies, rows, semiclassical,
-                                                 study.realisations));
+    store.write_file("ids.csv",
+                     with_energy_columns(format_ids_table(labels.boundaries, study.energies, rows,
+                                                          semiclassical, study.realisations),
+                                         labels));
 
     timings["total"] = seconds_since(start);
-    std::ostringstream json;
-    json << "{\n  \"program\": \"alloyspec\",\n  \"command\": \"count\",\n  \"version\": \""
-         << ALLOYSPEC_VERSION << "\",\n"
-         << "  \"seed\": " << study.seed << ",\n"
-         << "  \"first_realisation\": " << study.first_realisation << ",\n"
-         << "  \"realisations\": " << study.realisations << ",\n"
-         << "  \"mpi_ranks\": " << ranks << ",\n"
-         << "  \"volume\": " << number(lattice.volume()) << ",\n"
-         << "  \"energies\": " << study.energies.size() << ",\n"
-         << "  \"numeric_factorisations\": " << factorisations << ",\n"
-         << "  \"degrees_of_freedom\": {";
+    Json manifest = manifest_header("count");
+    manifest["seed"]                   = study.seed;
+    manifest["first_realisation"]      = study.first_realisation;
+    manifest["realisations"]           = study.realisations;
+    manifest["mpi_ranks"]              = ranks;
+    manifest["volume"]                 = json_number(volumes.first);
+    manifest["units"]                  = model.units().description();
+    manifest["geometry"]               = model.geometry().description();
+    manifest["energies"]               = study.energies.size();
+    manifest["numeric_factorisations"] = factorisations;
+    Json dofs                          = Json::object();
     for (std::size_t b = 0; b < boundaries.size(); ++b)
-      json << (b ? ", " : "") << '"' << boundaries[b] << "\": " << n_dofs[b];
-    json << "},\n  \"timings_seconds\": {";
-    bool first = true;
+      dofs[to_string(boundaries[b])] = n_dofs[b];
+    manifest["degrees_of_freedom"] = dofs;
+    Json phases                    = Json::object();
     for (const auto &[name, seconds] : timings)
-      {
-        json << (first ? "" : ", ") << '"' << name << "\": " << number(seconds);
-        first = false;
-      }
-    json << "},\n  \"memory_high_water_mib\": " << number(memory_max_mib) << ",\n"
-         << "  \"memory_high_water_mib_all_ranks\": " << number(memory_sum_mib) << ",\n"
-         << "  \"parameters\": " << (options.parameters_json.empty() ? "{}" : options.parameters_json)
-         << "\n}\n";
-    store.write_file("run.json", json.str());
+      phases[name] = json_number(seconds);
+    manifest["timings_seconds"]                 = phases;
+    manifest["memory_high_water_mib"]           = json_number(memory_max_mib);
+    manifest["memory_high_water_mib_all_ranks"] = json_number(memory_sum_mib);
+    manifest["parameters"] = options.parameters_json.empty() ? Json::object() :
+                                                               Json::parse(options.parameters_json);
+    write_json_file(store.directory(), "run.json", manifest);
   }
 } // namespace alloyspec

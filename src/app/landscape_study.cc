@@ -10,7 +10,7 @@
 #include <alloyspec/io/results_store.h>
 #include <alloyspec/fe/spectral_problem.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
-#include <alloyspec/app/study.h>
+#include <alloyspec/app/study_model.h>
 
 #include <deal.II/base/mpi.h>
 
@@ -61,8 +61,8 @@ namespace alloyspec
     };
   } // namespace
 
-  LandscapeStudy::LandscapeStudy(Study &study, const LandscapeSettings &settings)
-    : study_(study)
+  LandscapeStudy::LandscapeStudy(const StudyModel &model, const LandscapeSettings &settings)
+    : model_(model)
     , settings_(settings)
   {}
 
@@ -71,17 +71,25 @@ namespace alloyspec
   {
     if (dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) != 0)
       return {};
-    Study                    &s = study_;
-    const UnitSystem         &units = s.units_;
-    const unsigned int        dim   = s.lattice_.dimension();
-    const auto               &boundaries = s.study_.boundaries;
-    const std::vector<double> energies        = s.study_.energies; // user unit
-    const std::vector<double> solver_energies = units.to_solver_energies(energies);
+    const StudyModel         &s          = model_;
+    const UnitSystem         &units      = s.units();
+    const unsigned int        dim        = s.lattice().dimension();
+    const auto               &boundaries = s.boundaries();
+    const std::vector<double> energies        = s.study().energies; // user unit
+    const std::vector<double> solver_energies = s.solver_energies();
 
-    s.make_grid();
-    s.setup_system();
-    s.assemble();
-    const double volume = s.domain_volumes().first;
+    // The same discretisations as an eigenvalue study of this model.
+    std::vector<std::unique_ptr<Discretisation>>  discretisations;
+    std::vector<std::unique_ptr<SpectralProblem>> problems;
+    for (const Boundary bc : boundaries)
+      {
+        discretisations.push_back(s.make_discretisation(bc));
+        discretisations.back()->make_grid();
+        discretisations.back()->setup_system();
+        discretisations.back()->assemble_fixed();
+        problems.push_back(discretisations.back()->make_problem());
+      }
+    const double volume = s.domain_volumes(discretisations.front().get()).first;
 
     // Stored eigenvalues of the same realisations (from `alloyspec run` into this folder).
     std::map<std::pair<std::uint64_t, std::string>, RealisationRecord> stored;
@@ -89,7 +97,7 @@ namespace alloyspec
       for (auto &r : ResultsStore::read(output_directory))
         stored[{r.realisation, r.boundary}] = std::move(r);
 
-    const std::uint64_t first = s.study_.first_realisation, n = s.study_.realisations;
+    const std::uint64_t first = s.study().first_realisation, n = s.study().realisations;
     std::vector<MeanTable> landscape(boundaries.size());
     std::vector<double>    landscape_seconds(boundaries.size(), 0.0), eigen_seconds(boundaries.size(), 0.0);
     std::vector<bool>      all_stored(boundaries.size(), true);
@@ -119,9 +127,9 @@ namespace alloyspec
           {
             const auto start = std::chrono::steady_clock::now();
             const LandscapeField field =
-              solve_landscape(*s.discretisations_[b], *s.problems_[b], q, shift, settings_.tolerance);
+              solve_landscape(*discretisations[b], *problems[b], q, shift, settings_.tolerance);
             std::vector<double> counts =
-              landscape_counts(*s.discretisations_[b], dim, field, solver_energies);
+              landscape_counts(*discretisations[b], dim, field, solver_energies);
             landscape_seconds[b] +=
               std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
             for (double &c : counts)

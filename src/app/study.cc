@@ -1,6 +1,5 @@
 #include <alloyspec/core/collective_errors.h>
 #include <alloyspec/core/errors.h>
-#include <alloyspec/solver/landscape.h>
 #include <alloyspec/core/interrupt.h>
 #include <alloyspec/core/progress.h>
 #include <alloyspec/io/results_store.h>
@@ -81,132 +80,17 @@ namespace alloyspec
       return buffer;
     }
 
-    std::uint64_t parse_count(const std::string &text, const std::string &parameter,
-                              std::uint64_t minimum, std::uint64_t maximum)
-    {
-      std::size_t        used  = 0;
-      unsigned long long value = 0;
-      try
-        {
-          if (text.find('-') == std::string::npos)
-            value = std::stoull(text, &used);
-        }
-      catch (const std::exception &)
-        {
-          used = 0;
-        }
-      if (used == 0 || text.find_first_not_of(" \t", used) != std::string::npos ||
-          value < minimum || value > maximum)
-        throw InputError("parameter '" + parameter + "': '" + text +
-                         "' is not allowed (an integer from " + std::to_string(minimum) +
-                         " to " + std::to_string(maximum) + ")");
-      return value;
-    }
-
-    constexpr std::uint64_t max_realisations = 4294967295ULL; // the stream counter holds 32 bits
 
   } // namespace
-
-  void StudySettings::declare_parameters(dealii::ParameterHandler &prm)
-  {
-    prm.enter_subsection("study");
-    prm.declare_entry("realisations", "20", dealii::Patterns::Anything(),
-                      "Number of independent realisations of the random potential (1 to "
-                      "4294967295).");
-    prm.declare_entry("first realisation", "0", dealii::Patterns::Anything(),
-                      "Index of the first realisation. Studies with the same seed and disjoint "
-                      "ranges of realisations can be merged.");
-    prm.declare_entry("seed", "1", dealii::Patterns::Anything(),
-                      "Seed of the counter-based random stream (0 to 2^64-1). The value of cell n "
-                      "in realisation r depends only on (seed, r, n).");
-    prm.declare_entry("energies", "0:0.1:10", dealii::Patterns::Anything(),
-                      "Energy grid of the IDS table: 'start:step:stop' or a list 'E1, E2, ...' "
-                      "(ascending), in the energy unit of the study.");
-    prm.declare_entry("export eigenfunctions", "",
-                      dealii::Patterns::List(dealii::Patterns::Integer(0, 100000), 0, 100),
-                      "Indices (0 = lowest) of eigenfunctions to write as VTU files "
-                      "(eigenfunctions_r<realisation>_<boundary>.vtu, with the cell potential as a "
-                      "cell field) for the realisations in 'export realisations'. Empty: none.");
-    prm.declare_entry("export realisations", "0",
-                      dealii::Patterns::List(dealii::Patterns::Integer(0), 0, 100),
-                      "Realisations whose eigenfunctions are exported (see 'export eigenfunctions').");
-    prm.leave_subsection();
-    prm.enter_subsection("spectrum");
-    prm.declare_entry("boundary conditions", "dirichlet, neumann",
-                      dealii::Patterns::List(dealii::Patterns::Selection("dirichlet|neumann|periodic"), 1, 3),
-                      "Boundary conditions to solve with, each on all faces of the box, with the "
-                      "same cell values. Dirichlet and Neumann together bracket the "
-                      "infinite-volume IDS from below and above.");
-    prm.leave_subsection();
-  }
-
-  void StudySettings::parse_parameters(dealii::ParameterHandler &prm)
-  {
-    prm.enter_subsection("study");
-    realisations      = parse_count(prm.get("realisations"), "study/realisations", 1, max_realisations);
-    first_realisation = parse_count(prm.get("first realisation"), "study/first realisation", 0,
-                                    max_realisations - realisations);
-    seed              = parse_count(prm.get("seed"), "study/seed", 0, ~0ULL);
-    energies_text     = prm.get("energies");
-    energies          = parse_energy_grid(energies_text, "study/energies");
-    export_eigenfunctions.clear();
-    for (const auto &x : dealii::Utilities::split_string_list(prm.get("export eigenfunctions")))
-      export_eigenfunctions.push_back(static_cast<unsigned int>(std::stoul(x)));
-    export_realisations.clear();
-    for (const auto &x : dealii::Utilities::split_string_list(prm.get("export realisations")))
-      export_realisations.push_back(std::stoull(x));
-    prm.leave_subsection();
-    prm.enter_subsection("spectrum");
-    boundaries.clear();
-    for (const auto &name : dealii::Utilities::split_string_list(prm.get("boundary conditions")))
-      {
-        const Boundary bc = boundary_from_string(name, "spectrum/boundary conditions");
-        if (std::find(boundaries.begin(), boundaries.end(), bc) != boundaries.end())
-          throw InputError("parameter 'spectrum/boundary conditions': '" + name +
-                           "' is listed twice (allowed: each of dirichlet, neumann, periodic once)");
-        boundaries.push_back(bc);
-      }
-    prm.leave_subsection();
-  }
 
   Study::Study()  = default;
   Study::~Study() = default;
 
-  void Study::declare_parameters(dealii::ParameterHandler &prm)
-  {
-    Lattice::declare_parameters(prm);
-    UnitSystem::declare_parameters(prm);
-    GeometrySettings::declare_parameters(prm);
-    LandscapeSettings::declare_parameters(prm);
-    PotentialModel::declare_parameters(prm);
-    DiscretisationSettings::declare_parameters(prm);
-    ErrorEstimateSettings::declare_parameters(prm);
-    EigenSolverSettings::declare_parameters(prm);
-    StudySettings::declare_parameters(prm);
-    AnalysisSettings::declare_parameters(prm);
-  }
+  void Study::declare_parameters(dealii::ParameterHandler &prm) { declare_all_parameters(prm); }
 
   void Study::parse_parameters(dealii::ParameterHandler &prm)
   {
-    lattice_.parse_parameters(prm);
-    units_.parse_parameters(prm, lattice_);
-    geometry_.parse_parameters(prm, lattice_);
-    potential_.parse_parameters(prm, lattice_);
-    discretisation_settings_.parse_parameters(prm);
-    error_settings_.parse_parameters(prm);
-    if (error_settings_.accuracy && geometry_.has_mesh())
-      throw InputError("parameter 'discretisation/accuracy': not available with 'lattice/mesh file' "
-                       "(allowed there: empty; set the degree and refinements directly)");
-    solver_settings_.parse_parameters(prm);
-    // The cutoff is given in the user's energy unit, the solver works in its own.
-    if (solver_settings_.energy_cutoff)
-      solver_settings_.energy_cutoff = units_.to_solver_energy(*solver_settings_.energy_cutoff);
-    study_.parse_parameters(prm);
-    if (geometry_.has_mesh())
-      for (const Boundary bc : study_.boundaries)
-        if (bc == Boundary::periodic)
-          throw InputError("parameter 'spectrum/boundary conditions': 'periodic' is not allowed "
-                           "with 'lattice/mesh file' (allowed: dirichlet, neumann)");
+    model_.parse_parameters(prm);
     analysis_.parse_parameters(prm);
   }
 
@@ -225,7 +109,7 @@ namespace alloyspec
         check_and_record_parameters(store, options);
     });
     throw_if_any_failed(MPI_COMM_WORLD, error, input_error);
-    if (error_settings_.accuracy)
+    if (model_.error_estimate().accuracy)
       {
         ScopedTimer t(timings_, "choose_discretisation");
         choose_for_accuracy(root);
@@ -247,44 +131,14 @@ namespace alloyspec
   void Study::make_grid()
   {
     discretisations_.clear();
-    for (const Boundary bc : study_.boundaries)
+    for (const Boundary bc : model_.boundaries())
       {
-        discretisations_.push_back(make_discretisation(bc));
+        discretisations_.push_back(model_.make_discretisation(bc));
         discretisations_.back()->make_grid();
       }
     if (dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0 && !discretisations_.empty())
       for (const auto &note : discretisations_.front()->notes())
         std::cerr << "alloyspec: warning: " << note << '\n';
-  }
-
-  std::unique_ptr<Discretisation> Study::make_discretisation(const Boundary bracketing) const
-  {
-    if (geometry_.has_mesh())
-      return Discretisation::create_from_mesh(lattice_, discretisation_settings_,
-                                              geometry_.mesh_file, geometry_.mesh_refinements,
-                                              bracketing);
-    return Discretisation::create(lattice_, discretisation_settings_,
-                                  geometry_.conditions(bracketing, lattice_.dimension()));
-  }
-
-  std::vector<double> Study::solver_cell_values(const std::uint64_t realisation) const
-  {
-    return units_.to_solver_energies(potential_.cell_values(study_.seed, realisation));
-  }
-
-  std::pair<double, std::vector<double>> Study::domain_volumes() const
-  {
-    if (!geometry_.has_mesh())
-      return {lattice_.volume(),
-              std::vector<double>(lattice_.n_cells(),
-                                  std::pow(lattice_.cell_size(), double(lattice_.dimension())))};
-    if (!discretisations_.empty())
-      return {discretisations_.front()->volume(), discretisations_.front()->cell_volumes()};
-    // summarise: nothing was solved here; reading the mesh is cheap.
-    auto d = make_discretisation(Boundary::neumann);
-    d->make_grid();
-    d->setup_system();
-    return {d->volume(), d->cell_volumes()};
   }
 
   void Study::setup_system()
@@ -301,41 +155,33 @@ namespace alloyspec
         d->assemble_fixed();
         problems_.push_back(d->make_problem());
       }
-    solver_ = std::make_unique<EigenSolver>(solver_settings_);
+    solver_ = std::make_unique<EigenSolver>(model_.solver());
     solver_->use_teams(teams_.get());
     estimators_.clear();
-    if (error_settings_.enabled())
-      for (const Boundary bc : study_.boundaries)
+    if (model_.error_estimate().enabled())
+      for (const Boundary bc : model_.boundaries())
         {
           // The richer space halves h: twice the elements per cell on a box,
           // one more refinement of a mesh file.
-          const DiscretisationSettings fine =
-            richer_settings(discretisation_settings_, RicherSpace::mesh);
-          std::unique_ptr<Discretisation> d =
-            geometry_.has_mesh() ?
-              Discretisation::create_from_mesh(lattice_, discretisation_settings_,
-                                               geometry_.mesh_file,
-                                               geometry_.mesh_refinements + 1, bc) :
-              Discretisation::create(lattice_, fine,
-                                     geometry_.conditions(bc, lattice_.dimension()));
+          std::unique_ptr<Discretisation> d = model_.make_discretisation(bc, true);
           estimators_.push_back(std::make_unique<ErrorEstimator>(
-            std::move(d), discretisation_settings_, solver_settings_, RicherSpace::mesh));
+            std::move(d), model_.discretisation(), model_.solver(), RicherSpace::mesh));
         }
   }
 
   void Study::choose_for_accuracy(const bool root)
   {
-    const Boundary bc = study_.boundaries.front();
+    const Boundary bc = model_.boundaries().front();
     discretisation_choice_ = choose_discretisation(
-      lattice_, discretisation_settings_, geometry_.conditions(bc, lattice_.dimension()),
-      solver_settings_, solver_cell_values(study_.first_realisation), *error_settings_.accuracy);
-    discretisation_settings_ = discretisation_choice_->settings;
+      model_.lattice(), model_.discretisation(), model_.geometry().conditions(bc, model_.lattice().dimension()),
+      model_.solver(), model_.solver_cell_values(model_.study().first_realisation), *model_.error_estimate().accuracy);
+    model_.set_discretisation(discretisation_choice_->settings);
     if (root)
-      std::cout << "Pilot solve for 'discretisation/accuracy' = " << *error_settings_.accuracy
-                << " (realisation " << study_.first_realisation << ", " << to_string(bc)
+      std::cout << "Pilot solve for 'discretisation/accuracy' = " << *model_.error_estimate().accuracy
+                << " (realisation " << model_.study().first_realisation << ", " << to_string(bc)
                 << "):\n"
-                << discretisation_choice_->log << "Chosen: degree " << discretisation_settings_.degree
-                << ", elements per cell " << discretisation_settings_.elements_per_cell
+                << discretisation_choice_->log << "Chosen: degree " << model_.discretisation().degree
+                << ", elements per cell " << model_.discretisation().elements_per_cell
                 << (discretisation_choice_->met ? "" : " (target not met: the finest tried)")
                 << std::endl;
   }
@@ -343,13 +189,13 @@ namespace alloyspec
   RealisationRecord Study::solve_one(std::uint64_t realisation, std::size_t b)
   {
     const auto start = std::chrono::steady_clock::now();
-    const std::vector<double> q = solver_cell_values(realisation);
+    const std::vector<double> q = model_.solver_cell_values(realisation);
     discretisations_[b]->assemble_potential(q, *problems_[b]);
     EigenResult result = solver_->solve(*problems_[b]);
 
     RealisationRecord record;
     record.realisation    = realisation;
-    record.boundary       = to_string(study_.boundaries[b]);
+    record.boundary       = to_string(model_.boundaries()[b]);
     record.eigenvalues    = result.eigenvalues;
     record.residuals      = result.residuals;
     record.complete_up_to = result.complete_up_to;
@@ -359,9 +205,9 @@ namespace alloyspec
     record.attempts       = result.attempts;
     // The central cell (floor(L_i/2)) for the local-trace estimator.
     std::array<unsigned int, 3> centre{0, 0, 0};
-    for (unsigned int d = 0; d < lattice_.dimension(); ++d)
-      centre[d] = lattice_.cells()[d] / 2;
-    const std::size_t central_cell = lattice_.cell_index(centre);
+    for (unsigned int d = 0; d < model_.lattice().dimension(); ++d)
+      centre[d] = model_.lattice().cells()[d] / 2;
+    const std::size_t central_cell = model_.lattice().cell_index(centre);
     discretisations_[b]->localisation_measures(result.eigenvectors, central_cell,
                                                record.inverse_participation_ratios,
                                                record.central_weights);
@@ -377,13 +223,13 @@ namespace alloyspec
                                     const std::vector<double> &q, const EigenResult &result) const
   {
     // One file per solve: only the rank that reports a team's realisation writes it.
-    if ((teams_ && !teams_->leader()) || study_.export_eigenfunctions.empty() ||
-        std::find(study_.export_realisations.begin(), study_.export_realisations.end(),
-                  realisation) == study_.export_realisations.end())
+    if ((teams_ && !teams_->leader()) || model_.study().export_eigenfunctions.empty() ||
+        std::find(model_.study().export_realisations.begin(), model_.study().export_realisations.end(),
+                  realisation) == model_.study().export_realisations.end())
       return;
     std::vector<std::string>         names;
     std::vector<std::vector<double>> fields;
-    for (const unsigned int i : study_.export_eigenfunctions)
+    for (const unsigned int i : model_.study().export_eigenfunctions)
       if (i < result.eigenvectors.size())
         {
           char name[64];
@@ -392,7 +238,7 @@ namespace alloyspec
           fields.push_back(result.eigenvectors[i]);
         }
     const std::string file = "eigenfunctions_r" + std::to_string(realisation) + "_" +
-                             to_string(study_.boundaries[b]) + ".vtu";
+                             to_string(model_.boundaries()[b]) + ".vtu";
     discretisations_[b]->write_vtu(
       (std::filesystem::path(output_directory_) / file).string(), q, names, fields);
   }
@@ -411,12 +257,12 @@ namespace alloyspec
         for (const auto &r : ResultsStore::read(store.directory()))
           ++stored[r.realisation];
         for (const auto &[r, n] : stored)
-          if (n == study_.boundaries.size())
+          if (n == model_.boundaries().size())
             done.insert(r);
       }
     std::vector<std::uint64_t> pending;
-    for (std::uint64_t r = study_.first_realisation;
-         r < study_.first_realisation + study_.realisations; ++r)
+    for (std::uint64_t r = model_.study().first_realisation;
+         r < model_.study().first_realisation + model_.study().realisations; ++r)
       if (done.count(r) == 0)
         pending.push_back(r);
 
@@ -433,17 +279,17 @@ namespace alloyspec
           {
             progress.finish();
             const std::size_t stored =
-              study_.realisations - pending.size() + std::min(pending.size(), round * teams);
+              model_.study().realisations - pending.size() + std::min(pending.size(), round * teams);
             throw Interrupted(signal, "stopped on " + signal_name(signal) + ": " +
                                         std::to_string(stored) + " of " +
-                                        std::to_string(study_.realisations) +
+                                        std::to_string(model_.study().realisations) +
                                         " realisations are stored in '" + store.directory() + "'");
           }
         const std::size_t slot = round * teams + teams_->index();
         std::string       eigen_text, summary_text;
         const auto [error, input_error] = capture_error([&] {
           if (slot < pending.size())
-            for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
+            for (std::size_t b = 0; b < model_.boundaries().size(); ++b)
               {
                 const RealisationRecord record = solve_one(pending[slot], b);
                 if (!teams_->leader())
@@ -468,88 +314,6 @@ namespace alloyspec
         throw_if_any_failed(comm, error, input_error);
       }
     progress.finish();
-  }
-
-  StoredStudy Study::collect(const std::string &directory, const std::string &parameters_prm) const
-  {
-    StoredStudy stored;
-    stored.directory  = directory;
-    stored.parameters = flatten_parameters(parameters_prm);
-    stored.seed       = study_.seed;
-    AnalysisInput &in = stored.input;
-    const auto [volume, cell_volumes] = domain_volumes();
-    in.dimension      = lattice_.dimension();
-    in.volume         = volume;
-    in.cells          = lattice_.cells();
-    in.cell_size      = lattice_.cell_size();
-    for (const Boundary bc : study_.boundaries)
-      in.boundaries.push_back(to_string(bc));
-    in.energies        = study_.energies;
-    in.band_bottom     = potential_.bottom();
-    in.mean_potential  = potential_.is_random() ? potential_.law()->mean() : 0.0;
-    in.model_summary   = "H = -Laplacian + V on " + lattice_.description() + "; " +
-                       potential_.description() + "; FE_Q(" +
-                       std::to_string(discretisation_settings_.degree) + ") with " +
-                       std::to_string(discretisation_settings_.elements_per_cell) +
-                       " elements per cell edge.";
-    if (geometry_.has_mesh())
-      in.model_summary += " Domain: " + geometry_.description() + " inside the lattice's box, "
-                          "volume " + std::to_string(volume) + " (IDS per unit volume of the mesh).";
-    else if (geometry_.any_periodic())
-      in.model_summary += " Faces: " + geometry_.description() +
-                          ", the listed boundary conditions on the other faces.";
-    in.model_summary += " Units: " + units_.description() + ".";
-    // Stored records are in solver units; everything analysed and shown is in the user's unit.
-    if (units_.is_physical())
-      {
-        in.energy_unit        = "E (" + units_.energy_label() + ")";
-        in.energy_column      = "energy_" + units_.energy_label();
-        in.solver_energy_unit = units_.solver_energy_unit();
-      }
-    in.parameters_text = parameters_prm;
-
-    std::set<std::uint64_t> realisations;
-    for (auto &r : ResultsStore::read(directory))
-      if (r.realisation >= study_.first_realisation &&
-          r.realisation < study_.first_realisation + study_.realisations &&
-          std::find_if(study_.boundaries.begin(), study_.boundaries.end(), [&](Boundary bc) {
-            return to_string(bc) == r.boundary;
-          }) != study_.boundaries.end())
-        {
-          realisations.insert(r.realisation);
-          r.eigenvalues    = units_.to_user_energies(std::move(r.eigenvalues));
-          r.complete_up_to = units_.to_user_energy(r.complete_up_to);
-          r.potential_min  = units_.to_user_energy(r.potential_min);
-          r.potential_max  = units_.to_user_energy(r.potential_max);
-          in.records.push_back(std::move(r));
-        }
-    if (!potential_.is_random())
-      {
-        const std::vector<double> q = potential_.cell_values(study_.seed, 0);
-        in.mean_potential = std::accumulate(q.begin(), q.end(), 0.0) / q.size();
-      }
-
-    // Phase-space (semiclassical) count of the same realisations; the cell
-    // values are regenerated from the counter-based stream, not stored. In
-    // solver units (a density per unit volume does not depend on the energy
-    // unit); each cell weighs with the volume of the domain that carries its
-    // value (all alike in a box, the mesh's share otherwise).
-    stored.semiclassical_sum.assign(study_.energies.size(), 0.0);
-    const std::vector<double> solver_energies = units_.to_solver_energies(study_.energies);
-    for (const std::uint64_t r : realisations)
-      {
-        const std::vector<double> q = solver_cell_values(r);
-        for (std::size_t i = 0; i < study_.energies.size(); ++i)
-          {
-            double sum = 0;
-            for (std::size_t n = 0; n < q.size(); ++n)
-              if (cell_volumes[n] > 0)
-                sum += cell_volumes[n] *
-                       free_ids_density(lattice_.dimension(), solver_energies[i] - q[n]);
-            stored.semiclassical_sum[i] += sum / volume;
-          }
-      }
-    return stored;
   }
 
   void Study::check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const
@@ -582,13 +346,13 @@ namespace alloyspec
 
   void Study::postprocess(const ResultsStore &store, const RunOptions &options)
   {
-    const StoredStudy stored = collect(store.directory(), options.parameters_prm);
+    const StoredStudy stored = model_.describe_stored(store.directory(), options.parameters_prm);
     for (const auto &warning : write_study_tables(store.directory(), {stored}, analysis_))
       std::cerr << "alloyspec: warning: " << warning << '\n';
     std::set<std::uint64_t> realisations;
     for (const auto &r : stored.input.records)
       realisations.insert(r.realisation);
-    const double volume = domain_volumes().first;
+    const double volume = model_.domain_volumes(discretisations_.empty() ? nullptr : discretisations_.front().get()).first;
 
     // run.json: what was run, with what, how long, how big.
     rusage usage{};
@@ -597,30 +361,30 @@ namespace alloyspec
     gethostname(host, sizeof host - 1);
     std::ostringstream json;
     json << "{\n  \"program\": \"alloyspec\",\n  \"version\": \"" << ALLOYSPEC_VERSION << "\",\n"
-         << "  \"seed\": " << study_.seed << ",\n"
-         << "  \"first_realisation\": " << study_.first_realisation << ",\n"
-         << "  \"realisations_requested\": " << study_.realisations << ",\n"
+         << "  \"seed\": " << model_.study().seed << ",\n"
+         << "  \"first_realisation\": " << model_.study().first_realisation << ",\n"
+         << "  \"realisations_requested\": " << model_.study().realisations << ",\n"
          << "  \"realisations_stored\": " << realisations.size() << ",\n"
          << "  \"mpi_ranks\": " << dealii::Utilities::MPI::n_mpi_processes(MPI_COMM_WORLD) << ",\n"
          << "  \"ranks_per_realisation\": " << (teams_ ? teams_->size() : 1u) << ",\n"
          << "  \"host\": \"" << json_escape(host) << "\",\n"
-         << "  \"lattice\": \"" << json_escape(lattice_.description()) << "\",\n"
+         << "  \"lattice\": \"" << json_escape(model_.lattice().description()) << "\",\n"
          << "  \"volume\": " << number(volume) << ",\n"
-         << "  \"units\": {\"system\": \"" << (units_.is_physical() ? "physical" : "reduced")
-         << "\", \"energy_unit\": \"" << units_.energy_label()
-         << "\", \"length_unit\": \"" << units_.length_label()
-         << "\", \"records_energy_unit_in_user_unit\": " << number(units_.solver_energy_unit())
-         << ", \"description\": \"" << json_escape(units_.description()) << "\"},\n"
-         << "  \"geometry\": \"" << json_escape(geometry_.description()) << "\",\n"
-         << "  \"potential\": \"" << json_escape(potential_.description()) << "\",\n"
+         << "  \"units\": {\"system\": \"" << (model_.units().is_physical() ? "physical" : "reduced")
+         << "\", \"energy_unit\": \"" << model_.units().energy_label()
+         << "\", \"length_unit\": \"" << model_.units().length_label()
+         << "\", \"records_energy_unit_in_user_unit\": " << number(model_.units().solver_energy_unit())
+         << ", \"description\": \"" << json_escape(model_.units().description()) << "\"},\n"
+         << "  \"geometry\": \"" << json_escape(model_.geometry().description()) << "\",\n"
+         << "  \"potential\": \"" << json_escape(model_.potential().description()) << "\",\n"
          << "  \"degrees_of_freedom\": {";
-    for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
-      json << (b ? ", " : "") << '"' << to_string(study_.boundaries[b])
+    for (std::size_t b = 0; b < model_.boundaries().size(); ++b)
+      json << (b ? ", " : "") << '"' << to_string(model_.boundaries()[b])
            << "\": " << discretisations_[b]->n_dofs();
-    json << "},\n  \"discretisation\": {\"degree\": " << discretisation_settings_.degree
-         << ", \"elements_per_cell\": " << discretisation_settings_.elements_per_cell
-         << ", \"error_estimate\": \"" << error_settings_.method << "\", \"accuracy_target\": "
-         << (error_settings_.accuracy ? number(*error_settings_.accuracy) : "null")
+    json << "},\n  \"discretisation\": {\"degree\": " << model_.discretisation().degree
+         << ", \"elements_per_cell\": " << model_.discretisation().elements_per_cell
+         << ", \"error_estimate\": \"" << model_.error_estimate().method << "\", \"accuracy_target\": "
+         << (model_.error_estimate().accuracy ? number(*model_.error_estimate().accuracy) : "null")
          << ", \"accuracy_achieved\": "
          << (discretisation_choice_ ? number(discretisation_choice_->achieved) : "null");
     json << "},\n  \"timings_seconds\": {";

@@ -88,6 +88,17 @@ namespace alloyspec
                       Double(0),
                       "Edge length a > 0 of one unit cell, in the length unit of the study. "
                       "In reduced units (hbar^2/2m = 1, lengths in cells) this is 1.");
+    prm.declare_entry("mesh file", "", dealii::Patterns::Anything(),
+                      "Gmsh .msh file of the domain (quadrilaterals in 2D, hexahedra in 3D), in "
+                      "the length unit of the study (nm in physical units), inside the box of "
+                      "'cells' x 'cell size', which then only sets the grid of the cell "
+                      "potential. Each element takes the value of the cell containing its "
+                      "centre. The boundary conditions apply on the whole boundary of the mesh. "
+                      "Empty: the box itself. A relative path is taken from the parameter "
+                      "file's folder.");
+    prm.declare_entry("mesh refinements", "0", dealii::Patterns::Anything(),
+                      "Number of global refinements of the mesh read from 'mesh file' (0 to 4); "
+                      "each halves the element size.");
     prm.leave_subsection();
   }
 
@@ -97,7 +108,32 @@ namespace alloyspec
     prm.enter_subsection("lattice");
     const std::string cells_text = prm.get("cells");
     const double      cell_size  = prm.get_double("cell size");
+    const std::string mesh_file  = prm.get("mesh file");
+    const std::string refinements_text = prm.get("mesh refinements");
     prm.leave_subsection();
+
+    constexpr long max_mesh_refinements = 4; // each multiplies the unknowns by 2^d
+    std::size_t    used_digits          = 0;
+    long           refinements          = -1;
+    try
+      {
+        refinements = std::stol(refinements_text, &used_digits);
+      }
+    catch (const std::exception &)
+      {
+        used_digits = 0;
+      }
+    if (used_digits == 0 || refinements_text.find_first_not_of(" \t", used_digits) != std::string::npos ||
+        refinements < 0 || refinements > max_mesh_refinements)
+      throw InputError("parameter 'lattice/mesh refinements': '" + refinements_text +
+                       "' is not allowed (an integer from 0 to " +
+                       std::to_string(max_mesh_refinements) + ")");
+    if (mesh_file.empty() && refinements > 0)
+      throw InputError("parameter 'lattice/mesh refinements': " + refinements_text +
+                       " is not allowed without 'lattice/mesh file' (allowed: 0; refine the "
+                       "box with 'discretisation/elements per cell')");
+    mesh_file_        = mesh_file;
+    mesh_refinements_ = static_cast<unsigned int>(refinements);
 
     // The pattern has already checked each entry, but parse_parameters() must
     // not trust that the handler was filled through parse_input().

@@ -79,62 +79,6 @@ namespace alloyspec
     constexpr double shift_margin = 0.02;
   } // namespace
 
-  void EigenSolverSettings::declare_parameters(dealii::ParameterHandler &prm)
-  {
-    prm.enter_subsection("spectrum");
-    prm.declare_entry("eigenvalues", "50", dealii::Patterns::Integer(1, 100000),
-                      "Number k of lowest eigenvalues per realisation and boundary condition "
-                      "(a degenerate cluster at the top is kept whole, so a few more may be "
-                      "reported). Ignored when an energy cutoff is set.");
-    prm.declare_entry("energy cutoff", "", dealii::Patterns::Anything(),
-                      "If not empty: compute all eigenvalues at or below this energy instead of a "
-                      "fixed count (their number is first found by an inertia count).");
-    prm.declare_entry("tolerance", "1e-12", dealii::Patterns::Double(1e-15, 1e-4),
-                      "Relative convergence tolerance of the Krylov-Schur iteration.");
-    prm.declare_entry("solver", "tuned", dealii::Patterns::Selection("tuned|baseline"),
-                      "tuned: block shift-and-invert Krylov-Schur (8-32 right-hand sides per "
-                      "sparse solve, full M-orthogonalisation, purified Ritz vectors), the sparse "
-                      "factor's analysis kept across realisations; problems too small for a "
-                      "block basis use single-vector SLEPc Krylov-Schur. baseline: SLEPc "
-                      "Krylov-Schur with the library's defaults, a shift below the spectrum and "
-                      "fresh objects per solve, for benchmarks. Both lists are verified by the "
-                      "same inertia count.");
-    prm.declare_entry("maximum eigenvalues", "5000", dealii::Patterns::Integer(1, 1000000),
-                      "Upper limit on the eigenpairs one solve may be asked for (guards the "
-                      "energy-cutoff mode against a cutoff far above the band edge).");
-    prm.leave_subsection();
-  }
-
-  void EigenSolverSettings::parse_parameters(dealii::ParameterHandler &prm)
-  {
-    prm.enter_subsection("spectrum");
-    n_eigenvalues = prm.get_integer("eigenvalues");
-    const std::string cutoff = prm.get("energy cutoff");
-    energy_cutoff.reset();
-    if (cutoff.find_first_not_of(" \t") != std::string::npos)
-      {
-        std::size_t used = 0;
-        double      value = 0;
-        try
-          {
-            value = std::stod(cutoff, &used);
-          }
-        catch (const std::exception &)
-          {
-            used = 0;
-          }
-        if (used == 0 || cutoff.find_first_not_of(" \t", used) != std::string::npos ||
-            !std::isfinite(value))
-          throw InputError("parameter 'spectrum/energy cutoff': '" + cutoff +
-                           "' is not a number (allowed: empty, or a finite real number)");
-        energy_cutoff = value;
-      }
-    tolerance       = prm.get_double("tolerance");
-    method          = prm.get("solver");
-    max_eigenvalues = prm.get_integer("maximum eigenvalues");
-    prm.leave_subsection();
-  }
-
   EigenSolver::EigenSolver(EigenSolverSettings settings)
     : settings_(std::move(settings))
   {}

@@ -3,13 +3,10 @@
 
 #include <string>
 
-namespace dealii
-{
-  class ParameterHandler;
-}
-
 namespace alloyspec
 {
+  class StudyModel;
+
   /** How to run `alloyspec count` (command-line side). */
   struct CountOptions
   {
@@ -22,15 +19,15 @@ namespace alloyspec
 
   /**
    * `alloyspec count`: for every realisation and boundary condition of the
-   * study in @p prm, the counting function
+   * study of @p model (its units, periodic directions or mesh file included), the counting function
    * @f$N_L(E_i) = \#\{\lambda_j \le E_i\}/|\Lambda|@f$ on the energy grid from
    * inertia counts only (no eigenvectors, so memory is that of one
    * factorisation and boxes far larger than `run` can handle fit). Writes
-   * counts.csv (realisation, boundary, energy, count), ids.csv with the same
+   * counts.csv (realisation, boundary, energy in the user's unit, count), ids.csv with the same
    * columns as `run` (complete at every energy) and run.json with timings and
    * the memory high-water mark. At an energy equal to an eigenvalue the count
    * is of eigenvalues strictly below it (a zero pivot); grids rarely hit one.
    * Realisations are dealt out to MPI ranks round-robin.
    */
-  void run_inertia_count(dealii::ParameterHandler &prm, const CountOptions &options);
+  void run_inertia_count(const StudyModel &model, const CountOptions &options);
 } // namespace alloyspec

@@ -8,7 +8,7 @@
 
 namespace alloyspec
 {
-  class Study;
+  class StudyModel;
 
   /**
    * `alloyspec landscape`: for the realisations and boundary conditions of a
@@ -23,12 +23,12 @@ namespace alloyspec
   class LandscapeStudy
   {
   public:
-    LandscapeStudy(Study &study, const LandscapeSettings &settings);
+    LandscapeStudy(const StudyModel &model, const LandscapeSettings &settings);
     /** Runs on MPI rank 0 (the other ranks return at once). Returns lines to print. */
     std::vector<std::string> run(const std::string &output_directory, bool progress);
 
   private:
-    Study            &study_;
+    const StudyModel &model_;
     LandscapeSettings settings_;
   };
 } // namespace alloyspec

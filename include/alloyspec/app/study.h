@@ -1,14 +1,9 @@
 /** @file study.h  A study: many realisations, several boundary conditions, the averaged IDS. */
 #pragma once
 
-#include <alloyspec/fe/discretisation.h>
-#include <alloyspec/solver/eigen_solver.h>
-#include <alloyspec/solver/error_estimate.h>
-#include <alloyspec/fe/geometry.h>
-#include <alloyspec/model/lattice.h>
-#include <alloyspec/model/potential_model.h>
 #include <alloyspec/analysis/spectral_analysis.h>
-#include <alloyspec/model/units.h>
+#include <alloyspec/app/study_model.h>
+#include <alloyspec/solver/error_estimate.h>
 
 #include <cstdint>
 #include <map>
@@ -29,23 +24,6 @@ namespace alloyspec
   class RealisationTeams;
   struct RealisationRecord;
   struct StoredStudy;
-
-  /** Subsection `study`: how many realisations, which seed, which energy grid. */
-  struct StudySettings
-  {
-    std::uint64_t         realisations      = 20;
-    std::uint64_t         first_realisation = 0;
-    std::uint64_t         seed              = 1;
-    std::vector<double>   energies;
-    std::string           energies_text = "0:0.1:10";
-    std::vector<Boundary> boundaries{Boundary::dirichlet, Boundary::neumann};
-    /** Eigenfunction indices written as VTU for the realisations below. */
-    std::vector<unsigned int>  export_eigenfunctions;
-    std::vector<std::uint64_t> export_realisations{0};
-
-    static void declare_parameters(dealii::ParameterHandler &prm);
-    void        parse_parameters(dealii::ParameterHandler &prm);
-  };
 
   /** How to run (command-line side, not science). */
   struct RunOptions
@@ -96,12 +74,8 @@ namespace alloyspec
     const std::map<std::string, double> &timings() const { return timings_; }
     const AnalysisSettings              &analysis_settings() const { return analysis_; }
 
-    /**
-     * The records of this study's realisations stored in @p directory, with
-     * everything needed to tabulate them (see summary.h). Cell values for the
-     * semiclassical count are regenerated from the counter-based stream.
-     */
-    StoredStudy collect(const std::string &directory, const std::string &parameters_prm) const;
+    /** The parsed model (for commands that reuse a study's set-up). */
+    const StudyModel &model() const { return model_; }
 
   private:
     void make_grid();
@@ -120,29 +94,9 @@ namespace alloyspec
                                const std::vector<double> &cell_values, const EigenResult &result) const;
     RealisationRecord solve_one(std::uint64_t realisation, std::size_t boundary_index);
 
-    /** Cell values of realisation @p r in solver units (UnitSystem::to_solver_energies). */
-    std::vector<double> solver_cell_values(std::uint64_t realisation) const;
-    /** Discretisation of solve @p b: the box with periodic directions, or the mesh. */
-    std::unique_ptr<Discretisation> make_discretisation(Boundary bracketing) const;
-    /**
-     * @f$|\Omega|@f$ and, per lattice cell, the volume that carries its value:
-     * the box's, or the mesh's (read from its file when no grid was made).
-     */
-    std::pair<double, std::vector<double>> domain_volumes() const;
-
-    /** The landscape command reuses the set-up of the eigenvalue study. */
-    friend class LandscapeStudy;
-
-    Lattice                lattice_;
-    UnitSystem             units_;
-    GeometrySettings       geometry_;
-    PotentialModel         potential_;
-    DiscretisationSettings discretisation_settings_;
-    EigenSolverSettings    solver_settings_;
-    ErrorEstimateSettings  error_settings_;
+    StudyModel             model_;
     /** Set when `discretisation/accuracy` chose degree and elements per cell. */
     std::optional<DiscretisationChoice> discretisation_choice_;
-    StudySettings          study_;
     AnalysisSettings       analysis_;
 
     std::vector<std::unique_ptr<Discretisation>>  discretisations_;

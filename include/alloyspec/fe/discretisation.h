@@ -5,6 +5,7 @@
 
 #include <cstddef>
 #include <memory>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -17,11 +18,18 @@ namespace alloyspec
 {
   class Lattice;
 
-  /** Degree and mesh density. Subsection `discretisation`. */
+  /**
+   * Subsection `discretisation`: degree and mesh density, and how the
+   * discretisation error is estimated or targeted (used by ErrorEstimateSettings).
+   */
   struct DiscretisationSettings
   {
     unsigned int degree            = 2; ///< p of FE_Q(p), 1..4
     unsigned int elements_per_cell = 2; ///< r elements per cell edge, 1..8
+    /** `error estimate`: "none" or "richardson". */
+    std::string           error_estimate = "none";
+    /** `accuracy`: relative target in [1e-12, 0.1]; empty: keep degree and r. */
+    std::optional<double> accuracy;
 
     static void declare_parameters(dealii::ParameterHandler &prm);
     void        parse_parameters(dealii::ParameterHandler &prm);

@@ -6,11 +6,6 @@
 #include <string>
 #include <vector>
 
-namespace dealii
-{
-  class ParameterHandler;
-}
-
 namespace alloyspec
 {
   class Lattice;
@@ -38,13 +33,14 @@ namespace alloyspec
     std::string       mesh_file;
     unsigned int      mesh_refinements = 0;
 
-    static void declare_parameters(dealii::ParameterHandler &prm);
     /**
-     * Reads the entries above for @p lattice (call after Lattice::parse_parameters()).
-     * Throws InputError for an unknown or repeated direction, a direction beyond
-     * the lattice's dimension, or periodic directions together with a mesh file.
+     * Sets the geometry of @p lattice (its mesh file and refinements) with the
+     * periodic directions @p periodic_directions (the text of
+     * `spectrum/periodic directions`, a list of x, y, z). Throws InputError for
+     * an unknown or repeated direction, a direction beyond the lattice's
+     * dimension, or periodic directions together with a mesh file.
      */
-    void parse_parameters(dealii::ParameterHandler &prm, const Lattice &lattice);
+    void configure(const Lattice &lattice, const std::string &periodic_directions);
 
     bool has_mesh() const { return !mesh_file.empty(); }
     bool any_periodic() const;

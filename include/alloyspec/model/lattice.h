@@ -36,6 +36,14 @@ namespace alloyspec
     unsigned int dimension() const { return static_cast<unsigned int>(cells_.size()); }
     const std::vector<unsigned int> &cells() const { return cells_; }
     double cell_size() const { return cell_size_; }
+    /**
+     * `lattice/mesh file`: a Gmsh file of the domain inside the box (the box
+     * then only sets the grid of the cell potential); empty for the box itself.
+     * Relative paths are resolved by the caller that reads the file.
+     */
+    const std::string &mesh_file() const { return mesh_file_; }
+    /** `lattice/mesh refinements` (0 to 4; 0 without a mesh file). */
+    unsigned int mesh_refinements() const { return mesh_refinements_; }
     /** @f$\prod_i L_i@f$. */
     std::size_t n_cells() const;
     /** Lexicographic index of the cell with integer coordinates @p c (unused entries ignored). */
@@ -52,5 +60,7 @@ namespace alloyspec
   private:
     std::vector<unsigned int> cells_{8, 8, 8};
     double                    cell_size_ = 1.0;
+    std::string               mesh_file_;
+    unsigned int              mesh_refinements_ = 0;
   };
 } // namespace alloyspec

@@ -33,8 +33,6 @@ namespace alloyspec
     /** Largest number of eigenpairs one solve may be asked for. */
     unsigned int          max_eigenvalues = 5000;
 
-    static void declare_parameters(dealii::ParameterHandler &prm);
-    void        parse_parameters(dealii::ParameterHandler &prm);
   };
 
   /** Eigenpairs of one problem, sorted ascending. */

@@ -38,8 +38,9 @@ namespace alloyspec
 
     bool enabled() const { return method == "richardson"; }
 
-    static void declare_parameters(dealii::ParameterHandler &prm);
-    void        parse_parameters(dealii::ParameterHandler &prm);
+    ErrorEstimateSettings() = default;
+    /** The entries `error estimate` and `accuracy` of subsection `discretisation`. */
+    explicit ErrorEstimateSettings(const DiscretisationSettings &settings);
   };
 
   /**

@@ -148,46 +148,35 @@ namespace alloyspec
 
   TEST(GeometrySettings, PeriodicDirectionsSetTheFaceConditions)
   {
-    dealii::ParameterHandler prm;
-    GeometrySettings::declare_parameters(prm);
-    const Lattice lattice({4, 4, 2});
-    prm.enter_subsection("spectrum");
-    prm.set("periodic directions", "x, y");
-    prm.leave_subsection();
+    const Lattice    lattice({4, 4, 2});
     GeometrySettings g;
-    g.parse_parameters(prm, lattice);
+    g.configure(lattice, "x, y");
     EXPECT_EQ(g.conditions(Boundary::neumann, 3),
               (BoundaryConditions{Boundary::periodic, Boundary::periodic, Boundary::neumann}));
     EXPECT_EQ(g.description(), "periodic in x, y");
 
     for (const char *bad : {"w", "x, x", "x,,y"})
-      {
-        prm.enter_subsection("spectrum");
-        prm.set("periodic directions", bad);
-        prm.leave_subsection();
-        EXPECT_THROW(g.parse_parameters(prm, lattice), InputError) << bad;
-      }
+      EXPECT_THROW(g.configure(lattice, bad), InputError) << bad;
     // z does not exist in 2D.
-    prm.enter_subsection("spectrum");
-    prm.set("periodic directions", "z");
-    prm.leave_subsection();
-    EXPECT_THROW(g.parse_parameters(prm, Lattice({4, 4})), InputError);
+    EXPECT_THROW(g.configure(Lattice({4, 4}), "z"), InputError);
+
     // Periodic faces and a mesh file do not mix; refinements need a mesh.
-    prm.enter_subsection("spectrum");
-    prm.set("periodic directions", "x");
-    prm.leave_subsection();
+    // Both entries belong to subsection `lattice`, parsed by Lattice.
+    dealii::ParameterHandler prm;
+    Lattice::declare_parameters(prm);
     prm.enter_subsection("lattice");
+    prm.set("cells", "4, 4, 2");
     prm.set("mesh file", "some.msh");
     prm.leave_subsection();
-    EXPECT_THROW(g.parse_parameters(prm, lattice), InputError);
-    prm.enter_subsection("spectrum");
-    prm.set("periodic directions", "");
-    prm.leave_subsection();
+    Lattice with_mesh;
+    with_mesh.parse_parameters(prm);
+    EXPECT_THROW(g.configure(with_mesh, "x"), InputError);
     prm.enter_subsection("lattice");
     prm.set("mesh file", "");
     prm.set("mesh refinements", "1");
     prm.leave_subsection();
-    EXPECT_THROW(g.parse_parameters(prm, lattice), InputError);
+    Lattice refined_box;
+    EXPECT_THROW(refined_box.parse_parameters(prm), InputError);
   }
 
   // A mesh aligned with the box discretisation (2 x 2 elements per cell)

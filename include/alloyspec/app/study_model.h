@@ -1,0 +1,131 @@
+/**
+ * @file study_model.h  The parsed model of a study, shared by every command:
+ * the box, units, geometry, potential, discretisation, what to solve for, and
+ * the sample of realisations.
+ */
+#pragma once
+
+#include <alloyspec/app/spectrum_settings.h>
+#include <alloyspec/app/study_settings.h>
+#include <alloyspec/fe/discretisation.h>
+#include <alloyspec/fe/geometry.h>
+#include <alloyspec/model/lattice.h>
+#include <alloyspec/model/potential_model.h>
+#include <alloyspec/model/units.h>
+#include <alloyspec/solver/eigen_solver.h>
+#include <alloyspec/solver/error_estimate.h>
+
+#include <cstdint>
+#include <memory>
+#include <string>
+#include <utility>
+#include <vector>
+
+namespace dealii
+{
+  class ParameterHandler;
+}
+
+namespace alloyspec
+{
+  struct StoredStudy;
+  struct AnalysisInput;
+
+  /**
+   * Everything a command needs to know about the model @f$H_\omega = -\Delta + V_\omega@f$
+   * on its domain, parsed once from the parameter file. `run`, `count`,
+   * `landscape`, `summarise` and `verify` each hold one, so the units, the
+   * geometry and the energy grid cannot drift between commands.
+   *
+   * Subsections and their one owner each:
+   * `lattice` (Lattice), `units` (UnitSystem), `potential` (PotentialModel),
+   * `discretisation` (DiscretisationSettings), `spectrum` (SpectrumSettings),
+   * `study` (StudySettings). `analysis` and `landscape` belong to the
+   * commands that use them (declare_all_parameters()).
+   *
+   * Two unit systems meet here: the user's (the parameter file, every table
+   * and figure) and the solver's (@f$\hbar^2/(2m^*\,\mathrm{length}^2)@f$, the
+   * matrices and the stored records). Conversions happen in this class only.
+   */
+  class StudyModel
+  {
+  public:
+    /** Declares the subsections listed above. */
+    static void declare_parameters(dealii::ParameterHandler &prm);
+    /**
+     * Reads them and checks what no single subsection can (e.g. periodic
+     * directions with a mesh file); InputError naming the entry otherwise.
+     */
+    void parse_parameters(dealii::ParameterHandler &prm);
+
+    const Lattice                &lattice() const { return lattice_; }
+    const UnitSystem             &units() const { return units_; }
+    const GeometrySettings       &geometry() const { return geometry_; }
+    const PotentialModel         &potential() const { return potential_; }
+    const DiscretisationSettings &discretisation() const { return discretisation_; }
+    /** The settings chosen by a pilot for `discretisation/accuracy`. */
+    void set_discretisation(const DiscretisationSettings &settings) { discretisation_ = settings; }
+    ErrorEstimateSettings         error_estimate() const { return ErrorEstimateSettings(discretisation_); }
+    /** Eigen-solver settings, the energy cutoff converted to solver units. */
+    const EigenSolverSettings    &solver() const { return solver_; }
+    const std::vector<Boundary>  &boundaries() const { return spectrum_.boundaries; }
+    const StudySettings          &study() const { return study_; }
+
+    /** Cell values @f$q_n(\omega_r)@f$ of realisation @p r in solver units. */
+    std::vector<double> solver_cell_values(std::uint64_t r) const;
+    /** The energy grid of `study/energies` in solver units. */
+    std::vector<double> solver_energies() const;
+
+    /**
+     * The discretisation of one solve with bracketing condition @p bracketing:
+     * the box with its periodic directions, or the mesh file. @p halved: the
+     * richer space of the error estimate (mesh size h/2: twice the elements
+     * per cell, or one more refinement of the mesh).
+     */
+    std::unique_ptr<Discretisation> make_discretisation(Boundary bracketing, bool halved = false) const;
+
+    /**
+     * @f$|\Omega|@f$ and, per lattice cell, the volume that carries its value:
+     * the box's, or the mesh's. @p made, if given, is a discretisation of this
+     * model already set up (saves reading the mesh again).
+     */
+    std::pair<double, std::vector<double>> domain_volumes(const Discretisation *made = nullptr) const;
+
+    /**
+     * The records of this study's realisations stored in @p directory, in the
+     * user's unit, with everything needed to tabulate them (summary.h), and the
+     * phase-space count @f$N_{sc}(E)@f$ of the same realisations regenerated
+     * from the counter-based stream. @p parameters_prm: the stored parameter text.
+     */
+    StoredStudy describe_stored(const std::string &directory, const std::string &parameters_prm) const;
+
+    /**
+     * What the analysis needs to know of the model (box, boundaries, energy
+     * grid and its unit, band bottom, a one-paragraph summary), without
+     * records, for a domain of volume @p volume.
+     */
+    AnalysisInput analysis_input(double volume) const;
+
+    /**
+     * Phase-space count of realisation @p r at the grid energies,
+     * @f$N_{sc}(E) = |\Omega|^{-1}\sum_n |\Omega_n|\,N_0(E - q_n)@f$ with
+     * @f$N_0@f$ the free IDS and @f$|\Omega_n|@f$ the volume carrying cell n's
+     * value (@p volumes from domain_volumes()).
+     */
+    std::vector<double> semiclassical_count(std::uint64_t r,
+                                            const std::pair<double, std::vector<double>> &volumes) const;
+
+  private:
+    Lattice                lattice_;
+    UnitSystem             units_;
+    GeometrySettings       geometry_;
+    PotentialModel         potential_;
+    DiscretisationSettings discretisation_;
+    SpectrumSettings       spectrum_;
+    EigenSolverSettings    solver_;
+    StudySettings          study_;
+  };
+
+  /** Every subsection of every command: StudyModel's, `analysis` and `landscape`. */
+  void declare_all_parameters(dealii::ParameterHandler &prm);
+} // namespace alloyspec

@@ -1,0 +1,88 @@
+#include <alloyspec/app/spectrum_settings.h>
+#include <alloyspec/core/errors.h>
+
+#include <deal.II/base/parameter_handler.h>
+#include <deal.II/base/utilities.h>
+
+#include <algorithm>
+#include <cmath>
+#include <string>
+
+namespace alloyspec
+{
+  void SpectrumSettings::declare_parameters(dealii::ParameterHandler &prm)
+  {
+    prm.enter_subsection("spectrum");
+    prm.declare_entry("eigenvalues", "50", dealii::Patterns::Integer(1, 100000),
+                      "Number k of lowest eigenvalues per realisation and boundary condition "
+                      "(a degenerate cluster at the top is kept whole, so a few more may be "
+                      "reported). Ignored when an energy cutoff is set.");
+    prm.declare_entry("energy cutoff", "", dealii::Patterns::Anything(),
+                      "If not empty: compute all eigenvalues at or below this energy instead of a "
+                      "fixed count (their number is first found by an inertia count).");
+    prm.declare_entry("tolerance", "1e-12", dealii::Patterns::Double(1e-15, 1e-4),
+                      "Relative convergence tolerance of the Krylov-Schur iteration.");
+    prm.declare_entry("solver", "tuned", dealii::Patterns::Selection("tuned|baseline"),
+                      "tuned: block shift-and-invert Krylov-Schur (8-32 right-hand sides per "
+                      "sparse solve, full M-orthogonalisation, purified Ritz vectors), the sparse "
+                      "factor's analysis kept across realisations; problems too small for a "
+                      "block basis use single-vector SLEPc Krylov-Schur. baseline: SLEPc "
+                      "Krylov-Schur with the library's defaults, a shift below the spectrum and "
+                      "fresh objects per solve, for benchmarks. Both lists are verified by the "
+                      "same inertia count.");
+    prm.declare_entry("maximum eigenvalues", "5000", dealii::Patterns::Integer(1, 1000000),
+                      "Upper limit on the eigenpairs one solve may be asked for (guards the "
+                      "energy-cutoff mode against a cutoff far above the band edge).");
+    prm.declare_entry("boundary conditions", "dirichlet, neumann",
+                      dealii::Patterns::List(dealii::Patterns::Selection("dirichlet|neumann|periodic"), 1, 3),
+                      "Boundary conditions to solve with, each on all faces of the box, with the "
+                      "same cell values. Dirichlet and Neumann together bracket the "
+                      "infinite-volume IDS from below and above.");
+    prm.declare_entry("periodic directions", "", dealii::Patterns::Anything(),
+                      "Directions (a list of x, y, z) that are periodic in every solve; the "
+                      "conditions of 'boundary conditions' then apply to the faces of the other "
+                      "directions only. Empty: none. A slab: 'x, y'; a wire along z: 'z'. Not "
+                      "allowed together with 'lattice/mesh file'.");
+    prm.leave_subsection();
+  }
+
+  void SpectrumSettings::parse_parameters(dealii::ParameterHandler &prm)
+  {
+    prm.enter_subsection("spectrum");
+    solver.n_eigenvalues = prm.get_integer("eigenvalues");
+    const std::string cutoff = prm.get("energy cutoff");
+    solver.energy_cutoff.reset();
+    if (cutoff.find_first_not_of(" \t") != std::string::npos)
+      {
+        std::size_t used = 0;
+        double      value = 0;
+        try
+          {
+            value = std::stod(cutoff, &used);
+          }
+        catch (const std::exception &)
+          {
+            used = 0;
+          }
+        if (used == 0 || cutoff.find_first_not_of(" \t", used) != std::string::npos ||
+            !std::isfinite(value))
+          throw InputError("parameter 'spectrum/energy cutoff': '" + cutoff +
+                           "' is not a number (allowed: empty, or a finite real number)");
+        solver.energy_cutoff = value;
+      }
+    solver.tolerance       = prm.get_double("tolerance");
+    solver.method          = prm.get("solver");
+    solver.max_eigenvalues = prm.get_integer("maximum eigenvalues");
+    boundaries.clear();
+    for (const auto &name : dealii::Utilities::split_string_list(prm.get("boundary conditions")))
+      {
+        const Boundary bc = boundary_from_string(name, "spectrum/boundary conditions");
+        if (std::find(boundaries.begin(), boundaries.end(), bc) != boundaries.end())
+          throw InputError("parameter 'spectrum/boundary conditions': '" + name +
+                           "' is listed twice (allowed: each of dirichlet, neumann, periodic once)");
+        boundaries.push_back(bc);
+      }
+    periodic_directions = prm.get("periodic directions");
+    prm.leave_subsection();
+  }
+} // namespace alloyspec
