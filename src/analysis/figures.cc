@@ -32,6 +32,19 @@ namespace alloyspec
       return "#2e8b57";
     }
 
+    /**
+     * A boundary condition as legends and captions name it: the names of
+     * Dirichlet and Neumann capitalised, "periodic" as it is.
+     */
+    std::string legend_name(const std::string &boundary)
+    {
+      if (boundary == "dirichlet")
+        return "Dirichlet";
+      if (boundary == "neumann")
+        return "Neumann";
+      return boundary;
+    }
+
     /** Numbers as gnuplot reads them; NaN marks a missing point (breaks lines). */
     std::string num(const double x)
     {
@@ -242,9 +255,9 @@ namespace alloyspec
         const std::size_t c = 2 + 3 * b;
         plot << "data using 1:" << c + 1 << ":" << c + 2 << " with filledcurves fc rgb '"
              << colour(boundaries[b]) << "' fs transparent solid 0.25 noborder title "
-             << gnuplot_string(boundaries[b] + " band") << ", \\\n     data using 1:" << c
+             << gnuplot_string(legend_name(boundaries[b]) + " band") << ", \\\n     data using 1:" << c
              << " with lines lw 2 lc rgb '" << colour(boundaries[b]) << "' title "
-             << gnuplot_string(boundaries[b]) << ", \\\n     ";
+             << gnuplot_string(legend_name(boundaries[b])) << ", \\\n     ";
       }
     const bool has_semi =
       std::any_of(semi.begin(), semi.end(), [](double x) { return std::isfinite(x); });
@@ -302,9 +315,9 @@ namespace alloyspec
              << " with filledcurves fc rgb '" << col
              << "' fs transparent solid 0.25 noborder notitle, \\\n     data using 1:" << c
              << " with lines lw 2 lc rgb '" << col << "' title "
-             << gnuplot_string(boundaries[b] + ", Lorentzian η = " + num(eta))
+             << gnuplot_string(legend_name(boundaries[b]) + ", Lorentzian η = " + num(eta))
              << ", \\\n     data using 1:" << c + 3 << " with lines dt 2 lw 1.5 lc rgb '" << col
-             << "' title " << gnuplot_string(boundaries[b] + ", Gaussian σ = " + num(sigma));
+             << "' title " << gnuplot_string(legend_name(boundaries[b]) + ", Gaussian σ = " + num(sigma));
       }
     plot << "\n";
     const std::string caption =
@@ -352,12 +365,12 @@ namespace alloyspec
         const std::string col = colour(boundaries[b]);
         plot << (b ? ", \\\n     " : "") << "data using 1:" << 2 + 2 * b << ":" << 3 + 2 * b
              << " with yerrorbars pt 7 ps 0.6 lc rgb '" << col << "' title "
-             << gnuplot_string(boundaries[b]);
+             << gnuplot_string(legend_name(boundaries[b]));
         if (std::isfinite(fits[b].slope) && fits[b].window_high > e0)
           plot << ", \\\n     f" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
                << gnuplot_string("fit, slope " + num(std::round(fits[b].slope * 1000) / 1000) +
                                  (fits[b].resolved ? "" : " (not resolved)"));
-        caption << boundaries[b] << ": slope " << fits[b].slope << " [" << fits[b].slope_low
+        caption << legend_name(boundaries[b]) << ": slope " << fits[b].slope << " [" << fits[b].slope_low
                 << ", " << fits[b].slope_high << "]" << (fits[b].resolved ? "" : " (not resolved)")
                 << ". ";
       }
@@ -417,12 +430,12 @@ namespace alloyspec
         const std::string col = colour(boundaries[b]);
         plot << (b ? ", \\\n     " : "") << "data using 1:" << 2 + 2 * b << ":" << 3 + 2 * b
              << " with yerrorbars pt 7 ps 0.5 lc rgb '" << col << "' title "
-             << gnuplot_string(boundaries[b]);
+             << gnuplot_string(legend_name(boundaries[b]));
         if (std::isfinite(fits[b].slope))
           plot << ", \\\n     g" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
                << gnuplot_string("fit, E_U = " + num(std::round(fits[b].urbach_energy * 1e4) / 1e4) +
                                  (fits[b].resolved ? "" : " (not resolved)"));
-        caption << boundaries[b] << ": E_U = " << fits[b].urbach_energy << " ["
+        caption << legend_name(boundaries[b]) << ": E_U = " << fits[b].urbach_energy << " ["
                 << fits[b].urbach_low << ", " << fits[b].urbach_high << "]"
                 << (fits[b].resolved ? "" : " (not resolved: " + fits[b].reason + ")") << ". ";
       }
@@ -459,7 +472,7 @@ namespace alloyspec
       for (std::size_t b = 0; b < boundaries.size(); ++b)
         plot << (b ? ", \\\n     " : "") << "data using 1:" << 2 + 2 * b << ":" << 3 + 2 * b
              << " with yerrorlines pt 7 ps 0.7 lw 1.5 lc rgb '" << colour(boundaries[b])
-             << "' title " << gnuplot_string(boundaries[b]);
+             << "' title " << gnuplot_string(legend_name(boundaries[b]));
       return plot.str();
     }
 
@@ -539,7 +552,7 @@ namespace alloyspec
              << " with filledcurves fc rgb '" << colour(boundaries[b])
              << "' fs transparent solid 0.25 noborder notitle, \\\n     data using 1:" << c
              << " with lines lw 2 lc rgb '" << colour(boundaries[b]) << "' title "
-             << gnuplot_string(boundaries[b] + " → L = ∞");
+             << gnuplot_string(legend_name(boundaries[b]) + " → L = ∞");
       }
     plot << "\n";
     return maker.make("extrapolation", "IDS extrapolated to infinite volume",

@@ -7,6 +7,8 @@
 #include <alloyspec/app/study.h>
 #include <alloyspec/analysis/summary.h>
 #include <alloyspec/app/verify.h>
+#include <alloyspec/io/results_store.h>
+#include <alloyspec/model/energy_grid.h>
 
 #include <deal.II/base/exceptions.h>
 #include <deal.II/base/mpi.h>
@@ -47,7 +49,7 @@ end
 subsection study
   set realisations = 10
   set seed = 1
-  set energies = 0:0.05:3
+  set energies = 0 to 3 by 0.05
 end
 )";
 
@@ -335,13 +337,18 @@ end
             AnalysisSettings         settings;
             for (const auto &folder : summary_inputs)
               {
-                const std::string file = (std::filesystem::path(folder) / "parameters.prm").string();
-                if (!std::filesystem::exists(file))
-                  throw InputError("summarise: '" + folder +
-                                   "' is not a study folder (no parameters.prm)");
+                const std::string file = ResultsStore::stored_parameters_path(folder);
+                if (file.empty())
+                  throw InputError("summarise: '" + folder + "' is not a study folder (no " +
+                                   ResultsStore::parameters_file + ")");
                 dealii::ParameterHandler stored_prm;
                 Study::declare_parameters(stored_prm);
                 read_parameters(stored_prm, file);
+                // Earlier versions stored the grid as "a:h:b"; it means "a to b by h".
+                stored_prm.enter_subsection("study");
+                if (const auto words = energy_grid_in_words(stored_prm.get("energies")))
+                  stored_prm.set("energies", *words);
+                stored_prm.leave_subsection();
                 for (const auto &assignment : summary_overrides)
                   apply_override(stored_prm, assignment);
                 Study s;
@@ -378,7 +385,8 @@ end
             run_inertia_count(prm, count_options);
             if (root)
               std::cout << "Counts in " << count_output
-                        << "/: counts.csv, ids.csv, run.json, parameters.prm\n"
+                        << "/: counts.csv, ids.csv, run.json, " << ResultsStore::parameters_file
+                        << "\n"
                         << "These are model estimates for the stated model and box, not "
                            "measurements.\n";
             return 0;
@@ -455,11 +463,12 @@ end
         if (root)
           {
             std::cout << "Timings (s):";
-            for (const auto &[name, seconds] : study.timings())
+            for (const auto &[name, seconds] : study.phase_timings())
               std::cout << ' ' << name << ' ' << seconds;
             std::cout << "\nResults in " << output
                       << "/: eigenvalues.csv, realisations.csv, ids.csv, dos.csv, tails.json, "
-                         "localisation.csv, figures/, report.html, run.json, parameters.prm\n"
+                         "localisation.csv, figures/, report.html, run.json, "
+                      << ResultsStore::parameters_file << "\n"
                       << "These are model estimates for the stated model and box, not measurements.\n";
           }
         return 0;

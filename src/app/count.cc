@@ -64,7 +64,7 @@ namespace alloyspec
 
     ResultsStore store(options.output_directory, false);
     if (rank == 0)
-      store.write_file("parameters.prm", options.parameters_prm);
+      store.write_file(ResultsStore::parameters_file, options.parameters_prm);
 
     std::map<std::string, double> timings;
     std::string                   error;

@@ -9,6 +9,7 @@
 #include <alloyspec/app/study.h>
 #include <alloyspec/solver/team.h>
 #include <alloyspec/analysis/summary.h>
+#include <alloyspec/model/energy_grid.h>
 #include <alloyspec/model/weyl_law.h>
 
 #include <deal.II/base/mpi.h>
@@ -34,23 +35,29 @@ namespace alloyspec
 {
   namespace
   {
-    /** Adds the wall time of its scope to one entry of a timing table. */
+    /** Adds the wall time of its scope to one entry of a timing table (appended when new). */
     class ScopedTimer
     {
     public:
-      ScopedTimer(std::map<std::string, double> &table, std::string name)
+      ScopedTimer(Study::PhaseTimings &table, std::string name)
         : table_(table)
         , name_(std::move(name))
         , start_(std::chrono::steady_clock::now())
       {}
       ~ScopedTimer()
       {
-        table_[name_] +=
+        const double seconds =
           std::chrono::duration<double>(std::chrono::steady_clock::now() - start_).count();
+        const auto entry = std::find_if(table_.begin(), table_.end(),
+                                        [&](const auto &e) { return e.first == name_; });
+        if (entry == table_.end())
+          table_.emplace_back(name_, seconds);
+        else
+          entry->second += seconds;
       }
 
     private:
-      std::map<std::string, double>        &table_;
+      Study::PhaseTimings                  &table_;
       std::string                           name_;
       std::chrono::steady_clock::time_point start_;
     };
@@ -119,9 +126,10 @@ namespace alloyspec
     prm.declare_entry("seed", "1", dealii::Patterns::Anything(),
                       "Seed of the counter-based random stream (0 to 2^64-1). The value of cell n "
                       "in realisation r depends only on (seed, r, n).");
-    prm.declare_entry("energies", "0:0.1:10", dealii::Patterns::Anything(),
-                      "Energy grid of the IDS table: 'start:step:stop' or a list 'E1, E2, ...' "
-                      "(ascending), in the energy unit of the study.");
+    prm.declare_entry("energies", "0 to 10 by 0.1", dealii::Patterns::Anything(),
+                      "Energy grid of the IDS table, in the energy unit of the study: a range "
+                      "'start to stop by step' (the stop is included when it lies on the grid), "
+                      "or an ascending list 'E1, E2, ...'.");
     prm.declare_entry("export eigenfunctions", "",
                       dealii::Patterns::List(dealii::Patterns::Integer(0, 100000), 0, 100),
                       "Indices (0 = lowest) of eigenfunctions to write as VTU files "
@@ -227,19 +235,20 @@ namespace alloyspec
     throw_if_any_failed(MPI_COMM_WORLD, error, input_error);
     if (error_settings_.accuracy)
       {
-        ScopedTimer t(timings_, "choose_discretisation");
+        ScopedTimer t(timings_, "pilot_choice");
         choose_for_accuracy(root);
       }
-    { ScopedTimer t(timings_, "make_grid");    make_grid(); }
-    { ScopedTimer t(timings_, "setup_system"); setup_system(); }
-    { ScopedTimer t(timings_, "assemble");     assemble(); }
-    { ScopedTimer t(timings_, "solve");        solve(store, options); }
+    // The labels users see (console, run.json) say what each phase produces.
+    { ScopedTimer t(timings_, "mesh");         make_grid(); }
+    { ScopedTimer t(timings_, "unknowns");     setup_system(); }
+    { ScopedTimer t(timings_, "matrices");     assemble(); }
+    { ScopedTimer t(timings_, "eigen_solves"); solve(store, options); }
     // The guard stays up: a stop request that arrives once every realisation
     // is stored lets the (quick) tables be written and the run end normally,
     // rather than die half-way through them; a second signal still ends it.
     if (root)
       {
-        ScopedTimer t(timings_, "postprocess");
+        ScopedTimer t(timings_, "tables");
         postprocess(store, options);
       }
   }
@@ -554,13 +563,18 @@ namespace alloyspec
 
   void Study::check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const
   {
-    const std::string stored_path = store.path("parameters.prm");
-    if (options.resume && std::filesystem::exists(stored_path))
+    // Folders written by earlier versions hold the legacy file name.
+    const std::string stored_path = ResultsStore::stored_parameters_path(store.directory());
+    if (options.resume && !stored_path.empty())
       {
         std::ifstream      in(stored_path);
         std::ostringstream text;
         text << in.rdbuf();
-        const auto before = flatten_parameters(text.str());
+        auto before = flatten_parameters(text.str());
+        // Earlier versions stored the grid as "a:h:b"; it means "a to b by h".
+        if (const auto grid = before.find("study/energies"); grid != before.end())
+          if (const auto words = energy_grid_in_words(grid->second))
+            grid->second = *words;
         const auto now    = flatten_parameters(options.parameters_prm);
         std::string differ;
         for (const auto &[key, value] : now)
@@ -577,7 +591,7 @@ namespace alloyspec
                            "' was run with other parameters; nothing was changed. Differences:" +
                            differ);
       }
-    store.write_file("parameters.prm", options.parameters_prm);
+    store.write_file(ResultsStore::parameters_file, options.parameters_prm);
   }
 
   void Study::postprocess(const ResultsStore &store, const RunOptions &options)

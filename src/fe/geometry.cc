@@ -32,8 +32,9 @@ namespace alloyspec
                       "'cells' x 'cell size', which then only sets the grid of the cell "
                       "potential. Each element takes the value of the cell containing its "
                       "centre. The boundary conditions apply on the whole boundary of the mesh. "
-                      "Empty: the box itself. A relative path is taken from the parameter "
-                      "file's folder.");
+                      "Empty: the box itself. A relative path written in a parameter file is "
+                      "taken from that file's folder; one given with --set, from the working "
+                      "directory.");
     prm.declare_entry("mesh refinements", "0", dealii::Patterns::Anything(),
                       "Number of global refinements of the mesh read from 'mesh file' (0 to 4); "
                       "each halves the element size.");

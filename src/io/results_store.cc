@@ -128,6 +128,16 @@ namespace alloyspec
                        "': " + error.message());
   }
 
+  std::string ResultsStore::stored_parameters_path(const std::string &directory)
+  {
+    std::error_code error;
+    for (const char *name : {parameters_file, legacy_parameters_file})
+      if (const auto file = std::filesystem::path(directory) / name;
+          std::filesystem::is_regular_file(file, error))
+        return file.string();
+    return {};
+  }
+
   std::string ResultsStore::path(const std::string &file) const
   {
     return (std::filesystem::path(directory_) / file).string();

@@ -245,7 +245,9 @@ namespace alloyspec
                       "Tabulated law: path of a text file with one point 'q h(q)' per line, q "
                       "strictly increasing, h(q) >= 0 (at least 2 points). The density is "
                       "linear between the points, zero outside, and is normalised to "
-                      "integral 1 here. Text after '#' and blank lines are ignored.");
+                      "integral 1 here. Text after '#' and blank lines are ignored. A relative "
+                      "path written in a parameter file is taken from that file's folder; one "
+                      "given with --set, from the working directory.");
     prm.declare_entry("values",
                       "0, 1",
                       List(Double(), 1, max_discrete_values),
@@ -258,8 +260,9 @@ namespace alloyspec
     prm.declare_entry("file",
                       "",
                       Anything(),
-                      "File law: path of the cell-values file (relative paths are relative "
-                      "to the working directory). One line per cell: the 0-based integer "
+                      "File law: path of the cell-values file. A relative path written in a "
+                      "parameter file is taken from that file's folder; one given with --set, "
+                      "from the working directory. One line per cell: the 0-based integer "
                       "cell indices (as many as the lattice has directions), then the "
                       "value. Text after '#' and blank lines are ignored; every cell must "
                       "appear exactly once.");

@@ -6,7 +6,7 @@ exe=$1 work=$2 mpirun=${3:-}
 here=$(dirname "$0")
 rm -rf "$work"; mkdir -p "$work"
 args=(--set "lattice/cells=3,3,3" --set study/realisations=3 --set spectrum/eigenvalues=30
-      --set "study/energies=0:0.13:4" --set "spectrum/boundary conditions=dirichlet,neumann,periodic")
+      --set "study/energies=0 to 4 by 0.13" --set "spectrum/boundary conditions=dirichlet,neumann,periodic")
 "$exe" run "${args[@]}" --no-progress --output "$work/run" > "$work/run.log"
 "$exe" count "${args[@]}" --no-progress --output "$work/count" > "$work/count.log"
 python3 "$here/count_vs_run.py" "$work/run" "$work/count"

@@ -10,7 +10,7 @@ rm -rf "$work"; mkdir -p "$work"
 # Small but not instant: each realisation takes a noticeable fraction of a second,
 # so the kills land inside solves as well as between them.
 args=(--set "lattice/cells=3,3,3" --set study/realisations=14 --set spectrum/eigenvalues=20
-      --set "study/energies=0:0.1:4" --no-progress)
+      --set "study/energies=0 to 4 by 0.1" --no-progress)
 fail() { echo "FAIL: $*"; exit 1; }
 
 "$exe" run "${args[@]}" --output "$work/straight" > "$work/straight.log" 2>&1 \

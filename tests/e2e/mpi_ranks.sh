@@ -10,7 +10,7 @@ rm -rf "$work"; mkdir -p "$work"
 mpi=(mpirun --allow-run-as-root --oversubscribe -np 2)
 # 5 realisations: the last round leaves rank 1 idle, the case most likely to hang.
 args=(--set "lattice/cells=3,3,3" --set study/realisations=5 --set spectrum/eigenvalues=15
-      --set "study/energies=0:0.1:4" --no-progress)
+      --set "study/energies=0 to 4 by 0.1" --no-progress)
 fail() { echo "FAIL: $*"; exit 1; }
 
 "$exe" run "${args[@]}" --output "$work/one" > "$work/one.log" 2>&1 \
@@ -28,7 +28,7 @@ python3 "$here/compare_studies.py" "$work/one" "$work/two" || fail "1 and 2 rank
 # block solver (4913 unknowns) and one small enough for the single-vector path.
 for cells in 4,4,4 3,3,3; do
   team=(--set "lattice/cells=$cells" --set study/realisations=2 --set spectrum/eigenvalues=30
-        --set "study/energies=0:0.1:4" --no-progress)
+        --set "study/energies=0 to 4 by 0.1" --no-progress)
   "$exe" run "${team[@]}" --output "$work/team_one_$cells" > "$work/team_one.log" 2>&1 \
     || fail "1 rank ($cells): $(cat "$work/team_one.log")"
   timeout 300 "${mpi[@]}" "$exe" run "${team[@]}" --ranks-per-realisation 2 \

@@ -8,15 +8,6 @@
 namespace alloyspec
 {
   /**
-   * Parses an energy grid: "a:h:b" (a, a+h, ..., up to b inclusive within
-   * 1e-9 h; h > 0, b ≥ a) or a comma-separated ascending list "0, 0.5, 2".
-   * Throws InputError naming @p parameter_name on a malformed grid or one with
-   * more than 1e6 points.
-   */
-  std::vector<double> parse_energy_grid(const std::string &text,
-                                        const std::string &parameter_name = "study/energies");
-
-  /**
    * Finite-volume counting function @f$N_L(E) = \#\{\lambda_j \le E\}/|\Lambda|@f$
    * of one realisation, on @p energies. @p eigenvalues need not be sorted.
    */

@@ -37,7 +37,7 @@ namespace alloyspec
     std::uint64_t         first_realisation = 0;
     std::uint64_t         seed              = 1;
     std::vector<double>   energies;
-    std::string           energies_text = "0:0.1:10";
+    std::string           energies_text = "0 to 10 by 0.1";
     std::vector<Boundary> boundaries{Boundary::dirichlet, Boundary::neumann};
     /** Eigenfunction indices written as VTU for the realisations below. */
     std::vector<unsigned int>  export_eigenfunctions;
@@ -61,7 +61,7 @@ namespace alloyspec
     unsigned int ranks_per_realisation = 1;
     /** Effective parameters as JSON, copied into run.json. */
     std::string parameters_json;
-    /** Effective parameters in deal.II's short format, stored as parameters.prm. */
+    /** Effective parameters in deal.II's short format, stored as ResultsStore::parameters_file. */
     std::string parameters_prm;
   };
 
@@ -90,10 +90,20 @@ namespace alloyspec
     static void declare_parameters(dealii::ParameterHandler &prm);
     void        parse_parameters(dealii::ParameterHandler &prm);
 
-    /** make_grid, setup_system, assemble, solve, postprocess — each timed. */
+    /**
+     * make_grid, setup_system, assemble, solve, postprocess — each timed, and
+     * reported under the labels of phase_timings().
+     */
     void run(const RunOptions &options);
 
-    const std::map<std::string, double> &timings() const { return timings_; }
+    /** Seconds per phase in the order run: (label, seconds). */
+    using PhaseTimings = std::vector<std::pair<std::string, double>>;
+    /**
+     * Labels: pilot_choice (degree and mesh for an accuracy target), mesh,
+     * unknowns (degrees of freedom and sparsity), matrices (the fixed K and M),
+     * eigen_solves (all realisations), tables (tables, figures, report).
+     */
+    const PhaseTimings &phase_timings() const { return timings_; }
     const AnalysisSettings              &analysis_settings() const { return analysis_; }
 
     /**
@@ -109,7 +119,10 @@ namespace alloyspec
     void assemble();
     void solve(const ResultsStore &store, const RunOptions &options);
     void postprocess(const ResultsStore &store, const RunOptions &options);
-    /** Stores parameters.prm; on resume, refuses other model parameters than stored. */
+    /**
+     * Stores ResultsStore::parameters_file; on resume, refuses other model
+     * parameters than those stored (under either file name).
+     */
     void check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const;
 
     /** Pilot solve for `discretisation/accuracy`: sets degree and elements per cell. */
@@ -151,7 +164,7 @@ namespace alloyspec
     std::unique_ptr<RealisationTeams>             teams_;
     std::unique_ptr<EigenSolver>                  solver_;
     std::vector<std::unique_ptr<ErrorEstimator>>  estimators_; ///< per boundary, if estimating
-    std::map<std::string, double>                 timings_;
+    PhaseTimings                                  timings_;
     std::size_t                                   solved_here_ = 0;
     std::string                                   output_directory_;
   };

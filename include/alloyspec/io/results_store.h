@@ -53,6 +53,20 @@ namespace alloyspec
       "potential_max,solve_seconds,attempts";
 
     /**
+     * The effective parameters of a study, in deal.II's short format, written
+     * into its folder when it starts; `--resume` and `summarise` read them.
+     */
+    static constexpr const char *parameters_file = "as_run.prm";
+    /** The name of that file in folders written by earlier versions; still read. */
+    static constexpr const char *legacy_parameters_file = "parameters.prm";
+
+    /**
+     * Path of the stored parameter file in @p directory: parameters_file if it
+     * exists, else legacy_parameters_file if that exists, else an empty string.
+     */
+    static std::string stored_parameters_path(const std::string &directory);
+
+    /**
      * Opens @p directory for a new study: creates it if needed; throws
      * InputError if it already holds results of an earlier study (nothing is
      * deleted), unless @p resume is set, in which case the stored records are

@@ -195,6 +195,13 @@ TEST(Analysis, WritesTablesFiguresAndSelfContainedReport)
   // points in the automatic Lifshitz window: that fit must say it is not resolved.
   EXPECT_NE(tails.find("\"resolved\": false"), std::string::npos);
 
+  // Legends name the boundary conditions with capitals, as the names of people.
+  const std::string ids_script = slurp(dir + "/figures/ids.gp");
+  for (const char *legend : {"title 'Dirichlet'", "title 'Neumann'", "title 'Dirichlet band'"})
+    EXPECT_NE(ids_script.find(legend), std::string::npos) << legend;
+  EXPECT_EQ(ids_script.find("title 'dirichlet"), std::string::npos);
+  EXPECT_EQ(slurp(dir + "/figures/dos.gp").find("title 'neumann"), std::string::npos);
+
   const std::string html = slurp(dir + "/report.html");
   EXPECT_NE(html.find("Dirichlet–Neumann bracketing per realisation"), std::string::npos);
   EXPECT_EQ(html.find("class=\"fail\""), std::string::npos);
