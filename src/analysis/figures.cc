@@ -1,5 +1,6 @@
 /** @file figures.cc  gnuplot scripts and data files for the analysis figures. */
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
 #include <alloyspec/analysis/figures.h>
 
 #include <algorithm>
@@ -32,28 +33,12 @@ namespace alloyspec
       return "#2e8b57";
     }
 
-    /**
-     * A boundary condition as legends and captions name it: the names of
-     * Dirichlet and Neumann capitalised, "periodic" as it is.
-     */
-    std::string legend_name(const std::string &boundary)
-    {
-      if (boundary == "dirichlet")
-        return "Dirichlet";
-      if (boundary == "neumann")
-        return "Neumann";
-      return boundary;
-    }
-
     /** Numbers as gnuplot reads them; NaN marks a missing point (breaks lines). */
     std::string num(const double x)
     {
       if (!std::isfinite(x))
         return "NaN";
-      std::ostringstream s;
-      s.precision(10);
-      s << x;
-      return s.str();
+      return csv_number(x); // full precision, like every table
     }
 
     /** Column @p name of @p table, or an empty vector. */
@@ -76,6 +61,15 @@ namespace alloyspec
              "set samples 400\n";
     }
   } // namespace
+
+  std::string legend_name(const std::string &boundary)
+  {
+    if (boundary == "dirichlet")
+      return "Dirichlet";
+    if (boundary == "neumann")
+      return "Neumann";
+    return boundary;
+  }
 
   std::string gnuplot_string(const std::string &text)
   {
@@ -315,9 +309,10 @@ namespace alloyspec
              << " with filledcurves fc rgb '" << col
              << "' fs transparent solid 0.25 noborder notitle, \\\n     data using 1:" << c
              << " with lines lw 2 lc rgb '" << col << "' title "
-             << gnuplot_string(legend_name(boundaries[b]) + ", Lorentzian η = " + num(eta))
+             << gnuplot_string(legend_name(boundaries[b]) + ", Lorentzian η = " + short_number(eta, 3))
              << ", \\\n     data using 1:" << c + 3 << " with lines dt 2 lw 1.5 lc rgb '" << col
-             << "' title " << gnuplot_string(legend_name(boundaries[b]) + ", Gaussian σ = " + num(sigma));
+             << "' title "
+             << gnuplot_string(legend_name(boundaries[b]) + ", Gaussian σ = " + short_number(sigma, 3));
       }
     plot << "\n";
     const std::string caption =
@@ -368,7 +363,7 @@ namespace alloyspec
              << gnuplot_string(legend_name(boundaries[b]));
         if (std::isfinite(fits[b].slope) && fits[b].window_high > e0)
           plot << ", \\\n     f" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
-               << gnuplot_string("fit, slope " + num(std::round(fits[b].slope * 1000) / 1000) +
+               << gnuplot_string("fit, slope " + short_number(fits[b].slope, 3) +
                                  (fits[b].resolved ? "" : " (not resolved)"));
         caption << legend_name(boundaries[b]) << ": slope " << fits[b].slope << " [" << fits[b].slope_low
                 << ", " << fits[b].slope_high << "]" << (fits[b].resolved ? "" : " (not resolved)")
@@ -377,9 +372,9 @@ namespace alloyspec
     plot << "\n";
     const double expected = fits.empty() ? 0.0 : fits[0].expected_slope;
     return maker.make("lifshitz", "Lifshitz tail: ln(−ln n) against ln(E − E₀)",
-                      "Bottom of the spectrum, E₀ = " + num(e0) +
+                      "Bottom of the spectrum, E₀ = " + short_number(e0) +
                         ". Lines: weighted least-squares fits over the Lifshitz window. " +
-                        caption.str() + "Asymptotic Lifshitz slope −d/2 = " + num(expected) +
+                        caption.str() + "Asymptotic Lifshitz slope −d/2 = " + short_number(expected) +
                         " (Lifshitz 1964; Kirsch & Martinelli 1983).",
                       data.str(), plot.str());
   }
@@ -433,7 +428,7 @@ namespace alloyspec
              << gnuplot_string(legend_name(boundaries[b]));
         if (std::isfinite(fits[b].slope))
           plot << ", \\\n     g" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
-               << gnuplot_string("fit, E_U = " + num(std::round(fits[b].urbach_energy * 1e4) / 1e4) +
+               << gnuplot_string("fit, E_U = " + short_number(fits[b].urbach_energy, 3) +
                                  (fits[b].resolved ? "" : " (not resolved)"));
         caption << legend_name(boundaries[b]) << ": E_U = " << fits[b].urbach_energy << " ["
                 << fits[b].urbach_low << ", " << fits[b].urbach_high << "]"
@@ -558,7 +553,7 @@ namespace alloyspec
     return maker.make("extrapolation", "IDS extrapolated to infinite volume",
                       "Weighted least-squares fit N_L = N∞ + c/L over the box sizes, per energy "
                       "and boundary condition; band: interval at confidence " +
-                        num(confidence) + ".",
+                        short_number(confidence) + ".",
                       data.str(), plot.str());
   }
 } // namespace alloyspec

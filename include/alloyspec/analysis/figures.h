@@ -72,6 +72,12 @@ namespace alloyspec
   std::string gnuplot_string(const std::string &text);
 
   /**
+   * A boundary condition ("dirichlet", "neumann", "periodic") as legends and
+   * captions name it: Dirichlet and Neumann capitalised, "periodic" as it is.
+   */
+  std::string legend_name(const std::string &boundary);
+
+  /**
    * IDS per boundary with its band, and the semiclassical count, from an ids.csv
    * table (columns read by name: energy, ids_<bc>, stderr_<bc>, complete_<bc>,
    * semiclassical). Band columns lower_<bc>/upper_<bc>, if present, are drawn;
