@@ -7,6 +7,8 @@
 #include <alloyspec/app/study.h>
 #include <alloyspec/analysis/summary.h>
 #include <alloyspec/app/verify.h>
+#include <alloyspec/io/folder_lock.h>
+#include <alloyspec/io/results_store.h>
 
 #include <deal.II/base/exceptions.h>
 #include <deal.II/base/mpi.h>
@@ -335,10 +337,12 @@ end
             AnalysisSettings         settings;
             for (const auto &folder : summary_inputs)
               {
+                if (!std::filesystem::is_directory(folder))
+                  throw InputError("summarise: '" + folder + "' is not a folder (allowed: "
+                                   "study folders written by 'alloyspec run')");
+                // Missing or empty: refused, never read as the defaults.
+                (void)ResultsStore::read_stored_parameters(folder);
                 const std::string file = (std::filesystem::path(folder) / "parameters.prm").string();
-                if (!std::filesystem::exists(file))
-                  throw InputError("summarise: '" + folder +
-                                   "' is not a study folder (no parameters.prm)");
                 dealii::ParameterHandler stored_prm;
                 Study::declare_parameters(stored_prm);
                 read_parameters(stored_prm, file);
@@ -352,6 +356,13 @@ end
               }
             if (root)
               {
+                std::error_code error;
+                std::filesystem::create_directories(summary_output, error);
+                if (error || !std::filesystem::is_directory(summary_output))
+                  throw InputError("option '--output': cannot use '" + summary_output +
+                                   "' as a folder" + (error ? ": " + error.message() : ""));
+                // Nobody else writes there while the tables are rewritten.
+                const FolderLock lock(summary_output, "summarise into it");
                 for (const auto &warning : summarise_studies(summary_output, stored, settings))
                   std::cerr << "alloyspec: warning: " << warning << '\n';
                 std::cout << "Tables, figures and report written to " << summary_output << "/\n"
