@@ -74,6 +74,16 @@ end
      */
     void parse_study(Study &study, dealii::ParameterHandler &prm)
     {
+      // deal.II reads "{a|b}" as a loop over values (which we do not run) and
+      // then skips the entry's pattern check, so a brace would reach our
+      // parsers unchecked.
+      std::ostringstream text;
+      prm.print_parameters(text, dealii::ParameterHandler::ShortPRM);
+      for (const auto &[key, value] : flatten_parameters(text.str()))
+        if (value.find_first_of("{}") != std::string::npos)
+          throw InputError("parameter '" + key + "': '" + value +
+                           "' is not allowed: braces are not part of any value (see "
+                           "'alloyspec parameters' for the entry's allowed values)");
       try
         {
           study.parse_parameters(prm);
@@ -422,7 +432,8 @@ end
         read_parameters(prm, config);
         for (const auto &assignment : overrides)
           apply_override(prm, assignment);
-        if (!seed.empty())
+        // Given but empty is not "not given".
+        if (run->get_option("--seed")->count() > 0)
           apply_override(prm, "study/seed=" + seed);
         // Stored parameters name data files absolutely, so that a study
         // folder can be summarised or resumed from anywhere.

@@ -153,10 +153,12 @@ namespace alloyspec
     energies          = parse_energy_grid(energies_text, "study/energies");
     export_eigenfunctions.clear();
     for (const auto &x : dealii::Utilities::split_string_list(prm.get("export eigenfunctions")))
-      export_eigenfunctions.push_back(static_cast<unsigned int>(std::stoul(x)));
+      export_eigenfunctions.push_back(
+        static_cast<unsigned int>(parse_count(x, "study/export eigenfunctions", 0, 100000)));
     export_realisations.clear();
     for (const auto &x : dealii::Utilities::split_string_list(prm.get("export realisations")))
-      export_realisations.push_back(std::stoull(x));
+      export_realisations.push_back(
+        parse_count(x, "study/export realisations", 0, max_realisations - 1));
     prm.leave_subsection();
     prm.enter_subsection("spectrum");
     boundaries.clear();
@@ -210,6 +212,10 @@ namespace alloyspec
           throw InputError("parameter 'spectrum/boundary conditions': 'periodic' is not allowed "
                            "with 'lattice/mesh file' (allowed: dirichlet, neumann)");
     analysis_.parse_parameters(prm);
+    // Checked here too, although only `landscape` uses them: a run accepts no
+    // entry it has not checked.
+    LandscapeSettings landscape;
+    landscape.parse_parameters(prm);
   }
 
   void Study::run(const RunOptions &options)
