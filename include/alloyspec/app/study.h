@@ -120,10 +120,11 @@ namespace alloyspec
     void solve(const ResultsStore &store, const RunOptions &options);
     void postprocess(const ResultsStore &store, const RunOptions &options);
     /**
-     * Stores ResultsStore::parameters_file; on resume, refuses other model
-     * parameters than those stored (under either file name).
+     * Stores ResultsStore::parameters_file (read under either name); on resume, refuses other model parameters than
+     * stored, and a folder whose records have lost their parameter file.
+     * Returns true if the file did not exist before.
      */
-    void check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const;
+    bool check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const;
 
     /** Pilot solve for `discretisation/accuracy`: sets degree and elements per cell. */
     void choose_for_accuracy(bool root);
@@ -166,6 +167,8 @@ namespace alloyspec
     std::vector<std::unique_ptr<ErrorEstimator>>  estimators_; ///< per boundary, if estimating
     PhaseTimings                                  timings_;
     std::size_t                                   solved_here_ = 0;
+    /** Rank 0: a record of this run reached the folder (a failure then keeps the folder). */
+    bool                                          stored_any_ = false;
     std::string                                   output_directory_;
   };
 } // namespace alloyspec
