@@ -103,7 +103,8 @@ namespace alloyspec
     return std::to_string(realisation) + "," + boundary + "," + std::to_string(eigenvalues.size()) +
            "," + full_precision(complete_up_to) + "," + std::to_string(inertia_count) + "," +
            full_precision(potential_min) + "," + full_precision(potential_max) + "," +
-           full_precision(solve_seconds) + "," + std::to_string(attempts) + "\n";
+           full_precision(solve_seconds) + "," + std::to_string(attempts) + "," +
+           full_precision(log_weight) + "\n";
   }
 
   ResultsStore::ResultsStore(std::string directory, bool resume)
@@ -185,14 +186,20 @@ namespace alloyspec
     std::ifstream summary(fs::path(directory) / "realisations.csv");
     std::string   line;
     std::getline(summary, line); // header
+    // The header says whether lines carry the log weight: a line of a newer
+    // folder torn after its ninth field must not pass as an older line.
+    const std::size_t summary_fields = line.find("log_weight") != std::string::npos ? 10 : 9;
     while (std::getline(summary, line))
       {
         if (summary.eof())
           break; // no newline: a torn last line from a crash
         const auto f = split(line, ',');
-        if (f.size() != 9)
+        // 10 fields; folders written before tilted sampling have 9 (log weight 0).
+        if (f.size() != summary_fields)
           continue;
         RealisationRecord r;
+        if (f.size() == 10 && !parse_double(f[9], r.log_weight))
+          continue;
         double            values[7];
         bool              ok = true;
         const int         numeric[] = {0, 2, 3, 4, 5, 6, 7};
@@ -200,7 +207,7 @@ namespace alloyspec
           ok = ok && parse_double(f[numeric[i]], values[i]);
         double attempts = 0;
         // The last field too: a line torn just after its last comma has all fields.
-        if (!ok || !parse_double(f[8], attempts))
+        if (!ok || !parse_double(f[8], attempts) || !std::isfinite(r.log_weight))
           continue;
         r.realisation    = static_cast<std::uint64_t>(values[0]);
         r.boundary       = f[1];

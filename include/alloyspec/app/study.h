@@ -7,6 +7,7 @@
 #include <alloyspec/fe/geometry.h>
 #include <alloyspec/model/lattice.h>
 #include <alloyspec/model/potential_model.h>
+#include <alloyspec/model/sampling.h>
 #include <alloyspec/analysis/spectral_analysis.h>
 #include <alloyspec/model/units.h>
 
@@ -143,6 +144,7 @@ namespace alloyspec
     /** Set when `discretisation/accuracy` chose degree and elements per cell. */
     std::optional<DiscretisationChoice> discretisation_choice_;
     StudySettings          study_;
+    SamplingSettings       sampling_;
     AnalysisSettings       analysis_;
 
     std::vector<std::unique_ptr<Discretisation>>  discretisations_;
