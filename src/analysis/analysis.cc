@@ -1,6 +1,8 @@
 /** @file analysis.cc  From stored spectra to tables, tail fits, figures and report.html. */
 #include <alloyspec/analysis/analysis.h>
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
+#include <alloyspec/io/manifest.h>
 #include <alloyspec/analysis/figures.h>
 #include <alloyspec/analysis/report.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
@@ -20,16 +22,6 @@ namespace alloyspec
   {
     constexpr double nan = std::numeric_limits<double>::quiet_NaN();
 
-    std::string num(const double x)
-    {
-      if (!std::isfinite(x))
-        return "";
-      std::ostringstream s;
-      s.precision(10);
-      s << x;
-      return s.str();
-    }
-
     /** Short form for tables of the report. */
     std::string brief(const double x)
     {
@@ -43,37 +35,11 @@ namespace alloyspec
       return s.str();
     }
 
-    std::string json_number(const double x) { return std::isfinite(x) ? num(x) : "null"; }
-
-    std::string json_string(const std::string &s)
-    {
-      std::string out = "\"";
-      for (const char c : s)
-        {
-          if (c == '"' || c == '\\')
-            out += '\\', out += c;
-          else if (c == '\n')
-            out += "\\n";
-          else if (static_cast<unsigned char>(c) < 0x20)
-            out += ' ';
-          else
-            out += c;
-        }
-      return out + "\"";
-    }
-
-    /** Writes @p content to @p path through a temporary file and a rename. */
+    /** Writes @p content to @p path atomically (temporary file, then rename). */
     void write_text(const std::string &path, const std::string &content)
     {
-      const std::string temporary = path + ".tmp";
-      {
-        std::ofstream out(temporary, std::ios::binary);
-        out << content;
-        out.flush();
-        if (!out)
-          throw InputError(path + ": cannot write the file");
-      }
-      std::filesystem::rename(temporary, path);
+      const std::filesystem::path p(path);
+      ResultsStore::write_file_in(p.parent_path().string(), p.filename().string(), content);
     }
 
     /** Everything computed for one boundary condition. */
@@ -129,6 +95,12 @@ namespace alloyspec
       return a;
     }
 
+    /** @p x where the row is complete, the missing marker where it is not (never an under-count). */
+    std::string if_complete(const bool complete, const double x)
+    {
+      return csv_number(complete ? x : std::numeric_limits<double>::quiet_NaN());
+    }
+
     std::string ids_band_csv(const std::vector<BoundaryAnalysis> &all,
                              const std::vector<double> &energies)
     {
@@ -140,10 +112,14 @@ namespace alloyspec
       csv << '\n';
       for (std::size_t i = 0; i < energies.size(); ++i)
         {
-          csv << num(energies[i]);
+          csv << csv_number(energies[i]);
           for (const auto &a : all)
-            csv << ',' << num(a.band[i].mean) << ',' << num(a.band[i].lower) << ','
-                << num(a.band[i].upper) << ',' << (a.band[i].complete ? 1 : 0);
+            {
+              const auto &r = a.band[i];
+              csv << ',' << if_complete(r.complete, r.mean) << ','
+                  << if_complete(r.complete, r.lower) << ',' << if_complete(r.complete, r.upper)
+                  << ',' << (r.complete ? 1 : 0);
+            }
           csv << '\n';
         }
       return csv.str();
@@ -160,20 +136,27 @@ namespace alloyspec
       csv << '\n';
       for (std::size_t i = 0; i < energies.size(); ++i)
         {
-          csv << num(energies[i]);
+          csv << csv_number(energies[i]);
           for (const auto &a : all)
             for (const auto *rows : {&a.lorentzian, &a.gaussian})
-              csv << ',' << num((*rows)[i].mean) << ',' << num((*rows)[i].standard_error) << ','
-                  << ((*rows)[i].complete ? 1 : 0);
+              {
+                const auto &r = (*rows)[i];
+                csv << ',' << if_complete(r.complete, r.mean) << ','
+                    << if_complete(r.complete, r.standard_error) << ',' << (r.complete ? 1 : 0);
+              }
           csv << '\n';
         }
       return csv.str();
     }
 
-    std::string localisation_csv(const std::vector<BoundaryAnalysis> &all)
+    /** Bin edges carry the energy unit in their name in physical units ("bin_low_eV"). */
+    std::string localisation_csv(const std::vector<BoundaryAnalysis> &all, const AnalysisInput &in)
     {
+      const std::string unit = in.solver_energy_unit > 0.0 && in.energy_column.rfind("energy_", 0) == 0 ?
+                                 in.energy_column.substr(6) :
+                                 std::string();
       std::ostringstream csv;
-      csv << "bin_low,bin_high";
+      csv << "bin_low" << unit << ",bin_high" << unit;
       for (const auto &a : all)
         csv << ",ratio_" << a.name << ",ratio_stderr_" << a.name << ",ratio_count_" << a.name
             << ",ipr_" << a.name << ",ipr_stderr_" << a.name << ",ipr_count_" << a.name;
@@ -181,57 +164,64 @@ namespace alloyspec
       const std::size_t n = all.empty() ? 0 : all[0].ratios.size();
       for (std::size_t b = 0; b < n; ++b)
         {
-          csv << num(all[0].ratios[b].lower) << ',' << num(all[0].ratios[b].upper);
+          csv << csv_number(all[0].ratios[b].lower) << ',' << csv_number(all[0].ratios[b].upper);
           for (const auto &a : all)
-            csv << ',' << num(a.ratios[b].mean) << ',' << num(a.ratios[b].standard_error) << ','
-                << a.ratios[b].count << ',' << num(a.ipr[b].mean) << ','
-                << num(a.ipr[b].standard_error) << ',' << a.ipr[b].count;
+            csv << ',' << csv_number(a.ratios[b].mean) << ',' << csv_number(a.ratios[b].standard_error) << ','
+                << a.ratios[b].count << ',' << csv_number(a.ipr[b].mean) << ','
+                << csv_number(a.ipr[b].standard_error) << ',' << a.ipr[b].count;
           csv << '\n';
         }
       return csv.str();
     }
 
-    std::string fit_json(const TailFit &f, bool lifshitz)
+    Json fit_json(const TailFit &f, bool lifshitz)
     {
-      std::ostringstream j;
-      j << "{\"resolved\": " << (f.resolved ? "true" : "false")
-        << ", \"reason\": " << json_string(f.reason)
-        << ", \"window\": [" << json_number(f.window_low) << ", " << json_number(f.window_high)
-        << "], \"points\": " << f.points << ", \"states\": " << f.states
-        << ", \"realisations\": " << f.realisations << ", \"slope\": " << json_number(f.slope)
-        << ", \"slope_stderr\": " << json_number(f.slope_error) << ", \"slope_interval\": ["
-        << json_number(f.slope_low) << ", " << json_number(f.slope_high)
-        << "], \"intercept\": " << json_number(f.intercept)
-        << ", \"chi_squared\": " << json_number(f.chi_squared) << ", \"dof\": " << f.dof;
+      Json j;
+      j["resolved"]       = f.resolved;
+      j["reason"]         = f.reason;
+      j["window"]         = {json_number(f.window_low), json_number(f.window_high)};
+      j["points"]         = f.points;
+      j["states"]         = f.states;
+      j["realisations"]   = f.realisations;
+      j["slope"]          = json_number(f.slope);
+      j["slope_stderr"]   = json_number(f.slope_error);
+      j["slope_interval"] = {json_number(f.slope_low), json_number(f.slope_high)};
+      j["intercept"]      = json_number(f.intercept);
+      j["chi_squared"]    = json_number(f.chi_squared);
+      j["dof"]            = f.dof;
       if (lifshitz)
-        j << ", \"expected_slope\": " << json_number(f.expected_slope)
-          << ", \"consistent_with_expected\": " << (f.consistent ? "true" : "false");
+        {
+          j["expected_slope"]           = json_number(f.expected_slope);
+          j["consistent_with_expected"] = f.consistent;
+        }
       else
-        j << ", \"urbach_energy\": " << json_number(f.urbach_energy) << ", \"urbach_interval\": ["
-          << json_number(f.urbach_low) << ", " << json_number(f.urbach_high)
-          << "], \"reference_energy\": " << json_number(f.reference_energy);
-      j << "}";
-      return j.str();
+        {
+          j["urbach_energy"]    = json_number(f.urbach_energy);
+          j["urbach_interval"]  = {json_number(f.urbach_low), json_number(f.urbach_high)};
+          j["reference_energy"] = json_number(f.reference_energy);
+        }
+      return j;
     }
 
-    std::string tails_json(const std::vector<BoundaryAnalysis> &all, const AnalysisInput &in,
-                           const AnalysisSettings &s)
+    Json tails_json(const std::vector<BoundaryAnalysis> &all, const AnalysisInput &in,
+                    const AnalysisSettings &s)
     {
-      std::ostringstream j;
-      j << "{\n  \"band_bottom\": " << json_number(in.band_bottom)
-        << ",\n  \"dimension\": " << in.dimension
-        << ",\n  \"confidence_level\": " << json_number(s.confidence_level)
-        << ",\n  \"gaussian_width\": " << json_number(s.gaussian_width)
-        << ",\n  \"energy_unit\": " << json_string(in.energy_unit) << ",\n  \"lifshitz\": {";
-      for (std::size_t b = 0; b < all.size(); ++b)
-        j << (b ? "," : "") << "\n    " << json_string(all[b].name) << ": "
-          << fit_json(all[b].lifshitz, true);
-      j << "\n  },\n  \"urbach\": {";
-      for (std::size_t b = 0; b < all.size(); ++b)
-        j << (b ? "," : "") << "\n    " << json_string(all[b].name) << ": "
-          << fit_json(all[b].urbach, false);
-      j << "\n  }\n}\n";
-      return j.str();
+      Json j                 = manifest_header("tail fits");
+      j["band_bottom"]       = json_number(in.band_bottom);
+      j["dimension"]         = in.dimension;
+      j["confidence_level"]  = json_number(s.confidence_level);
+      j["gaussian_width"]    = json_number(s.gaussian_width);
+      j["energy_unit"]       = in.energy_unit;
+      j["missing_value"]     = "null";
+      Json lifshitz = Json::object(), urbach = Json::object();
+      for (const auto &a : all)
+        {
+          lifshitz[a.name] = fit_json(a.lifshitz, true);
+          urbach[a.name]   = fit_json(a.urbach, false);
+        }
+      j["lifshitz"] = lifshitz;
+      j["urbach"]   = urbach;
+      return j;
     }
 
     /** IDS table for the figure: ids.csv by name if there is one, else from the records. */
@@ -333,8 +323,8 @@ namespace alloyspec
 
       write_text(output_dir + "/ids_band.csv", with_energy_columns(ids_band_csv(all, in.energies), in));
       write_text(output_dir + "/dos.csv", with_energy_columns(dos_csv(all, in.energies), in));
-      write_text(output_dir + "/localisation.csv", localisation_csv(all));
-      write_text(output_dir + "/tails.json", tails_json(all, in, s));
+      write_text(output_dir + "/localisation.csv", localisation_csv(all, in));
+      write_json_file(output_dir, "tails.json", tails_json(all, in, s));
 
       const double cell_volume = std::pow(in.cell_size, double(in.dimension));
       FigureMaker  maker(output_dir + "/figures", s.figure_formats, in.energy_unit);
@@ -461,7 +451,7 @@ namespace alloyspec
             continue;
           }
         const double e = std::strtod(first.c_str(), nullptr);
-        out << first << ',' << num(e / input.solver_energy_unit) << rest << '\n';
+        out << first << ',' << csv_number(e / input.solver_energy_unit) << rest << '\n';
       }
     return out.str();
   }
@@ -472,116 +462,25 @@ namespace alloyspec
     return analyse(output_dir, input, settings, ReportContent{});
   }
 
-  std::vector<std::string> write_summary(const std::string                &output_dir,
-                                         const std::vector<AnalysisInput> &studies,
-                                         const AnalysisSettings           &settings)
+  std::vector<std::string> write_analysis(const std::string &output_dir, const AnalysisInput &input,
+                                          const AnalysisSettings &settings, ReportContent report)
   {
-    if (studies.size() < 2)
-      throw InputError("summarise: need at least two studies (box sizes) to extrapolate");
-    for (const auto &s : studies)
-      if (s.energies != studies[0].energies || s.dimension != studies[0].dimension ||
-          !(s.volume > 0.0) || !(s.cell_size > 0.0))
-        throw InputError("summarise: all studies must share the energy grid and the dimension "
-                         "and have a positive volume and cell size");
-    const auto &energies = studies[0].energies;
-    const double d       = double(studies[0].dimension);
-    std::vector<double> sizes;
-    std::size_t         largest = 0;
-    for (std::size_t k = 0; k < studies.size(); ++k)
-      {
-        const auto &s = studies[k];
-        sizes.push_back(std::pow(s.volume / std::pow(s.cell_size, d), 1.0 / d));
-        if (sizes.back() > sizes[largest])
-          largest = k;
-      }
-    std::filesystem::create_directories(output_dir);
-
-    // Per boundary and energy: N_L from every study where it is complete.
-    const auto &bcs = studies[largest].boundaries;
-    std::vector<std::vector<Extrapolation>> fits(bcs.size(), std::vector<Extrapolation>(energies.size()));
-    std::vector<std::vector<bool>>          ok(bcs.size(), std::vector<bool>(energies.size(), false));
-    for (std::size_t b = 0; b < bcs.size(); ++b)
-      {
-        std::vector<std::vector<IdsAccumulator::Row>> rows;
-        for (const auto &s : studies)
-          {
-            IdsAccumulator acc(energies, s.volume);
-            for (const auto &r : s.records)
-              if (r.boundary == bcs[b])
-                acc.add(r.eigenvalues, r.complete_up_to);
-            rows.push_back(acc.rows());
-          }
-        for (std::size_t i = 0; i < energies.size(); ++i)
-          {
-            std::vector<double> l, m, e;
-            for (std::size_t k = 0; k < studies.size(); ++k)
-              if (rows[k][i].complete && rows[k][i].standard_error > 0.0)
-                l.push_back(sizes[k]), m.push_back(rows[k][i].mean),
-                  e.push_back(rows[k][i].standard_error);
-            // Three sizes at least, so that χ² has a degree of freedom to test the 1/L form.
-            if (l.size() >= 3)
-              fits[b][i] = extrapolate_in_inverse_size(l, m, e), ok[b][i] = true;
-          }
-      }
-    const auto index = [&](const char *name) {
-      const auto it = std::find(bcs.begin(), bcs.end(), name);
-      return it == bcs.end() ? -1 : int(it - bcs.begin());
-    };
-    const int          di = index("dirichlet"), ni = index("neumann");
-    std::ostringstream csv;
-    csv << "energy";
-    for (const auto &bc : bcs)
-      csv << ",n_infinity_" << bc << ",stderr_" << bc << ",c_" << bc << ",c_stderr_" << bc
-          << ",chi_squared_" << bc << ",dof_" << bc;
-    csv << ",agree\n";
-    std::size_t compared = 0, agreeing = 0;
-    for (std::size_t i = 0; i < energies.size(); ++i)
-      {
-        csv << num(energies[i]);
-        for (std::size_t b = 0; b < bcs.size(); ++b)
-          {
-            const auto &f = fits[b][i];
-            if (ok[b][i])
-              csv << ',' << num(f.n_infinity) << ',' << num(f.n_infinity_error) << ',' << num(f.c)
-                  << ',' << num(f.c_error) << ',' << num(f.chi_squared) << ',' << f.dof;
-            else
-              csv << ",,,,,,";
-          }
-        csv << ',';
-        if (di >= 0 && ni >= 0 && ok[di][i] && ok[ni][i])
-          {
-            const bool agree = extrapolations_agree(fits[di][i], fits[ni][i],
-                                                    settings.confidence_level);
-            ++compared, agreeing += agree;
-            csv << (agree ? 1 : 0);
-          }
-        csv << '\n';
-      }
-    write_text(output_dir + "/extrapolation.csv", with_energy_columns(csv.str(), studies[largest]));
-
-    ReportContent report;
-    report.title = "alloyspec summary of " + std::to_string(studies.size()) + " box sizes";
-    std::ostringstream list;
-    for (std::size_t k = 0; k < sizes.size(); ++k)
-      list << (k ? ", " : "") << brief(sizes[k]);
-    report.key_numbers.push_back({"box sizes L (cells per direction)", list.str()});
-    report.key_numbers.push_back({"figures and tail fits below", "largest box, L = " +
-                                                                   brief(sizes[largest])});
-    if (compared > 0)
-      report.checks.push_back(
-        {"Dirichlet and Neumann extrapolations agree (N + c/L)", agreeing == compared,
-         std::to_string(agreeing) + " of " + std::to_string(compared) +
-           " energies agree within the interval at confidence " +
-           brief(settings.confidence_level) +
-           " (treated as independent, which is conservative for common cell values)"});
-    FigureMaker maker(output_dir + "/figures", settings.figure_formats,
-                      studies[largest].energy_unit);
-    report.figures.push_back(extrapolation_figure(
-      maker, read_csv_columns(output_dir + "/extrapolation.csv"), bcs, settings.confidence_level));
-    for (const auto &w : maker.warnings())
-      report.notes.push_back(w);
-    auto warnings = analyse(output_dir, studies[largest], settings, report);
-    warnings.insert(warnings.end(), maker.warnings().begin(), maker.warnings().end());
-    return warnings;
+    return analyse(output_dir, input, settings, std::move(report));
   }
+
+  std::string density_unit(const AnalysisInput &input, const bool per_energy)
+  {
+    static const char *powers[] = {"", "⁻¹", "⁻²", "⁻³"};
+    const bool         physical = input.solver_energy_unit > 0.0;
+    const std::string  length   = physical ? "nm" : "ℓ";
+    const std::string  energy =
+      physical && input.energy_column.rfind("energy_", 0) == 0 ? input.energy_column.substr(7) : "ε";
+    std::string unit = length + powers[std::min(input.dimension, 3u)];
+    if (per_energy)
+      unit = energy + "⁻¹·" + unit;
+    if (!physical)
+      unit += per_energy ? "; reduced units: ℓ cell edge, ε = ħ²/2mℓ²" : "; ℓ: cell edge (reduced units)";
+    return unit;
+  }
+
 } // namespace alloyspec

@@ -1,5 +1,6 @@
 /** @file figures.cc  gnuplot scripts and data files for the analysis figures. */
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
 #include <alloyspec/analysis/figures.h>
 
 #include <algorithm>
@@ -37,10 +38,7 @@ namespace alloyspec
     {
       if (!std::isfinite(x))
         return "NaN";
-      std::ostringstream s;
-      s.precision(10);
-      s << x;
-      return s.str();
+      return csv_number(x); // full precision, like every table
     }
 
     /** Column @p name of @p table, or an empty vector. */
@@ -302,9 +300,9 @@ namespace alloyspec
              << " with filledcurves fc rgb '" << col
              << "' fs transparent solid 0.25 noborder notitle, \\\n     data using 1:" << c
              << " with lines lw 2 lc rgb '" << col << "' title "
-             << gnuplot_string(boundaries[b] + ", Lorentzian η = " + num(eta))
+             << gnuplot_string(boundaries[b] + ", Lorentzian η = " + short_number(eta, 3))
              << ", \\\n     data using 1:" << c + 3 << " with lines dt 2 lw 1.5 lc rgb '" << col
-             << "' title " << gnuplot_string(boundaries[b] + ", Gaussian σ = " + num(sigma));
+             << "' title " << gnuplot_string(boundaries[b] + ", Gaussian σ = " + short_number(sigma, 3));
       }
     plot << "\n";
     const std::string caption =
@@ -355,7 +353,7 @@ namespace alloyspec
              << gnuplot_string(boundaries[b]);
         if (std::isfinite(fits[b].slope) && fits[b].window_high > e0)
           plot << ", \\\n     f" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
-               << gnuplot_string("fit, slope " + num(std::round(fits[b].slope * 1000) / 1000) +
+               << gnuplot_string("fit, slope " + short_number(fits[b].slope, 3) +
                                  (fits[b].resolved ? "" : " (not resolved)"));
         caption << boundaries[b] << ": slope " << fits[b].slope << " [" << fits[b].slope_low
                 << ", " << fits[b].slope_high << "]" << (fits[b].resolved ? "" : " (not resolved)")
@@ -364,9 +362,9 @@ namespace alloyspec
     plot << "\n";
     const double expected = fits.empty() ? 0.0 : fits[0].expected_slope;
     return maker.make("lifshitz", "Lifshitz tail: ln(−ln n) against ln(E − E₀)",
-                      "Bottom of the spectrum, E₀ = " + num(e0) +
+                      "Bottom of the spectrum, E₀ = " + short_number(e0) +
                         ". Lines: weighted least-squares fits over the Lifshitz window. " +
-                        caption.str() + "Asymptotic Lifshitz slope −d/2 = " + num(expected) +
+                        caption.str() + "Asymptotic Lifshitz slope −d/2 = " + short_number(expected) +
                         " (Lifshitz 1964; Kirsch & Martinelli 1983).",
                       data.str(), plot.str());
   }
@@ -420,7 +418,7 @@ namespace alloyspec
              << gnuplot_string(boundaries[b]);
         if (std::isfinite(fits[b].slope))
           plot << ", \\\n     g" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
-               << gnuplot_string("fit, E_U = " + num(std::round(fits[b].urbach_energy * 1e4) / 1e4) +
+               << gnuplot_string("fit, E_U = " + short_number(fits[b].urbach_energy, 3) +
                                  (fits[b].resolved ? "" : " (not resolved)"));
         caption << boundaries[b] << ": E_U = " << fits[b].urbach_energy << " ["
                 << fits[b].urbach_low << ", " << fits[b].urbach_high << "]"
@@ -545,7 +543,7 @@ namespace alloyspec
     return maker.make("extrapolation", "IDS extrapolated to infinite volume",
                       "Weighted least-squares fit N_L = N∞ + c/L over the box sizes, per energy "
                       "and boundary condition; band: interval at confidence " +
-                        num(confidence) + ".",
+                        short_number(confidence) + ".",
                       data.str(), plot.str());
   }
 } // namespace alloyspec

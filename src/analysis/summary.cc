@@ -1,7 +1,9 @@
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
 #include <alloyspec/io/results_store.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
 #include <alloyspec/analysis/summary.h>
+#include <alloyspec/analysis/size_series.h>
 #include <alloyspec/analysis/tail_table.h>
 
 #include <algorithm>
@@ -9,6 +11,7 @@
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
+#include <limits>
 #include <set>
 #include <sstream>
 
@@ -21,15 +24,6 @@ namespace alloyspec
      * this share of the realisations (common practice, no source).
      */
     constexpr double min_effective_share = 0.1;
-
-    std::string number(double x)
-    {
-      if (!std::isfinite(x))
-        return "nan";
-      char buffer[40];
-      std::snprintf(buffer, sizeof buffer, "%.17g", x);
-      return buffer;
-    }
 
     /** Entries that may differ between folders of one model. */
     bool is_run_only(const std::string &key)
@@ -152,16 +146,23 @@ namespace alloyspec
     csv << ",semiclassical,realisations\n";
     for (std::size_t i = 0; i < energies.size(); ++i)
       {
-        csv << number(energies[i]);
+        csv << csv_number(energies[i]);
+        // An incomplete count is only a lower bound: written as missing, never as a value.
+        const auto value = [&](const int b, const double x) {
+          return csv_number(rows[b][i].complete ? x : std::numeric_limits<double>::quiet_NaN());
+        };
         for (const int b : {d, n, p})
           if (b >= 0)
-            csv << ',' << number(rows[b][i].mean) << ',' << number(rows[b][i].standard_error);
+            csv << ',' << value(b, rows[b][i].mean) << ',' << value(b, rows[b][i].standard_error);
         if (d >= 0 && n >= 0)
-          csv << ',' << number(rows[n][i].mean - rows[d][i].mean);
+          csv << ','
+              << csv_number(rows[d][i].complete && rows[n][i].complete ?
+                              rows[n][i].mean - rows[d][i].mean :
+                              std::numeric_limits<double>::quiet_NaN());
         for (const int b : {d, n, p})
           if (b >= 0)
             csv << ',' << (rows[b][i].complete ? 1 : 0);
-        csv << ',' << number(semiclassical[i]) << ',' << n_realisations << '\n';
+        csv << ',' << csv_number(semiclassical[i]) << ',' << n_realisations << '\n';
       }
     return csv.str();
   }
@@ -223,7 +224,7 @@ namespace alloyspec
         return; // records of an older version without central weights
       for (std::size_t i = 0; i < merged.energies.size(); ++i)
         {
-          csv << number(merged.energies[i]);
+          csv << csv_number(merged.energies[i]);
           for (std::size_t b = 0; b < merged.boundaries.size(); ++b)
             {
               const double n    = std::max<std::size_t>(count[b], 1);
@@ -231,13 +232,16 @@ namespace alloyspec
               const double var  = count[b] > 1 ? std::max(0.0, (sums[b][i][1] - n * mean * mean) / (n - 1)) : 0.0;
               const double se   = std::sqrt(var / n);
               const double combined = std::hypot(se, rows[b][i].standard_error);
-              csv << ',' << number(mean) << ',' << number(se) << ',' << number(rows[b][i].mean) << ','
-                  << number(combined > 0 ? (mean - rows[b][i].mean) / combined : 0.0) << ','
-                  << number(sums[b][i][2] / n) << ',' << (rows[b][i].complete ? 1 : 0);
+              const bool   ok       = rows[b][i].complete;
+              const double none     = std::numeric_limits<double>::quiet_NaN();
+              csv << ',' << csv_number(ok ? mean : none) << ',' << csv_number(ok ? se : none) << ','
+                  << csv_number(ok ? rows[b][i].mean : none) << ','
+                  << csv_number(!ok ? none : combined > 0 ? (mean - rows[b][i].mean) / combined : 0.0)
+                  << ',' << csv_number(ok ? sums[b][i][2] / n : none) << ',' << (ok ? 1 : 0);
             }
           csv << '\n';
         }
-      ResultsStore::write_file_in(output_dir, "local_trace.csv", csv.str());
+      ResultsStore::write_file_in(output_dir, "local_trace.csv", with_energy_columns(csv.str(), merged));
     }
   } // namespace
 
@@ -372,7 +376,7 @@ namespace alloyspec
         input.ids_table = (std::filesystem::path(dir) / "ids.csv").string();
         per_size.push_back(std::move(input));
       }
-    const auto w = write_summary(output_dir, per_size, settings);
+    const auto w = write_size_series(output_dir, per_size, settings);
     warnings.insert(warnings.end(), w.begin(), w.end());
     return warnings;
   }

@@ -5,6 +5,7 @@
 #include <alloyspec/core/errors.h>
 #include <alloyspec/analysis/figures.h>
 #include <alloyspec/analysis/report.h>
+#include <alloyspec/analysis/size_series.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
 
 #include <gtest/gtest.h>
@@ -214,13 +215,15 @@ TEST(Analysis, SummaryExtrapolatesOverBoxSizes)
   AnalysisSettings  s;
   s.bootstrap_samples = 100;
   s.figure_formats    = {"png"};
-  const auto warnings = write_summary(dir, {invented_study(4, 8), invented_study(6, 8),
+  const auto warnings = write_size_series(dir, {invented_study(4, 8), invented_study(6, 8),
                                             invented_study(8, 8)},
                                       s);
   EXPECT_EQ(first_line(dir + "/extrapolation.csv"),
             "energy,n_infinity_dirichlet,stderr_dirichlet,c_dirichlet,c_stderr_dirichlet,"
-            "chi_squared_dirichlet,dof_dirichlet,n_infinity_neumann,stderr_neumann,c_neumann,"
-            "c_stderr_neumann,chi_squared_neumann,dof_neumann,agree");
+            "chi_squared_dirichlet,dof_dirichlet,"
+            "sizes_used_dirichlet,consistent_dirichlet,n_infinity_neumann,stderr_neumann,c_neumann,"
+            "c_stderr_neumann,chi_squared_neumann,dof_neumann,sizes_used_neumann,consistent_neumann,"
+            "agree");
   EXPECT_TRUE(std::filesystem::exists(dir + "/report.html"));
-  EXPECT_THROW(write_summary(dir, {invented_study(4, 3)}, s), InputError);
+  EXPECT_THROW(write_size_series(dir, {invented_study(4, 3)}, s), InputError);
 }
