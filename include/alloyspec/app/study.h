@@ -96,6 +96,8 @@ namespace alloyspec
 
     const std::map<std::string, double> &timings() const { return timings_; }
     const AnalysisSettings              &analysis_settings() const { return analysis_; }
+    /** True when realisations are drawn from a tilted law (sampling.h). */
+    bool                                 tilted() const { return sampling_.is_tilted(); }
 
     /**
      * The records of this study's realisations stored in @p directory, with
