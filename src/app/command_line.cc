@@ -487,8 +487,11 @@ end
             for (const auto &[name, seconds] : study.phase_timings())
               std::cout << ' ' << name << ' ' << seconds;
             std::cout << "\nResults in " << output
-                      << "/: eigenvalues.csv, realisations.csv, ids.csv, dos.csv, tails.json, "
-                         "localisation.csv, figures/, report.html, run.json, "
+                      << (study.tilted()
+                            ? "/: eigenvalues.csv, realisations.csv (with log_weight), ids.csv and "
+                              "tail.csv (importance-weighted), run.json, "
+                            : "/: eigenvalues.csv, realisations.csv, ids.csv, tail.csv, dos.csv, "
+                              "tails.json, localisation.csv, figures/, report.html, run.json, ")
                       << ResultsStore::parameters_file << "\n"
                       << "These are model estimates for the stated model and box, not measurements.\n";
           }
