@@ -166,9 +166,10 @@ namespace alloyspec
 
   /**
    * x in [0, 1] with @f$I_x(a,b) = u@f$, from Boost.Math
-   * (`boost::math::ibeta_inv`); 0 for u ≤ 0 and 1 for u ≥ 1. Near x = 1 call
-   * it mirrored, @f$1 - x = \text{beta\_quantile}(b, a, 1-u)@f$, to keep the
-   * distance to 1 to full relative precision.
+   * (`boost::math::ibeta_inv`, checked by `ibeta` and replaced by bisection
+   * on ln x where Boost 1.74 fails); 0 for u ≤ 0 and 1 for u ≥ 1. For
+   * u > 1/2 it solves the mirrored problem
+   * @f$1 - x = \text{beta\_quantile}(b, a, 1-u)@f$.
    */
   double beta_quantile(double a, double b, double u);
 } // namespace alloyspec
