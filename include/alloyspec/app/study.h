@@ -102,6 +102,7 @@ namespace alloyspec
     /**
      * Labels: pilot_choice (degree and mesh for an accuracy target), mesh,
      * unknowns (degrees of freedom and sparsity), matrices (the fixed K and M),
+     * tilt_search (the automatic tilt of tilted sampling),
      * eigen_solves (all realisations), tables (tables, figures, report).
      */
     const PhaseTimings &phase_timings() const { return timings_; }
@@ -128,6 +129,18 @@ namespace alloyspec
      * Returns true if the file did not exist before.
      */
     bool check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const;
+
+    /**
+     * `sampling/tilt = auto`: the cross-entropy method (tilt_choice.h) on
+     * pilot realisations of the first boundary condition, scored by their
+     * lowest eigenvalue, with the level lowered towards `sampling/target
+     * energy` step by step (multilevel CE). The pilot's realisations are
+     * numbered from 2^48 on, so they are never part of the sample. The choice
+     * is stored in `tilt.txt`, which a resumed run reuses.
+     */
+    void choose_tilt(const ResultsStore &store, const RunOptions &options, bool root);
+    /** The tilt a stored study was run at (tilt.txt for tilt = auto; the parameter otherwise). */
+    double stored_tilt(const std::string &directory) const;
 
     /** Pilot solve for `discretisation/accuracy`: sets degree and elements per cell. */
     void choose_for_accuracy(bool root);
@@ -174,5 +187,7 @@ namespace alloyspec
     /** Rank 0: a record of this run reached the folder (a failure then keeps the folder). */
     bool                                          stored_any_ = false;
     std::string                                   output_directory_;
+    /** What the automatic tilt choice did, for run.json. */
+    std::string                                   tilt_log_;
   };
 } // namespace alloyspec
