@@ -309,9 +309,45 @@ namespace alloyspec
       return checks;
     }
 
-    std::vector<std::string> analyse(const std::string &output_dir, const AnalysisInput &in,
-                                     const AnalysisSettings &s, ReportContent report)
+    /**
+     * One line when the computed spectra do not reach the top of the grid plus
+     * the Lorentzian margin, with the number of eigenvalues that would, from
+     * Weyl's law N ∝ (E − E_low)^{d/2} (an estimate).
+     */
+    std::string coverage_warning(const AnalysisInput &in, const AnalysisSettings &s)
     {
+      if (in.records.empty() || in.energies.empty())
+        return {};
+      double      reach = std::numeric_limits<double>::infinity(), low = reach;
+      std::size_t most  = 0;
+      for (const auto &r : in.records)
+        {
+          reach = std::min(reach, r.complete_up_to);
+          most  = std::max(most, r.eigenvalues.size());
+          for (const double x : r.eigenvalues)
+            low = std::min(low, x);
+        }
+      const double need = in.energies.back() + incomplete_margin(Broadening::lorentzian) * s.lorentzian_width;
+      if (!(need > reach) || !(reach > low) || most == 0)
+        return {};
+      const double ratio  = std::pow((need - low) / (reach - low), 0.5 * double(in.dimension));
+      const auto   enough = std::size_t(std::ceil(double(most) * ratio));
+      const std::string unit = in.energy_column.rfind("energy_", 0) == 0 ? " " + in.energy_column.substr(7) : "";
+      return "the " + std::to_string(most) + " eigenvalues per solve are complete up to " +
+             short_number(reach) + unit + " in every realisation, but the grid ends at " +
+             short_number(in.energies.back()) + unit + " and the Lorentzian needs " +
+             short_number(need - in.energies.back()) + unit +
+             " beyond it: about " + std::to_string(enough) +
+             " eigenvalues (spectrum/eigenvalues) would cover it (Weyl scaling, an estimate); "
+             "Lorentzian DOS entries above " +
+             short_number(reach - (need - in.energies.back())) + unit + " are written as missing";
+    }
+
+    std::vector<std::string> analyse(const std::string &output_dir, const AnalysisInput &in,
+                                     const AnalysisSettings &requested, ReportContent report)
+    {
+      std::vector<std::string> chosen;
+      const AnalysisSettings   s = requested.resolved_for(in.records, chosen);
       if (in.energies.empty() || !(in.volume > 0.0) || in.dimension < 1 || in.dimension > 3 ||
           !(in.cell_size > 0.0))
         throw InputError("analysis: need a non-empty energy grid, a volume > 0, a cell size > 0 "
@@ -328,6 +364,7 @@ namespace alloyspec
 
       const double cell_volume = std::pow(in.cell_size, double(in.dimension));
       FigureMaker  maker(output_dir + "/figures", s.figure_formats, in.energy_unit);
+      maker.set_density_units(density_unit(in, false), density_unit(in, true));
       std::vector<std::string> names;
       std::vector<std::vector<IntervalRow>> lor, gau;
       std::vector<std::vector<GridValue>>   ids;
@@ -366,7 +403,14 @@ namespace alloyspec
                                  {"volume |Λ|", brief(in.volume)},
                                  {"bottom of the spectrum E0", brief(in.band_bottom)},
                                  {"mean potential", brief(in.mean_potential)},
-                                 {"energy unit", in.energy_unit}});
+                                 {"energy unit", in.energy_unit},
+                                 {"broadening η (Lorentzian), σ (Gaussian); bin width",
+                                  short_number(s.lorentzian_width) + ", " +
+                                    short_number(s.gaussian_width) + "; " +
+                                    short_number(s.bin_width) +
+                                    (chosen.empty() ? "" : " (automatic ones chosen from the spectrum)")}});
+      for (const auto &c : chosen)
+        report.notes.push_back("Chosen from the computed spectrum: " + c + ".");
       for (const auto &a : all)
         {
           std::size_t complete = 0;
@@ -422,10 +466,21 @@ namespace alloyspec
         "Lifshitz fits use neighbouring grid points that share realisations; their errors are "
         "correlated, so the slope interval is approximate. In a Dirichlet box of L cells the "
         "spectrum starts about dπ²/(La)² above E0, which cuts the tail off at low energy.");
-      for (const auto &w : maker.warnings())
+      std::vector<std::string> warnings = maker.warnings();
+      if (const auto w = coverage_warning(in, s); !w.empty())
+        warnings.insert(warnings.begin(), w);
+      for (const auto &w : warnings)
         report.notes.push_back(w);
       write_text(output_dir + "/report.html", render_report(report));
-      return maker.warnings();
+      // The report's key numbers, for scripts.
+      Json key = manifest_header("analysis");
+      key["missing_value"] = "null";
+      Json numbers         = Json::object();
+      for (const auto &[name, value] : report.key_numbers)
+        numbers[name] = value;
+      key["key_numbers"] = numbers;
+      write_json_file(output_dir, "key_numbers.json", key);
+      return warnings;
     }
   } // namespace
 
@@ -478,8 +533,6 @@ namespace alloyspec
     std::string unit = length + powers[std::min(input.dimension, 3u)];
     if (per_energy)
       unit = energy + "⁻¹·" + unit;
-    if (!physical)
-      unit += per_energy ? "; reduced units: ℓ cell edge, ε = ħ²/2mℓ²" : "; ℓ: cell edge (reduced units)";
     return unit;
   }
 

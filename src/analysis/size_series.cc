@@ -328,6 +328,7 @@ namespace alloyspec
     report.title = "alloyspec: box-size series of " + std::to_string(series.size()) + " sizes";
     FigureMaker maker(output_dir + "/figures", settings.figure_formats, big.energy_unit);
     const std::string ids_unit = density_unit(big, false);
+    maker.set_density_units(ids_unit, density_unit(big, true));
     {
       // Overlay of the IDS of every size: Dirichlet solid, Neumann dashed.
       std::ostringstream data, plot;

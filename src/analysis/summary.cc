@@ -279,7 +279,9 @@ namespace alloyspec
         format_ids_table(merged.boundaries, merged.energies, rows, semiclassical, n_realisations),
         merged));
 
-    write_local_trace_table(output_dir, merged, rows, settings.lorentzian_width);
+    std::vector<std::string> chosen; // reported by write_analysis, which chooses the same
+    write_local_trace_table(output_dir, merged, rows,
+                            settings.resolved_for(merged.records, chosen).lorentzian_width);
     merged.ids_table = (std::filesystem::path(output_dir) / "ids.csv").string();
     return write_analysis(output_dir, merged, settings);
   }

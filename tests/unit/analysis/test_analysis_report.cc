@@ -179,7 +179,12 @@ TEST(Analysis, WritesTablesFiguresAndSelfContainedReport)
   const bool gnuplot  = std::filesystem::exists("/usr/bin/gnuplot");
   if (gnuplot)
     {
-      EXPECT_TRUE(warnings.empty()) << warnings.front();
+      // The only warning allowed is the one line on spectra too short for the
+      // Lorentzian's 30η margin above the grid (η = 0.3 here).
+      for (const auto &w : warnings)
+        EXPECT_NE(w.find("eigenvalues (spectrum/eigenvalues) would cover it"), std::string::npos)
+          << w;
+      EXPECT_LE(warnings.size(), 1u);
     }
 
   EXPECT_EQ(first_line(dir + "/dos.csv"),
