@@ -14,6 +14,7 @@
 #include <fstream>
 #include <limits>
 #include <map>
+#include <set>
 #include <sstream>
 
 namespace alloyspec
@@ -21,6 +22,8 @@ namespace alloyspec
   namespace
   {
     constexpr double nan = std::numeric_limits<double>::quiet_NaN();
+    /** Rows of the eigenvalue table of a fixed potential, per boundary condition. */
+    constexpr std::size_t max_eigenvalue_rows = 20;
 
     /** Short form for tables of the report. */
     std::string brief(const double x)
@@ -309,6 +312,121 @@ namespace alloyspec
       return checks;
     }
 
+    bool is_deterministic(const AnalysisInput &in)
+    {
+      if (in.fixed_potential)
+        return true;
+      std::set<std::uint64_t> realisations;
+      for (const auto &r : in.records)
+        realisations.insert(r.realisation);
+      return realisations.size() == 1;
+    }
+
+    /**
+     * The eigenvalues of one fixed potential with their residuals, absolute
+     * error bounds and Richardson-extrapolated values. The bound is
+     * @f$F\,\hat e@f$ with @f$\hat e@f$ the Richardson estimate of
+     * @f$\lambda_h - \lambda@f$ and F the safety factor, so
+     * @f$\lambda_h - \hat e = \lambda_h - \text{bound}/F@f$ is the extrapolated value
+     * (which costs nothing once @f$\lambda_{h/2}@f$ is known).
+     */
+    ReportTable eigenvalue_table(const AnalysisInput &in)
+    {
+      const std::string unit =
+        in.energy_column.rfind("energy_", 0) == 0 ? in.energy_column.substr(7) : "reduced units";
+      ReportTable t{"Eigenvalues of the fixed potential (lowest " +
+                      std::to_string(max_eigenvalue_rows) + " per boundary condition; energies in " +
+                      unit + "). Error bound: absolute, on λ_h − λ, " +
+                      short_number(in.error_safety_factor) +
+                      " × the Richardson estimate; the extrapolated value is λ_h minus that "
+                      "estimate. Residual: relative, ‖Ku − λMu‖/(max(|λ|,1)‖Mu‖).",
+                    {"boundary", "index", "eigenvalue λ_h", "residual (relative)",
+                     "error bound (absolute)", "Richardson-extrapolated λ"},
+                    {}};
+      std::set<std::string> seen;
+      for (const auto &r : in.records)
+        {
+          if (!seen.insert(r.boundary).second)
+            continue; // one realisation per boundary condition
+          const std::size_t n = std::min<std::size_t>(r.eigenvalues.size(), max_eigenvalue_rows);
+          for (std::size_t j = 0; j < n; ++j)
+            {
+              const double error = j < r.errors.size() ? r.errors[j] : std::nan("");
+              const double res   = j < r.residuals.size() ? r.residuals[j] : std::nan("");
+              const bool   have  = std::isfinite(error);
+              t.rows.push_back({r.boundary, std::to_string(j), short_number(r.eigenvalues[j], 10),
+                                short_number(res, 2),
+                                have ? short_number(error, 3) : "not estimated",
+                                have ? short_number(r.eigenvalues[j] - error / in.error_safety_factor, 10) :
+                                       "needs discretisation/error estimate"});
+            }
+        }
+      return t;
+    }
+
+    /** The few lines a run ends with: band bottom, bracket at three energies, tails, report. */
+    std::vector<std::string> closing_summary(const std::string &output_dir, const AnalysisInput &in,
+                                             const std::vector<BoundaryAnalysis> &all)
+    {
+      const std::string unit =
+        in.energy_column.rfind("energy_", 0) == 0 ? " " + in.energy_column.substr(7) : "";
+      std::vector<std::string> lines;
+      std::string              bottom = "Band bottom E0 = " + short_number(in.band_bottom) + unit;
+      for (const auto &a : all)
+        {
+          double lowest = std::numeric_limits<double>::infinity();
+          for (const auto &r : in.records)
+            if (r.boundary == a.name)
+              for (const double x : r.eigenvalues)
+                lowest = std::min(lowest, x);
+          if (std::isfinite(lowest))
+            bottom += "; lowest " + a.name + " level " + short_number(lowest) + unit;
+        }
+      lines.push_back(bottom);
+      // Three energies spread over those where every boundary is complete.
+      std::vector<std::size_t> complete;
+      for (std::size_t i = 0; i < in.energies.size(); ++i)
+        if (std::all_of(all.begin(), all.end(), [&](const BoundaryAnalysis &a) {
+              return a.band[i].complete;
+            }))
+          complete.push_back(i);
+      if (!complete.empty() && !all.empty())
+        {
+          std::string line = "Mean IDS [";
+          for (std::size_t b = 0; b < all.size(); ++b)
+            line += (b ? ", " : "") + all[b].name;
+          line += "] in " + density_unit(in, false) + ":";
+          std::size_t previous = in.energies.size();
+          for (const double q : {0.25, 0.5, 0.75})
+            {
+              const std::size_t i = complete[std::size_t(q * double(complete.size() - 1))];
+              if (i == previous)
+                continue;
+              previous = i;
+              line += " E = " + short_number(in.energies[i]) + unit + ": [";
+              for (std::size_t b = 0; b < all.size(); ++b)
+                line += (b ? ", " : "") + short_number(all[b].band[i].mean, 3);
+              line += "];";
+            }
+          line.pop_back();
+          lines.push_back(line);
+        }
+      else
+        lines.push_back("No grid energy where every realisation's spectrum is complete: no IDS "
+                        "to show (raise spectrum/eigenvalues)");
+      std::string tails = "Tail fits resolved:";
+      for (const auto &a : all)
+        tails += " " + a.name + " Lifshitz " + (a.lifshitz.resolved ? "yes" : "no") + ", Urbach " +
+                 (a.urbach.resolved ? "yes (E_U = " + short_number(a.urbach.urbach_energy, 3) + unit +
+                                        ")" :
+                                      "no") +
+                 ";";
+      tails.back() = ' ';
+      lines.push_back(tails + "(reasons in tails.json)");
+      lines.push_back("Report: " + (std::filesystem::path(output_dir) / "report.html").string());
+      return lines;
+    }
+
     /**
      * One line when the computed spectra do not reach the top of the grid plus
      * the Lorentzian margin, with the number of eigenvalues that would, from
@@ -380,9 +498,15 @@ namespace alloyspec
       report.figures.push_back(ids_figure(maker, table, names, s.confidence_level));
       report.figures.push_back(dos_figure(maker, names, lor, gau, s.lorentzian_width,
                                           s.gaussian_width));
-      report.figures.push_back(lifshitz_figure(maker, names, ids, lif, in.band_bottom, cell_volume));
-      report.figures.push_back(urbach_figure(maker, names, gau, urb));
-      if (!ratios.empty() && !ratios[0].empty())
+      // One fixed potential has no ensemble: no tail fits, bands or level statistics.
+      const bool deterministic = is_deterministic(in);
+      if (!deterministic)
+        {
+          report.figures.push_back(
+            lifshitz_figure(maker, names, ids, lif, in.band_bottom, cell_volume));
+          report.figures.push_back(urbach_figure(maker, names, gau, urb));
+        }
+      if (!deterministic && !ratios.empty() && !ratios[0].empty())
         {
           report.figures.push_back(ipr_figure(maker, names, ipr, in.volume, cell_volume));
           report.figures.push_back(ratio_figure(maker, names, ratios));
@@ -421,6 +545,14 @@ namespace alloyspec
                                           std::to_string(complete) + " of " +
                                           std::to_string(a.band.size()) + " grid energies"});
         }
+      if (deterministic)
+        {
+          report.tables.push_back(eigenvalue_table(in));
+          report.notes.push_back(
+            "A fixed potential (the 'file' law or a single realisation): the report lists its "
+            "eigenvalues instead of ensemble statistics (tail fits, bootstrap bands and level "
+            "statistics need many realisations).");
+        }
       ReportTable fits{"Tail fits (interval at confidence " + brief(s.confidence_level) + ")",
                        {"boundary", "fit", "window", "points / states / realisations", "result",
                         "resolved", "comment"},
@@ -444,7 +576,8 @@ namespace alloyspec
                                  ", " + brief(a.urbach.urbach_high) + "]",
                                a.urbach.resolved ? "yes" : "no", a.urbach.reason});
         }
-      report.tables.push_back(fits);
+      if (!deterministic)
+        report.tables.push_back(fits);
       ReportTable sample{"IDS at selected energies (mean and bootstrap interval; * = incomplete)",
                          {"energy"},
                          {}};
@@ -459,10 +592,12 @@ namespace alloyspec
                           brief(a.band[i].upper) + "]" + (a.band[i].complete ? "" : " *"));
           sample.rows.push_back(row);
         }
-      report.tables.push_back(sample);
+      if (!deterministic)
+        report.tables.push_back(sample);
       for (auto &c : exact_checks(in))
         report.checks.push_back(c);
-      report.notes.push_back(
+      if (!deterministic)
+        report.notes.push_back(
         "Lifshitz fits use neighbouring grid points that share realisations; their errors are "
         "correlated, so the slope interval is approximate. In a Dirichlet box of L cells the "
         "spectrum starts about dπ²/(La)² above E0, which cuts the tail off at low energy.");
@@ -479,6 +614,7 @@ namespace alloyspec
       for (const auto &[name, value] : report.key_numbers)
         numbers[name] = value;
       key["key_numbers"] = numbers;
+      key["summary"]     = closing_summary(output_dir, in, all);
       write_json_file(output_dir, "key_numbers.json", key);
       return warnings;
     }

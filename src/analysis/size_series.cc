@@ -164,7 +164,11 @@ namespace alloyspec
     for (std::size_t k = 0; k < studies.size(); ++k)
       {
         const auto &s = studies[k];
-        SizeRows    sr{std::pow(s.volume / std::pow(s.cell_size, d), 1.0 / d), s.volume, {}};
+        // L from the volume; a whole number of cells is written as one (4, not 3.9999999999999996).
+        double l = std::pow(s.volume / std::pow(s.cell_size, d), 1.0 / d);
+        if (std::abs(l - std::round(l)) < 1e-9 * l)
+          l = std::round(l);
+        SizeRows sr{l, s.volume, {}};
         for (const auto &bc : first.boundaries)
           {
             IdsAccumulator acc(energies, s.volume);

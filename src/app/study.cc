@@ -445,6 +445,8 @@ namespace alloyspec
           if (slot < pending.size())
             for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
               {
+                progress.phase("solving realisation " + std::to_string(pending[slot]) + ", " +
+                               to_string(study_.boundaries[b]));
                 const RealisationRecord record = solve_one(pending[slot], b);
                 if (!teams_->leader())
                   continue;
@@ -486,6 +488,8 @@ namespace alloyspec
       in.boundaries.push_back(to_string(bc));
     in.energies        = study_.energies;
     in.band_bottom     = potential_.bottom();
+    in.fixed_potential = !potential_.is_random();
+    in.error_safety_factor = safety_factor;
     in.mean_potential  = potential_.is_random() ? potential_.law()->mean() : 0.0;
     in.model_summary   = "H = -Laplacian + V on " + lattice_.description() + "; " +
                        potential_.description() + "; FE_Q(" +
@@ -518,6 +522,9 @@ namespace alloyspec
         {
           realisations.insert(r.realisation);
           r.eigenvalues    = units_.to_user_energies(std::move(r.eigenvalues));
+          // Bounds are differences of energies: the same factor, no offset.
+          for (double &e : r.errors)
+            e = units_.to_user_energy(e) - units_.to_user_energy(0.0);
           r.complete_up_to = units_.to_user_energy(r.complete_up_to);
           r.potential_min  = units_.to_user_energy(r.potential_min);
           r.potential_max  = units_.to_user_energy(r.potential_max);
