@@ -364,6 +364,90 @@ namespace alloyspec
       return t;
     }
 
+    /**
+     * Maps of the lowest eigenfunctions of a fixed potential from the study's
+     * eigenfunction_slice_<bc>.csv: a curve per function in 1D, one panel per
+     * function (colour = ψ) in 2D and on the mid-plane in 3D.
+     */
+    Figure eigenfunction_figure(FigureMaker &maker, const AnalysisInput &in, const std::string &bc)
+    {
+      const std::string file =
+        (std::filesystem::path(in.source_directory) / ("eigenfunction_slice_" + bc + ".csv")).string();
+      Figure none{"eigenfunctions_" + bc, "", "", {}, true};
+      if (in.source_directory.empty() || !std::filesystem::exists(file))
+        return none;
+      const Columns table = read_csv_columns(file);
+      std::vector<std::string> psi;
+      for (int j = 0; table.count("psi_" + std::to_string(j)); ++j)
+        psi.push_back("psi_" + std::to_string(j));
+      std::vector<double> x, y; // "x" or "x_nm"
+      for (const auto &[name, values] : table)
+        {
+          if (name.rfind("x", 0) == 0)
+            x = values;
+          if (name.rfind("y", 0) == 0)
+            y = values;
+        }
+      if (psi.empty() || x.empty() || y.size() != x.size())
+        return none;
+      std::ostringstream data;
+      for (std::size_t k = 0; k < x.size(); ++k)
+        {
+          data << csv_number(x[k]) << ' ' << csv_number(y[k]);
+          for (const auto &p : psi)
+            data << ' ' << csv_number(table.at(p)[k]);
+          data << '\n';
+        }
+      // Eigenvalues for the titles.
+      std::vector<double> levels;
+      for (const auto &r : in.records)
+        if (r.boundary == bc)
+          {
+            levels = r.eigenvalues;
+            break;
+          }
+      const std::string unit =
+        in.energy_column.rfind("energy_", 0) == 0 ? " " + in.energy_column.substr(7) : "";
+      const std::string length = in.solver_energy_unit > 0.0 ? " (nm)" : " (cells)";
+      const auto title = [&](std::size_t j) {
+        return "ψ_" + std::to_string(j) +
+               (j < levels.size() ? ", λ = " + short_number(levels[j], 5) + unit : "");
+      };
+      std::ostringstream plot;
+      if (in.dimension == 1)
+        {
+          plot << "set xlabel " << gnuplot_string("x" + length) << "\nset ylabel 'ψ(x)'\nplot ";
+          for (std::size_t j = 0; j < psi.size(); ++j)
+            plot << (j ? ", " : "") << "data using 1:" << 3 + j << " with lines lw 2 title "
+                 << gnuplot_string(title(j));
+          plot << "\n";
+        }
+      else
+        {
+          const std::size_t columns = psi.size() > 1 ? 2 : 1, rows = (psi.size() + 1) / 2;
+          plot << "set palette defined (-1 '#2166ac', 0 '#f7f7f7', 1 '#b2182b')\n"
+               << "set size ratio -1\nunset key\nset xlabel " << gnuplot_string("x" + length)
+               << "\nset ylabel " << gnuplot_string("y" + length) << "\n"
+               << "set multiplot layout " << rows << "," << columns << "\n";
+          for (std::size_t j = 0; j < psi.size(); ++j)
+            {
+              double top = 0;
+              for (const double v : table.at(psi[j]))
+                top = std::max(top, std::abs(v));
+              plot << "set title " << gnuplot_string(title(j)) << "\nset cbrange ["
+                   << csv_number(-top) << ":" << csv_number(top) << "]\n"
+                   << "plot data using 1:2:" << 3 + j << " with points pt 5 ps 1.1 lc palette\n";
+            }
+          plot << "unset multiplot\n";
+        }
+      std::string where = in.dimension == 3 ? " on the mid-plane of the box" : "";
+      return maker.make("eigenfunctions_" + bc, "Lowest eigenfunctions (" + bc + ")",
+                        "The lowest " + std::to_string(psi.size()) + " eigenfunctions of the fixed "
+                        "potential under the " + bc + " condition" + where +
+                          " (colour: ψ, blue negative, red positive; each panel on its own scale).",
+                        data.str(), plot.str());
+    }
+
     /** The few lines a run ends with: band bottom, bracket at three energies, tails, report. */
     std::vector<std::string> closing_summary(const std::string &output_dir, const AnalysisInput &in,
                                              const std::vector<BoundaryAnalysis> &all)
@@ -547,6 +631,9 @@ namespace alloyspec
         }
       if (deterministic)
         {
+          for (const auto &a : all)
+            if (auto f = eigenfunction_figure(maker, in, a.name); !f.empty)
+              report.figures.push_back(std::move(f));
           report.tables.push_back(eigenvalue_table(in));
           report.notes.push_back(
             "A fixed potential (the 'file' law or a single realisation): the report lists its "
@@ -614,7 +701,11 @@ namespace alloyspec
       for (const auto &[name, value] : report.key_numbers)
         numbers[name] = value;
       key["key_numbers"] = numbers;
-      key["summary"]     = closing_summary(output_dir, in, all);
+      auto lines         = closing_summary(output_dir, in, all);
+      for (const auto &[name, value] : report.key_numbers)
+        if (name == "1/L fits") // a box-size series: its result comes first
+          lines.insert(lines.begin(), "Box-size series: " + value);
+      key["summary"] = lines;
       write_json_file(output_dir, "key_numbers.json", key);
       return warnings;
     }

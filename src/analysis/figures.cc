@@ -56,7 +56,7 @@ namespace alloyspec
       return "set encoding utf8\n"
              "set datafile missing 'NaN'\n"
              "set grid lc rgb '#dddddd'\n"
-             "set key outside right top vertical Left reverse nobox noopaque samplen 1.5 spacing 0.9 font ',10'\n"
+             "set key outside right top vertical nobox noopaque samplen 1.5 spacing 0.9 font ',10'\n"
              "set border lw 1.2\n"
              "set samples 400\n";
     }

@@ -76,18 +76,24 @@ namespace alloyspec
   {
     if (!fit.fitted)
       return;
+    // The estimate itself must be a possible IDS: a negative value, or one
+    // outside the bracket, is flagged even when its interval reaches back in.
+    // The intervals are quoted so that a reader can judge how far off it is.
     const double z  = normal_quantile(0.5 + confidence / 2);
     const double n  = fit.result.n_infinity;
     const double dn = z * fit.result.n_infinity_error;
+    const std::string interval = " (interval ±" + short_number(dn, 2) + ")";
     std::vector<std::string> why;
-    if (n + dn < 0.0)
-      why.push_back("N∞ = " + short_number(n) + " is negative");
-    if (std::isfinite(lower) && n + dn < lower - z * lower_error)
-      why.push_back("N∞ lies below the Dirichlet mean of the largest box (" + short_number(lower) +
-                    ")");
-    if (std::isfinite(upper) && n - dn > upper + z * upper_error)
-      why.push_back("N∞ lies above the Neumann mean of the largest box (" + short_number(upper) +
-                    ")");
+    if (n < 0.0)
+      why.push_back("N∞ = " + short_number(n) + interval + " is negative");
+    if (std::isfinite(lower) && n < lower)
+      why.push_back("N∞ = " + short_number(n) + " lies below the Dirichlet mean " +
+                    short_number(lower) + " ± " + short_number(z * lower_error, 2) +
+                    " of the largest box");
+    if (std::isfinite(upper) && n > upper)
+      why.push_back("N∞ = " + short_number(n) + " lies above the Neumann mean " +
+                    short_number(upper) + " ± " + short_number(z * upper_error, 2) +
+                    " of the largest box");
     if (why.empty())
       return;
     fit.consistent = false;
@@ -466,6 +472,10 @@ namespace alloyspec
                                series.front().rows[di][mid].mean;
             plot << "set xlabel 'L (cells per direction)'\n"
                  << "set ylabel " << gnuplot_string("N_L^N − N_L^D (" + ids_unit + ")") << "\n"
+                 << "set xtics (";
+            for (std::size_t k = 0; k < series.size(); ++k)
+              plot << (k ? ", " : "") << csv_number(series[k].size);
+            plot << ")\n"
                  << "set logscale xy\nset xrange [" << csv_number(series.front().size * 0.85)
                  << ":" << csv_number(series.back().size * 1.15) << "]\n"
                  << "set key outside right top vertical samplen 1.5\nplot ";

@@ -47,6 +47,8 @@ namespace alloyspec
     double                    error_safety_factor = 3.0;
     std::string               model_summary;   ///< one paragraph: model, law, box
     std::string               parameters_text; ///< effective parameters, shown verbatim
+    /** The study folder (eigenfunction_slice_<bc>.csv of a fixed potential is read from it). */
+    std::string               source_directory;
     std::vector<RealisationRecord> records;
     /**
      * ids.csv of the study (columns energy, ids_<bc>, stderr_<bc>, complete_<bc>,
