@@ -9,6 +9,8 @@
 #include <alloyspec/app/verify.h>
 #include <alloyspec/core/format.h>
 #include <alloyspec/io/manifest.h>
+#include <alloyspec/io/folder_lock.h>
+#include <alloyspec/io/results_store.h>
 
 #include <deal.II/base/exceptions.h>
 #include <deal.II/base/mpi.h>
@@ -74,6 +76,16 @@ end
      */
     void parse_study(Study &study, dealii::ParameterHandler &prm)
     {
+      // deal.II reads "{a|b}" as a loop over values (which we do not run) and
+      // then skips the entry's pattern check, so a brace would reach our
+      // parsers unchecked.
+      std::ostringstream text;
+      prm.print_parameters(text, dealii::ParameterHandler::ShortPRM);
+      for (const auto &[key, value] : flatten_parameters(text.str()))
+        if (value.find_first_of("{}") != std::string::npos)
+          throw InputError("parameter '" + key + "': '" + value +
+                           "' is not allowed: braces are not part of any value (see "
+                           "'alloyspec parameters' for the entry's allowed values)");
       try
         {
           study.parse_parameters(prm);
@@ -379,10 +391,12 @@ end
             AnalysisSettings         settings;
             for (const auto &folder : summary_inputs)
               {
+                if (!std::filesystem::is_directory(folder))
+                  throw InputError("summarise: '" + folder + "' is not a folder (allowed: "
+                                   "study folders written by 'alloyspec run')");
+                // Missing or empty: refused, never read as the defaults.
+                (void)ResultsStore::read_stored_parameters(folder);
                 const std::string file = (std::filesystem::path(folder) / "parameters.prm").string();
-                if (!std::filesystem::exists(file))
-                  throw InputError("summarise: '" + folder +
-                                   "' is not a study folder (no parameters.prm)");
                 dealii::ParameterHandler stored_prm;
                 Study::declare_parameters(stored_prm);
                 read_parameters(stored_prm, file);
@@ -396,6 +410,13 @@ end
               }
             if (root)
               {
+                std::error_code error;
+                std::filesystem::create_directories(summary_output, error);
+                if (error || !std::filesystem::is_directory(summary_output))
+                  throw InputError("option '--output': cannot use '" + summary_output +
+                                   "' as a folder" + (error ? ": " + error.message() : ""));
+                // Nobody else writes there while the tables are rewritten.
+                const FolderLock lock(summary_output, "summarise into it");
                 for (const auto &warning : summarise_studies(summary_output, stored, settings))
                   std::cerr << "alloyspec: warning: " << warning << '\n';
                 print_closing_summary(summary_output);
@@ -455,7 +476,8 @@ end
         read_parameters(prm, config);
         for (const auto &assignment : overrides)
           apply_override(prm, assignment);
-        if (!seed.empty())
+        // Given but empty is not "not given".
+        if (run->get_option("--seed")->count() > 0)
           apply_override(prm, "study/seed=" + seed);
         // Stored parameters name data files absolutely, so that a study
         // folder can be summarised or resumed from anywhere.

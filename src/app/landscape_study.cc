@@ -7,6 +7,7 @@
 #include <alloyspec/core/errors.h>
 #include <alloyspec/app/landscape_study.h>
 #include <alloyspec/core/progress.h>
+#include <alloyspec/io/record_reader.h>
 #include <alloyspec/io/results_store.h>
 #include <alloyspec/fe/spectral_problem.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
@@ -86,7 +87,7 @@ namespace alloyspec
     // Stored eigenvalues of the same realisations (from `alloyspec run` into this folder).
     std::map<std::pair<std::uint64_t, std::string>, RealisationRecord> stored;
     if (std::filesystem::exists(std::filesystem::path(output_directory) / "realisations.csv"))
-      for (auto &r : ResultsStore::read(output_directory))
+      for (auto &r : read_stored_records(output_directory).records)
         stored[{r.realisation, r.boundary}] = std::move(r);
 
     const std::uint64_t first = s.study_.first_realisation, n = s.study_.realisations;

@@ -4,6 +4,8 @@
 #include <alloyspec/solver/landscape.h>
 #include <alloyspec/core/interrupt.h>
 #include <alloyspec/core/progress.h>
+#include <alloyspec/io/folder_lock.h>
+#include <alloyspec/io/record_reader.h>
 #include <alloyspec/io/results_store.h>
 #include <alloyspec/fe/spectral_problem.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
@@ -152,10 +154,12 @@ namespace alloyspec
     energies          = parse_energy_grid(energies_text, "study/energies");
     export_eigenfunctions.clear();
     for (const auto &x : dealii::Utilities::split_string_list(prm.get("export eigenfunctions")))
-      export_eigenfunctions.push_back(static_cast<unsigned int>(std::stoul(x)));
+      export_eigenfunctions.push_back(
+        static_cast<unsigned int>(parse_count(x, "study/export eigenfunctions", 0, 100000)));
     export_realisations.clear();
     for (const auto &x : dealii::Utilities::split_string_list(prm.get("export realisations")))
-      export_realisations.push_back(std::stoull(x));
+      export_realisations.push_back(
+        parse_count(x, "study/export realisations", 0, max_realisations - 1));
     prm.leave_subsection();
     prm.enter_subsection("spectrum");
     boundaries.clear();
@@ -209,40 +213,105 @@ namespace alloyspec
           throw InputError("parameter 'spectrum/boundary conditions': 'periodic' is not allowed "
                            "with 'lattice/mesh file' (allowed: dirichlet, neumann)");
     analysis_.parse_parameters(prm);
+    // Checked here too, although only `landscape` uses them: a run accepts no
+    // entry it has not checked.
+    LandscapeSettings landscape;
+    landscape.parse_parameters(prm);
   }
 
   void Study::run(const RunOptions &options)
   {
-    const bool   root = dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0;
+    const bool root = dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0;
     // Checked before anything is written (the same verdict on every rank).
     teams_ = std::make_unique<RealisationTeams>(options.ranks_per_realisation);
     // SIGINT/SIGTERM from here on finish the running realisation first.
     std::optional<InterruptGuard> interrupt_guard(std::in_place);
-    ResultsStore store(options.output_directory, options.resume);
     output_directory_ = options.output_directory;
-    // Only rank 0 writes; every rank must learn if it refused (else the others hang).
+
+    // Rank 0 owns the folder: it checks it, creates it, locks it for the whole
+    // run and records the parameters. Every rank learns the verdict, so that
+    // no rank waits for one that gave up (a hang).
+    std::optional<ResultsStore> store;
+    std::unique_ptr<FolderLock> lock;
+    bool                        wrote_parameters = false;
+    stored_any_                                  = false;
+    // A run refused before it stored anything leaves the folder as it found it.
+    auto roll_back = [&] {
+      if (!root || !store || stored_any_)
+        return;
+      std::error_code ignored;
+      if (wrote_parameters)
+        std::filesystem::remove(store->path("parameters.prm"), ignored);
+      const bool created = store->created_folder();
+      lock.reset();
+      if (created)
+        std::filesystem::remove(options.output_directory, ignored); // only if empty
+    };
+    {
+      const auto [error, input_error] = capture_error([&] {
+        if (!root)
+          return;
+        store.emplace(options.output_directory, options.resume);
+        lock = std::make_unique<FolderLock>(options.output_directory,
+                                            options.resume ? "resume the study there" :
+                                                             "run a study there");
+        if (lock->took_over_stale())
+          std::cerr << "alloyspec: warning: the folder's lock was left by a run that ended "
+                       "without releasing it ("
+                    << lock->stale_holder() << "); taken over\n";
+        // Another run may have filled the folder before the lock was ours.
+        if (!options.resume)
+          store->refuse_earlier_study();
+        wrote_parameters = check_and_record_parameters(*store, options);
+        if (options.resume)
+          for (const auto &warning : store->prepare_resume())
+            std::cerr << "alloyspec: warning: " << warning << '\n';
+      });
+      if (!error.empty())
+        roll_back();
+      throw_if_any_failed(MPI_COMM_WORLD, error, input_error);
+    }
+    if (!root)
+      store.emplace(ResultsStore::attach(options.output_directory));
+    try
+      {
+        if (error_settings_.accuracy)
+          {
+            ScopedTimer t(timings_, "choose_discretisation");
+            choose_for_accuracy(root);
+          }
+        { ScopedTimer t(timings_, "make_grid");    make_grid(); }
+        { ScopedTimer t(timings_, "setup_system"); setup_system(); }
+        { ScopedTimer t(timings_, "assemble");     assemble(); }
+        { ScopedTimer t(timings_, "solve");        solve(*store, options); }
+      }
+    catch (const Interrupted &)
+      {
+        throw;
+      }
+    catch (...)
+      {
+        roll_back();
+        throw;
+      }
+    // The guard stays up: a stop request that arrives once every realisation
+    // is stored lets the (quick) tables be written rather than die half-way
+    // through them (a second signal still ends the process at once); the run
+    // then ends with the signal's status, as any stopped run does.
     const auto [error, input_error] = capture_error([&] {
       if (root)
-        check_and_record_parameters(store, options);
+        {
+          ScopedTimer t(timings_, "postprocess");
+          postprocess(*store, options);
+        }
     });
     throw_if_any_failed(MPI_COMM_WORLD, error, input_error);
-    if (error_settings_.accuracy)
-      {
-        ScopedTimer t(timings_, "choose_discretisation");
-        choose_for_accuracy(root);
-      }
-    { ScopedTimer t(timings_, "make_grid");    make_grid(); }
-    { ScopedTimer t(timings_, "setup_system"); setup_system(); }
-    { ScopedTimer t(timings_, "assemble");     assemble(); }
-    { ScopedTimer t(timings_, "solve");        solve(store, options); }
-    // The guard stays up: a stop request that arrives once every realisation
-    // is stored lets the (quick) tables be written and the run end normally,
-    // rather than die half-way through them; a second signal still ends it.
-    if (root)
-      {
-        ScopedTimer t(timings_, "postprocess");
-        postprocess(store, options);
-      }
+    if (const int signal = dealii::Utilities::MPI::max(InterruptGuard::received(), MPI_COMM_WORLD))
+      throw Interrupted(signal, "stopped on " + signal_name(signal) +
+                                  " while the tables were written; all " +
+                                  std::to_string(study_.realisations) +
+                                  " realisations are stored in '" + store->directory() +
+                                  "' and the tables were completed");
   }
 
   void Study::make_grid()
@@ -440,8 +509,12 @@ namespace alloyspec
     if (options.resume)
       {
         std::map<std::uint64_t, std::size_t> stored;
-        for (const auto &r : ResultsStore::read(store.directory()))
-          ++stored[r.realisation];
+        const auto [error, input_error] = capture_error([&] {
+          // Rank 0 has already read these strictly and cut any torn remains.
+          for (const auto &r : read_stored_records(store.directory()).records)
+            ++stored[r.realisation];
+        });
+        throw_if_any_failed(comm, error, input_error);
         for (const auto &[r, n] : stored)
           if (n == study_.boundaries.size())
             done.insert(r);
@@ -488,18 +561,27 @@ namespace alloyspec
               }
         });
         // Rank 0 owns the files; it appends every finished realisation of
-        // this round before any rank starts the next one.
+        // this round before any rank starts the next one. A failed write (a
+        // full disk) is reported to every rank like a failed solve, so none
+        // waits for a round that never comes.
         const auto eigen_all   = dealii::Utilities::MPI::gather(comm, eigen_text, 0);
         const auto summary_all = dealii::Utilities::MPI::gather(comm, summary_text, 0);
-        if (rank == 0)
-          {
-            for (unsigned int p = 0; p < ranks; ++p)
-              if (!summary_all[p].empty())
+        const auto [write_error, write_input_error] = capture_error([&] {
+          if (rank != 0)
+            return;
+          for (unsigned int p = 0; p < ranks; ++p)
+            if (!summary_all[p].empty())
+              {
                 store.append_text(eigen_all[p], summary_all[p]);
-            progress.update(std::min(pending.size(), (round + 1) * teams));
-          }
-        // After storing what the other ranks finished.
-        throw_if_any_failed(comm, error, input_error);
+                stored_any_ = true;
+              }
+          progress.update(std::min(pending.size(), (round + 1) * teams));
+        });
+        // After storing what the other ranks finished; a solve's error first.
+        if (error.empty())
+          throw_if_any_failed(comm, write_error, write_input_error);
+        else
+          throw_if_any_failed(comm, error, input_error);
       }
     progress.finish();
   }
@@ -551,8 +633,25 @@ namespace alloyspec
     in.source_directory = directory;
 
     std::set<std::uint64_t> realisations;
-    for (auto &r : ResultsStore::read(directory))
-      if (r.realisation >= study_.first_realisation &&
+    StoredRecords read = read_stored_records(directory);
+    for (const auto &warning : read.warnings)
+      std::cerr << "alloyspec: warning: " << warning << '\n';
+    // A realisation counts only with every boundary condition stored: the
+    // last summary lines of a round can be lost to a crash, and averaging
+    // Dirichlet over more realisations than Neumann would skew the bracket.
+    std::map<std::uint64_t, std::size_t> boundaries_stored;
+    for (const auto &r : read.records)
+      ++boundaries_stored[r.realisation];
+    std::size_t incomplete = 0;
+    for (const auto &[r, n] : boundaries_stored)
+      incomplete += n != study_.boundaries.size();
+    if (incomplete > 0)
+      std::cerr << "alloyspec: warning: " << directory << ": " << incomplete
+                << " realisation(s) lack a boundary condition (an interrupted run); they are "
+                   "left out of the tables until the study is resumed\n";
+    for (auto &r : read.records)
+      if (boundaries_stored[r.realisation] == study_.boundaries.size() &&
+          r.realisation >= study_.first_realisation &&
           r.realisation < study_.first_realisation + study_.realisations &&
           std::find_if(study_.boundaries.begin(), study_.boundaries.end(), [&](Boundary bc) {
             return to_string(bc) == r.boundary;
@@ -568,6 +667,11 @@ namespace alloyspec
           r.potential_max  = units_.to_user_energy(r.potential_max);
           in.records.push_back(std::move(r));
         }
+    if (realisations.empty())
+      throw InputError("study folder '" + directory + "' holds no complete record of realisations " +
+                       std::to_string(study_.first_realisation) + " to " +
+                       std::to_string(study_.first_realisation + study_.realisations - 1) +
+                       " (nothing to tabulate; resume the study to compute them)");
     if (!potential_.is_random())
       {
         const std::vector<double> q = potential_.cell_values(study_.seed, 0);
@@ -597,15 +701,15 @@ namespace alloyspec
     return stored;
   }
 
-  void Study::check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const
+  bool Study::check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const
   {
     const std::string stored_path = store.path("parameters.prm");
-    if (options.resume && std::filesystem::exists(stored_path))
+    const bool        had_file    = std::filesystem::exists(stored_path);
+    // Records without their parameters cannot be continued: the model they
+    // belong to is unknown, and a resume would label them with today's.
+    if (options.resume && (had_file || ResultsStore::holds_records(store.directory())))
       {
-        std::ifstream      in(stored_path);
-        std::ostringstream text;
-        text << in.rdbuf();
-        const auto before = flatten_parameters(text.str());
+        const auto before = flatten_parameters(ResultsStore::read_stored_parameters(store.directory()));
         const auto now    = flatten_parameters(options.parameters_prm);
         std::string differ;
         for (const auto &[key, value] : now)
@@ -623,6 +727,7 @@ namespace alloyspec
                            differ);
       }
     store.write_file("parameters.prm", options.parameters_prm);
+    return !had_file;
   }
 
   void Study::postprocess(const ResultsStore &store, const RunOptions &options)

@@ -316,7 +316,7 @@ namespace alloyspec
                                                                            Eigen::EigenvaluesOnly);
           std::vector<double> genuine;
           for (Eigen::Index i = 0; i < reference.eigenvalues().size(); ++i)
-            if (reference.eigenvalues()(i) < 0.5 * s.problem->spurious_eigenvalue)
+            if (reference.eigenvalues()(i) < s.problem->spurious_threshold())
               genuine.push_back(reference.eigenvalues()(i));
           for (std::size_t i = 0; i < s.result.eigenvalues.size(); ++i)
             worst = i < genuine.size() ?

@@ -135,6 +135,7 @@ namespace alloyspec::internal
         q_min = std::min(q_min, cell_values[c]), q_max = std::max(q_max, cell_values[c]);
       problem.lower_bound         = q_min;
       problem.spurious_eigenvalue = spurious_eigenvalue(q_max);
+      problem.upper_bound         = element_bound_ + q_max;
 
       MatCopy(stiffness_, problem.K, SAME_NONZERO_PATTERN);
       const unsigned int         dofs_per_cell = fe_.n_dofs_per_cell();

@@ -367,7 +367,7 @@ namespace alloyspec
         {
           PetscScalar lambda = 0;
           ALLOYSPEC_CHECK(EPSGetEigenpair(eps, i, &lambda, nullptr, x, nullptr));
-          if (!(lambda < 0.5 * problem.spurious_eigenvalue))
+          if (!(lambda < problem.spurious_threshold()))
             continue; // an eigenvalue of the constrained rows, not of H
           ALLOYSPEC_CHECK(MatMult(K, x, kx));
           ALLOYSPEC_CHECK(MatMult(M, x, mx));
@@ -529,7 +529,7 @@ namespace alloyspec
           ALLOYSPEC_CHECK(VecScale(kx, scale));
           ALLOYSPEC_CHECK(VecScale(mx, scale));
           const double lambda = xkx / xmx;
-          if (!(lambda < 0.5 * problem.spurious_eigenvalue))
+          if (!(lambda < problem.spurious_threshold()))
             continue;
           unsorted.values.push_back(lambda);
           unsorted.residuals.push_back(relative_residual(kx, mx, lambda));

@@ -109,8 +109,12 @@ namespace alloyspec
     void assemble();
     void solve(const ResultsStore &store, const RunOptions &options);
     void postprocess(const ResultsStore &store, const RunOptions &options);
-    /** Stores parameters.prm; on resume, refuses other model parameters than stored. */
-    void check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const;
+    /**
+     * Stores parameters.prm; on resume, refuses other model parameters than
+     * stored, and a folder whose records have lost their parameter file.
+     * Returns true if the file did not exist before.
+     */
+    bool check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const;
 
     /** Pilot solve for `discretisation/accuracy`: sets degree and elements per cell. */
     void choose_for_accuracy(bool root);
@@ -159,6 +163,8 @@ namespace alloyspec
     std::vector<std::unique_ptr<ErrorEstimator>>  estimators_; ///< per boundary, if estimating
     std::map<std::string, double>                 timings_;
     std::size_t                                   solved_here_ = 0;
+    /** Rank 0: a record of this run reached the folder (a failure then keeps the folder). */
+    bool                                          stored_any_ = false;
     std::string                                   output_directory_;
   };
 } // namespace alloyspec
