@@ -531,7 +531,12 @@ end
                 total += seconds, first = false;
               }
             std::cout << " (total " << readable_seconds(total) << ")\n";
-            print_closing_summary(output);
+            if (study.tilted())
+              std::cout << "Results in " << output
+                        << "/: eigenvalues.csv, realisations.csv (with log_weight), ids.csv and "
+                           "tail.csv (importance-weighted), run.json, parameters.prm\n";
+            else
+              print_closing_summary(output);
             std::cout << "These are model estimates for the stated model and box, not measurements.\n";
           }
         return 0;
