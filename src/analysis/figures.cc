@@ -54,7 +54,7 @@ namespace alloyspec
     std::string style_header()
     {
       return "set encoding utf8\n"
-             "set datafile missing 'NaN'\n"
+             "set datafile missing 'nan'\n"
              "set grid lc rgb '#dddddd'\n"
              "set key outside right top vertical nobox noopaque samplen 1.5 spacing 0.9 font ',10'\n"
              "set border lw 1.2\n"

@@ -357,7 +357,7 @@ namespace alloyspec
         }
       plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
            << "set ylabel " << gnuplot_string("IDS N_L(E) (" + ids_unit + ")") << "\n"
-           << "set key top left\nplot ";
+           << "plot ";
       for (std::size_t k = 0; k < series.size(); ++k)
         for (std::size_t b = 0; b < bcs.size(); ++b)
           plot << (k + b ? ", \\\n     " : "") << "data using 1:" << 2 + k * bcs.size() + b
@@ -516,7 +516,7 @@ namespace alloyspec
           }
         plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
              << "set ylabel " << gnuplot_string("N∞(E) (" + ids_unit + ")") << "\n"
-             << "set key top left\nplot ";
+             << "plot ";
         for (std::size_t b = 0; b < bcs.size(); ++b)
           {
             const std::size_t c   = 2 + 5 * b;
