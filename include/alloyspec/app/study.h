@@ -116,6 +116,11 @@ namespace alloyspec
      */
     bool check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const;
 
+    /** InputError if a cell value can exceed the magnitude the solver resolves (study.cc). */
+    void check_potential_scale() const;
+    /** InputError, with the estimate, if the study certainly cannot fit in this machine's memory. */
+    void check_memory() const;
+
     /** Pilot solve for `discretisation/accuracy`: sets degree and elements per cell. */
     void choose_for_accuracy(bool root);
 
