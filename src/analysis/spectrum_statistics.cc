@@ -135,18 +135,22 @@ namespace alloyspec
     , volume_(volume)
     , sum_(energies_.size(), 0.0)
     , sum_sq_(energies_.size(), 0.0)
+    , raw_sum_(energies_.size(), 0.0)
+    , raw_sum_sq_(energies_.size(), 0.0)
     , complete_(energies_.size(), true)
   {
     if (!(volume_ > 0.0) || !std::isfinite(volume_))
       throw std::invalid_argument("IdsAccumulator: volume must be positive and finite");
   }
 
-  void IdsAccumulator::add(const std::vector<double> &eigenvalues, const double complete_up_to)
+  void IdsAccumulator::add(const std::vector<double> &eigenvalues, const double complete_up_to,
+                           const double log_weight)
   {
-    add_normalised(counting_function(eigenvalues, volume_, energies_), complete_up_to);
+    add_normalised(counting_function(eigenvalues, volume_, energies_), complete_up_to,
+                   log_weight);
   }
 
-  void IdsAccumulator::add_counts(const std::vector<std::size_t> &counts)
+  void IdsAccumulator::add_counts(const std::vector<std::size_t> &counts, const double log_weight)
   {
     if (counts.size() != energies_.size())
       throw std::invalid_argument("IdsAccumulator::add_counts: one count per energy is needed");
@@ -154,11 +158,26 @@ namespace alloyspec
     normalised.reserve(counts.size());
     for (const std::size_t c : counts)
       normalised.push_back(double(c) / volume_);
-    add_normalised(normalised, std::numeric_limits<double>::infinity());
+    add_normalised(normalised, std::numeric_limits<double>::infinity(), log_weight);
   }
 
-  void IdsAccumulator::add_normalised(const std::vector<double> &counts, const double complete_up_to)
+  double IdsAccumulator::weight_effective_sample_size() const
   {
+    return weight_sum_sq_ > 0 ? weight_sum_ * weight_sum_ / weight_sum_sq_ : 0.0;
+  }
+
+  void IdsAccumulator::add_normalised(const std::vector<double> &unweighted,
+                                      const double complete_up_to, const double log_weight)
+  {
+    if (!std::isfinite(log_weight))
+      throw std::invalid_argument("IdsAccumulator: log weight must be finite");
+    // Plain sampling keeps the counts bit for bit (w = e^0 = 1 exactly).
+    const double        w = std::exp(log_weight);
+    std::vector<double> counts(unweighted);
+    for (double &c : counts)
+      c *= w;
+    weight_sum_ += w;
+    weight_sum_sq_ += w * w;
     // Sums of deviations from the first realisation (the "shifted data"
     // algorithm): the variance formula is shift-invariant, and with a shift near
     // the mean the cancellation in Σx² − (Σx)²/n no longer loses the digits that
@@ -170,6 +189,8 @@ namespace alloyspec
         const double deviation = counts[i] - shift_[i];
         sum_[i] += deviation;
         sum_sq_[i] += deviation * deviation;
+        raw_sum_[i] += counts[i];
+        raw_sum_sq_[i] += counts[i] * counts[i];
         // Written so that a NaN bound marks every point incomplete.
         if (!(energies_[i] <= complete_up_to))
           complete_[i] = false;
@@ -187,6 +208,8 @@ namespace alloyspec
         Row row{energies_[i], 0.0, 0.0, n_, n_ > 0 && complete_[i]};
         if (n_ > 0)
           row.mean = shift_[i] + sum_[i] / n;
+        if (raw_sum_sq_[i] > 0)
+          row.effective_sample_size = raw_sum_[i] * raw_sum_[i] / raw_sum_sq_[i];
         if (n_ > 1)
           {
             const double variance =

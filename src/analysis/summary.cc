@@ -4,6 +4,7 @@
 #include <alloyspec/analysis/spectrum_statistics.h>
 #include <alloyspec/analysis/summary.h>
 #include <alloyspec/analysis/size_series.h>
+#include <alloyspec/analysis/tail_table.h>
 
 #include <algorithm>
 #include <array>
@@ -18,6 +19,12 @@ namespace alloyspec
 {
   namespace
   {
+    /**
+     * Weights are called degenerate when their effective sample size is below
+     * this share of the realisations (common practice, no source).
+     */
+    constexpr double min_effective_share = 0.1;
+
     /** Entries that may differ between folders of one model. */
     bool is_run_only(const std::string &key)
     {
@@ -267,7 +274,7 @@ namespace alloyspec
     for (const auto &r : merged.records)
       for (std::size_t b = 0; b < merged.boundaries.size(); ++b)
         if (r.boundary == merged.boundaries[b])
-          ids[b].add(r.eigenvalues, r.complete_up_to);
+          ids[b].add(r.eigenvalues, r.complete_up_to, r.log_weight);
     std::vector<std::vector<IdsAccumulator::Row>> rows;
     for (const auto &a : ids)
       rows.push_back(a.rows());
@@ -279,6 +286,37 @@ namespace alloyspec
         format_ids_table(merged.boundaries, merged.energies, rows, semiclassical, n_realisations),
         merged));
 
+    ResultsStore::write_file_in(
+      output_dir, "tail.csv",
+      with_energy_columns(format_tail_table(merged.boundaries, rows, settings.confidence_level),
+                          merged));
+
+    std::vector<std::string> warnings;
+    const bool weighted = std::any_of(merged.records.begin(), merged.records.end(),
+                                      [](const RealisationRecord &r) { return r.log_weight != 0; });
+    if (weighted)
+      {
+        // Degenerate weights: a few realisations carry the whole estimate.
+        for (std::size_t b = 0; b < ids.size(); ++b)
+          {
+            const double ess = ids[b].weight_effective_sample_size();
+            std::ostringstream message;
+            message << "tilted sampling, " << merged.boundaries[b]
+                    << ": effective sample size of the weights " << ess << " of "
+                    << ids[b].n_realisations() << " realisations, mean weight "
+                    << ids[b].mean_weight();
+            if (ess < min_effective_share * double(ids[b].n_realisations()))
+              message << "; the weights are degenerate (few realisations dominate): read the "
+                         "intervals with care, or choose a smaller tilt";
+            warnings.push_back(message.str());
+          }
+        // Only ids.csv and tail.csv are weighted so far; the other tables
+        // would silently ignore the weights, so they are not written.
+        warnings.push_back("tilted sampling: ids.csv and tail.csv are importance-weighted; the "
+                           "DOS, bootstrap bands, tail fits, localisation tables, local trace, "
+                           "figures and report are not written for weighted samples");
+        return warnings;
+      }
     write_local_trace_table(output_dir, merged, rows, settings.lorentzian_width);
     merged.ids_table = (std::filesystem::path(output_dir) / "ids.csv").string();
     return write_analysis(output_dir, merged, settings);
@@ -313,6 +351,13 @@ namespace alloyspec
       return write_study_tables(output_dir, studies, settings);
 
     // A box-size series: one merged study per size, then the 1/L extrapolation.
+    for (const auto &s : studies)
+      for (const auto &r : s.input.records)
+        if (r.log_weight != 0)
+          throw InputError("summarise: '" + s.directory +
+                           "' was run with sampling/method = tilted; a box-size series of "
+                           "tilted studies is not supported (its extrapolation would ignore "
+                           "the weights); summarise each box size on its own");
     std::vector<std::string>   warnings;
     std::vector<AnalysisInput> per_size;
     for (const auto &[cells, group] : by_cells)

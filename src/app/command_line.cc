@@ -522,8 +522,12 @@ end
             for (const auto &[name, seconds] : study.timings())
               std::cout << ' ' << name << ' ' << seconds;
             std::cout << "\nResults in " << output
-                      << "/: eigenvalues.csv, realisations.csv, ids.csv, dos.csv, tails.json, "
-                         "localisation.csv, figures/, report.html, run.json, parameters.prm\n"
+                      << (study.tilted()
+                            ? "/: eigenvalues.csv, realisations.csv (with log_weight), ids.csv and "
+                              "tail.csv (importance-weighted), run.json, parameters.prm\n"
+                            : "/: eigenvalues.csv, realisations.csv, ids.csv, tail.csv, dos.csv, "
+                              "tails.json, localisation.csv, figures/, report.html, run.json, "
+                              "parameters.prm\n")
                       << "These are model estimates for the stated model and box, not measurements.\n";
           }
         return 0;

@@ -6,6 +6,7 @@
 #include <alloyspec/fe/spectral_problem.h>
 #include <alloyspec/model/lattice.h>
 #include <alloyspec/model/potential_model.h>
+#include <alloyspec/model/sampling.h>
 #include <alloyspec/model/weyl_law.h>
 #include <alloyspec/io/results_store.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
@@ -61,6 +62,11 @@ namespace alloyspec
     potential.parse_parameters(prm, lattice);
     discretisation_settings.parse_parameters(prm);
     study.parse_parameters(prm);
+    SamplingSettings sampling;
+    sampling.parse_parameters(prm);
+    if (sampling.is_tilted())
+      throw InputError("sampling/method = tilted is not supported by the count command (its "
+                       "averages are unweighted); use 'alloyspec run', or sampling/method = plain");
 
     ResultsStore store(options.output_directory, false);
     if (rank == 0)

@@ -73,6 +73,9 @@ namespace alloyspec
     if (dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) != 0)
       return {};
     Study                    &s = study_;
+    if (s.sampling_.is_tilted())
+      throw InputError("sampling/method = tilted is not supported by the landscape command (its "
+                       "averages are unweighted); use sampling/method = plain");
     const UnitSystem         &units = s.units_;
     const unsigned int        dim   = s.lattice_.dimension();
     const auto               &boundaries = s.study_.boundaries;

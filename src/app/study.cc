@@ -212,6 +212,7 @@ namespace alloyspec
     ErrorEstimateSettings::declare_parameters(prm);
     EigenSolverSettings::declare_parameters(prm);
     StudySettings::declare_parameters(prm);
+    SamplingSettings::declare_parameters(prm);
     AnalysisSettings::declare_parameters(prm);
   }
 
@@ -231,6 +232,14 @@ namespace alloyspec
     if (solver_settings_.energy_cutoff)
       solver_settings_.energy_cutoff = units_.to_solver_energy(*solver_settings_.energy_cutoff);
     study_.parse_parameters(prm);
+    sampling_.parse_parameters(prm);
+    if (sampling_.is_tilted())
+      {
+        if (sampling_.automatic)
+          throw InputError("sampling/tilt = auto is not available yet; give the tilt θ as a "
+                           "number (in inverse units of the energy unit, |θ| ≤ 1e6)");
+        potential_.set_tilt(sampling_.tilt);
+      }
     if (geometry_.has_mesh())
       for (const Boundary bc : study_.boundaries)
         if (bc == Boundary::periodic)
@@ -538,6 +547,7 @@ namespace alloyspec
     record.potential_min  = *std::min_element(q.begin(), q.end());
     record.potential_max  = *std::max_element(q.begin(), q.end());
     record.attempts       = result.attempts;
+    record.log_weight     = potential_.log_weight(potential_.cell_values(study_.seed, realisation));
     // The central cell (floor(L_i/2)) for the local-trace estimator.
     std::array<unsigned int, 3> centre{0, 0, 0};
     for (unsigned int d = 0; d < lattice_.dimension(); ++d)
@@ -755,6 +765,9 @@ namespace alloyspec
     for (const std::uint64_t r : realisations)
       {
         const std::vector<double> q = solver_cell_values(r);
+        // Tilted sampling: weighted like every other average (w = 1 when plain).
+        const double w =
+          std::exp(potential_.log_weight(potential_.cell_values(study_.seed, r)));
         for (std::size_t i = 0; i < study_.energies.size(); ++i)
           {
             double sum = 0;
@@ -762,7 +775,7 @@ namespace alloyspec
               if (cell_volumes[n] > 0)
                 sum += cell_volumes[n] *
                        free_ids_density(lattice_.dimension(), solver_energies[i] - q[n]);
-            stored.semiclassical_sum[i] += sum / volume;
+            stored.semiclassical_sum[i] += w * sum / volume;
           }
       }
     return stored;
@@ -830,6 +843,11 @@ namespace alloyspec
          << ", \"description\": \"" << json_escape(units_.description()) << "\"},\n"
          << "  \"geometry\": \"" << json_escape(geometry_.description()) << "\",\n"
          << "  \"potential\": \"" << json_escape(potential_.description()) << "\",\n"
+         << "  \"sampling\": {\"method\": \"" << sampling_.method_name() << "\", \"tilt\": "
+         << number(sampling_.is_tilted() ? sampling_.tilt : 0.0) << ", \"tilt_choice\": \""
+         << (sampling_.is_tilted() ? (sampling_.automatic ? "auto" : "given") : "none")
+         << "\", \"target_energy\": "
+         << (sampling_.target_energy ? number(*sampling_.target_energy) : "null") << "},\n"
          << "  \"degrees_of_freedom\": {";
     for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
       json << (b ? ", " : "") << '"' << to_string(study_.boundaries[b])

@@ -214,8 +214,13 @@ namespace alloyspec
     std::vector<const Line *>      record_lines;
     std::vector<std::uint64_t>     expected; // eigenvalue count per summary line
     std::size_t                    fields = 0;
+    // Folders written before tilted sampling have no log_weight column (weight 1).
+    const std::string older_summary =
+      "realisation,boundary,n_eigenvalues,complete_up_to,inertia_count,potential_min,"
+      "potential_max,solve_seconds,attempts";
     if (summary.exists &&
-        check_header(summary, {ResultsStore::summary_header}, fields, result.warnings))
+        check_header(summary, {ResultsStore::summary_header, older_summary}, fields,
+                     result.warnings))
       {
         result.summary_bytes = summary.lines.front().end;
         std::set<std::pair<std::uint64_t, std::string>> seen;
@@ -243,6 +248,8 @@ namespace alloyspec
             if (attempts > 1000)
               refuse(summary, line, "attempts is " + f[8] + " (at most a few are ever made)");
             r.attempts = static_cast<unsigned int>(attempts);
+            if (fields == 10)
+              r.log_weight = real_number(summary, line, f[9], "log_weight", false);
             if (!seen.insert({r.realisation, r.boundary}).second)
               refuse(summary, line, "realisation " + f[0] + " (" + f[1] +
                                       ") is stored a second time");

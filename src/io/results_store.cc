@@ -102,7 +102,8 @@ namespace alloyspec
     return std::to_string(realisation) + "," + boundary + "," + std::to_string(eigenvalues.size()) +
            "," + full_precision(complete_up_to) + "," + std::to_string(inertia_count) + "," +
            full_precision(potential_min) + "," + full_precision(potential_max) + "," +
-           full_precision(solve_seconds) + "," + std::to_string(attempts) + "\n";
+           full_precision(solve_seconds) + "," + std::to_string(attempts) + "," +
+           full_precision(log_weight) + "\n";
   }
 
   ResultsStore::ResultsStore(std::string directory, bool resume)

@@ -340,6 +340,8 @@ namespace alloyspec
     if (!law)
       throw std::invalid_argument("PotentialModel::set_law: null law");
     law_     = std::move(law);
+    tilted_law_.reset();
+    theta_ = log_moment_ = 0;
     n_cells_ = lattice.n_cells();
     fixed_values_.clear();
     fixed_source_.clear();
@@ -353,6 +355,8 @@ namespace alloyspec
                                   std::to_string(values.size()) + " values for " +
                                   std::to_string(lattice.n_cells()) + " cells");
     law_.reset();
+    tilted_law_.reset();
+    theta_ = log_moment_ = 0;
     fixed_values_ = std::move(values);
     n_cells_      = fixed_values_.size();
     fixed_source_ = "given values";
@@ -368,10 +372,44 @@ namespace alloyspec
           throw std::logic_error("PotentialModel::cell_values: no law and no values set");
         return fixed_values_;
       }
-    std::vector<double> q(n_cells_);
+    const SingleSiteLaw &law = *sampling_law();
+    std::vector<double>  q(n_cells_);
     for (std::size_t n = 0; n < n_cells_; ++n)
-      q[n] = law_->quantile(uniform_open01(seed, realisation, n));
+      q[n] = law.quantile(uniform_open01(seed, realisation, n));
     return q;
+  }
+
+
+  void PotentialModel::set_tilt(const double theta)
+  {
+    if (!law_)
+      throw InputError("sampling/method = tilted needs a random law; potential/law = file gives "
+                       "one fixed potential (use sampling/method = plain)");
+    tilted_law_.reset();
+    theta_ = log_moment_ = 0;
+    if (theta == 0.0)
+      return;
+    TiltedLaw tilted = law_->tilted(theta);
+    tilted_law_      = std::move(tilted.law);
+    theta_           = tilted.theta;
+    log_moment_      = tilted.log_moment;
+  }
+
+
+  double PotentialModel::log_weight(const std::vector<double> &q) const
+  {
+    if (!tilted_law_)
+      return 0.0;
+    // Neumaier's compensated sum of θ q_n + ln M over the cells.
+    double sum = 0, compensation = 0;
+    for (const double value : q)
+      {
+        const double term = theta_ * value + log_moment_;
+        const double t    = sum + term;
+        compensation += std::abs(sum) >= std::abs(term) ? (sum - t) + term : (term - t) + sum;
+        sum = t;
+      }
+    return sum + compensation;
   }
 
 

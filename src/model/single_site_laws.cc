@@ -2,6 +2,7 @@
 #include <alloyspec/core/text_input.h>
 #include <alloyspec/core/errors.h>
 #include <alloyspec/model/single_site_laws.h>
+#include <alloyspec/model/tilted_laws.h>
 
 #include <algorithm>
 #include <cmath>
@@ -39,6 +40,15 @@ namespace alloyspec
     {
       if (!std::isfinite(x))
         throw InputError(name + " = " + fmt(x) + " is not allowed, it must be a finite number");
+    }
+
+    /** θ = 0: the law itself, with ln M = 0 exactly (so log w = 0 exactly). */
+    template <class Law>
+    TiltedLaw untilted_copy(const Law &law)
+    {
+      TiltedLaw result;
+      result.law = std::make_unique<Law>(law);
+      return result;
     }
 
     /** Parses a whole token as a double; false if anything is left over. */
@@ -258,6 +268,10 @@ namespace alloyspec
       {
         return "uniform on [" + fmt(a_) + ", " + fmt(b_) + "]";
       }
+      TiltedLaw tilted(const double theta) const override
+      {
+        return make_tilted_uniform_law(a_, b_, theta);
+      }
 
     private:
       double a_, b_;
@@ -326,6 +340,37 @@ namespace alloyspec
       double      support_min() const override { return support_min_; }
       double      support_max() const override { return support_max_; }
       std::string description() const override { return description_; }
+
+      /**
+       * Closed form: @f$p_i^\theta = p_i e^{-\theta v_i}/M@f$,
+       * @f$\ln M = \ln\sum_i e^{\ln p_i - \theta v_i}@f$ (summed in log form,
+       * so no term overflows).
+       */
+      TiltedLaw tilted(const double theta) const override
+      {
+        if (theta == 0.0)
+          return untilted_copy(*this);
+        std::vector<double> log_terms(values_.size());
+        double              log_moment = -infinity;
+        for (std::size_t i = 0; i < values_.size(); ++i)
+          {
+            log_terms[i] = probabilities_[i] > 0 ? std::log(probabilities_[i]) - theta * values_[i]
+                                                 : -infinity;
+            log_moment   = log_add_exp(log_moment, log_terms[i]);
+          }
+        if (!std::isfinite(log_moment))
+          throw InputError("sampling/tilt = " + fmt(theta) + " is too strong for the law " +
+                           description_ + "; choose a smaller |tilt|");
+        std::vector<std::pair<double, double>> tilted_pairs;
+        for (std::size_t i = 0; i < values_.size(); ++i)
+          tilted_pairs.emplace_back(values_[i], std::exp(log_terms[i] - log_moment));
+        TiltedLaw result;
+        result.theta      = theta;
+        result.log_moment = log_moment;
+        result.law        = std::make_unique<DiscreteLaw>(std::move(tilted_pairs),
+                                                   description_ + ", tilted by " + fmt(theta));
+        return result;
+      }
 
     private:
       std::vector<double> values_, probabilities_, cumulative_;
@@ -400,6 +445,41 @@ namespace alloyspec
         return text;
       }
 
+      /**
+       * Closed form: @f$e^{-\theta q}\varphi((q-\mu)/\sigma)@f$ is a normal
+       * density with mean @f$\mu - \theta\sigma^2@f$, so the tilted law is the
+       * shifted normal (cut to the same [a, b] if truncated), and
+       * @f$\ln M = -\theta\mu + \theta^2\sigma^2/2 + \ln(Z_\theta/Z)@f$ with Z,
+       * Z_θ the masses of [a, b] under the two normals (1 untruncated).
+       */
+      TiltedLaw tilted(const double theta) const override
+      {
+        if (theta == 0.0)
+          return untilted_copy(*this);
+        const double shifted = mu_ - theta * sigma_ * sigma_;
+        TiltedLaw    result;
+        result.theta      = theta;
+        result.log_moment = -theta * mu_ + 0.5 * theta * theta * sigma_ * sigma_;
+        if (!std::isfinite(shifted) || !std::isfinite(result.log_moment))
+          throw InputError("sampling/tilt = " + fmt(theta) + " is too strong for the law " +
+                           description());
+        if (!truncated_)
+          {
+            result.law = std::make_unique<GaussianLaw>(shifted, sigma_);
+            return result;
+          }
+        const double reach = max_truncation_distance * sigma_;
+        if (!(a_ < shifted + reach) || !(b_ > shifted - reach))
+          throw InputError("sampling/tilt = " + fmt(theta) + " moves the mean of the " +
+                           "truncated gaussian law to " + fmt(shifted) + ", more than " +
+                           fmt(max_truncation_distance) + " standard deviations from [" +
+                           fmt(a_) + ", " + fmt(b_) + "]; choose a smaller |tilt|");
+        auto law = std::make_unique<GaussianLaw>(shifted, sigma_, a_, b_);
+        result.log_moment += std::log(law->mass_) - std::log(mass_);
+        result.law = std::move(law);
+        return result;
+      }
+
     private:
       double mu_, sigma_, a_, b_;
       bool   truncated_ = false;
@@ -443,6 +523,14 @@ namespace alloyspec
       {
         return "beta: shapes " + fmt(alpha_) + " (at minimum) and " + fmt(beta_) +
                " (at maximum) on [" + fmt(a_) + ", " + fmt(b_) + "]";
+      }
+      /** No closed-form quantile: tilted through its own quantile by quadrature. */
+      TiltedLaw tilted(const double theta) const override
+      {
+        if (theta == 0.0)
+          return untilted_copy(*this);
+        return make_tilted_law_by_quadrature([law = *this](const double s) { return law.quantile(s); },
+                                             a_, b_, theta, description());
       }
 
     private:
@@ -519,6 +607,15 @@ namespace alloyspec
       {
         return "tabulated density from " + source_ + " (" + std::to_string(q_.size()) +
                " points, support [" + fmt(support_min()) + ", " + fmt(support_max()) + "])";
+      }
+      /** Tilted through its own (exact) quantile by quadrature. */
+      TiltedLaw tilted(const double theta) const override
+      {
+        if (theta == 0.0)
+          return untilted_copy(*this);
+        return make_tilted_law_by_quadrature([law = *this](const double s) { return law.quantile(s); },
+                                             support_min(), support_max(), theta, description(),
+                                             cumulative_);
       }
 
     private:
@@ -613,6 +710,30 @@ namespace alloyspec
       {
         return "binomial alloy: " + std::to_string(n_) + " atoms per cell, fraction " +
                fmt(x_) + " of A (value " + fmt(q_a_) + "), B value " + fmt(q_b_);
+      }
+
+      /**
+       * Closed form: with d = (q_A − q_B)/n, @f$e^{-\theta q} \propto e^{-\theta d K}@f$
+       * for K ~ Binomial(n, x), which is again binomial with
+       * @f$x_\theta = x e^{-\theta d}/(1 - x + x e^{-\theta d})@f$, and
+       * @f$\ln M = -\theta q_B + n\ln(1 - x + x e^{-\theta d})@f$.
+       */
+      TiltedLaw tilted(const double theta) const override
+      {
+        if (theta == 0.0)
+          return untilted_copy(*this);
+        const double d = (q_a_ - q_b_) / n_;
+        const double log_a = x_ > 0 ? std::log(x_) - theta * d : -infinity;
+        const double log_b = x_ < 1 ? std::log1p(-x_) : -infinity;
+        const double log_sum = log_add_exp(log_a, log_b);
+        TiltedLaw    result;
+        result.theta      = theta;
+        result.log_moment = -theta * q_b_ + n_ * log_sum;
+        if (!std::isfinite(result.log_moment))
+          throw InputError("sampling/tilt = " + fmt(theta) + " is too strong for the law " +
+                           description());
+        result.law = std::make_unique<BinomialAlloyLaw>(n_, std::exp(log_a - log_sum), q_a_, q_b_);
+        return result;
       }
 
     private:

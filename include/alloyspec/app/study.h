@@ -7,6 +7,7 @@
 #include <alloyspec/fe/geometry.h>
 #include <alloyspec/model/lattice.h>
 #include <alloyspec/model/potential_model.h>
+#include <alloyspec/model/sampling.h>
 #include <alloyspec/analysis/spectral_analysis.h>
 #include <alloyspec/model/units.h>
 
@@ -95,6 +96,8 @@ namespace alloyspec
 
     const std::map<std::string, double> &timings() const { return timings_; }
     const AnalysisSettings              &analysis_settings() const { return analysis_; }
+    /** True when realisations are drawn from a tilted law (sampling.h). */
+    bool                                 tilted() const { return sampling_.is_tilted(); }
 
     /**
      * The records of this study's realisations stored in @p directory, with
@@ -152,6 +155,7 @@ namespace alloyspec
     /** Set when `discretisation/accuracy` chose degree and elements per cell. */
     std::optional<DiscretisationChoice> discretisation_choice_;
     StudySettings          study_;
+    SamplingSettings       sampling_;
     AnalysisSettings       analysis_;
 
     std::vector<std::unique_ptr<Discretisation>>  discretisations_;

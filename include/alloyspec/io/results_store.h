@@ -30,6 +30,11 @@ namespace alloyspec
     double              potential_max  = 0;
     double              solve_seconds  = 0;
     unsigned int        attempts       = 0;
+    /**
+     * @f$\ln w = \sum_n \ln p(q_n)/p_\theta(q_n)@f$, the log-likelihood ratio of
+     * the realisation's cell values (sampling.h); 0 for plain sampling.
+     */
+    double              log_weight     = 0;
 
     /** Lines for eigenvalues.csv (one per eigenvalue, no header). */
     std::string eigenvalue_lines() const;
@@ -53,7 +58,7 @@ namespace alloyspec
       "realisation,boundary,index,eigenvalue,residual,error,ipr,central_weight";
     static constexpr const char *summary_header =
       "realisation,boundary,n_eigenvalues,complete_up_to,inertia_count,potential_min,"
-      "potential_max,solve_seconds,attempts";
+      "potential_max,solve_seconds,attempts,log_weight";
 
     /**
      * Opens @p directory for a new study: creates it if needed; throws

@@ -7,6 +7,8 @@
 
 namespace alloyspec
 {
+  struct TiltedLaw;
+
   /**
    * The law of one cell value @f$q_n@f$, sampled by inversion: sample(u) is the
    * quantile function @f$F^{-1}(u) = \inf\{q : F(q) \ge u\}@f$ for
@@ -30,6 +32,26 @@ namespace alloyspec
     /** Supremum of the support; +∞ for the untruncated Gaussian law. */
     virtual double      support_max() const = 0;
     virtual std::string description() const = 0;
+
+    /**
+     * The exponentially tilted law @f$p_\theta(q) = e^{-\theta q} p(q)/M(\theta)@f$,
+     * @f$M(\theta) = \mathbb{E}_p[e^{-\theta q}]@f$, with @f$\ln M(\theta)@f$,
+     * so that one draw q from it carries the log-likelihood ratio
+     * @f$\ln\frac{p(q)}{p_\theta(q)} = \theta q + \ln M(\theta)@f$
+     * (tilted_laws.h). θ > 0 favours low values. θ = 0 returns a copy with
+     * @f$\ln M = 0@f$ exactly. Throws InputError naming `sampling/tilt` when
+     * the tilt is too strong for the law to be represented in double
+     * precision.
+     */
+    virtual TiltedLaw tilted(double theta) const = 0;
+  };
+
+  /** A law tilted by θ (SingleSiteLaw::tilted()) and @f$\ln M(\theta)@f$. */
+  struct TiltedLaw
+  {
+    std::unique_ptr<SingleSiteLaw> law;
+    double                         theta      = 0;
+    double                         log_moment = 0;
   };
 
   // The factories throw InputError, naming the matching `potential/...`
