@@ -235,10 +235,11 @@ namespace alloyspec
     sampling_.parse_parameters(prm);
     if (sampling_.is_tilted())
       {
-        if (sampling_.automatic)
-          throw InputError("sampling/tilt = auto is not available yet; give the tilt θ as a "
-                           "number (in inverse units of the energy unit, |θ| ≤ 1e6)");
-        potential_.set_tilt(sampling_.tilt);
+        if (!potential_.is_random())
+          throw InputError("sampling/method = tilted needs a random law; potential/law = file "
+                           "gives one fixed potential (use sampling/method = plain)");
+        if (!sampling_.automatic)
+          potential_.set_tilt(sampling_.tilt);
       }
     if (geometry_.has_mesh())
       for (const Boundary bc : study_.boundaries)
@@ -393,6 +394,11 @@ namespace alloyspec
         { ScopedTimer t(timings_, "make_grid");    make_grid(); }
         { ScopedTimer t(timings_, "setup_system"); setup_system(); }
         { ScopedTimer t(timings_, "assemble");     assemble(); }
+        if (sampling_.is_tilted() && sampling_.automatic)
+          {
+            ScopedTimer t(timings_, "choose_tilt");
+            choose_tilt(*store, options, root);
+          }
         { ScopedTimer t(timings_, "solve");        solve(*store, options); }
       }
     catch (const Interrupted &)
@@ -761,13 +767,17 @@ namespace alloyspec
     // unit); each cell weighs with the volume of the domain that carries its
     // value (all alike in a box, the mesh's share otherwise).
     stored.semiclassical_sum.assign(study_.energies.size(), 0.0);
+    PotentialModel potential = potential_;
+    if (sampling_.is_tilted())
+      potential.set_tilt(stored_tilt(directory));
     const std::vector<double> solver_energies = units_.to_solver_energies(study_.energies);
     for (const std::uint64_t r : realisations)
       {
-        const std::vector<double> q = solver_cell_values(r);
-        // Tilted sampling: weighted like every other average (w = 1 when plain).
-        const double w =
-          std::exp(potential_.log_weight(potential_.cell_values(study_.seed, r)));
+        // Tilted sampling: the stored study's tilt, weighted like every other
+        // average (w = 1 when plain).
+        const std::vector<double> q_user = potential.cell_values(study_.seed, r);
+        const std::vector<double> q      = units_.to_solver_energies(q_user);
+        const double              w      = std::exp(potential.log_weight(q_user));
         for (std::size_t i = 0; i < study_.energies.size(); ++i)
           {
             double sum = 0;
@@ -847,7 +857,8 @@ namespace alloyspec
          << number(sampling_.is_tilted() ? sampling_.tilt : 0.0) << ", \"tilt_choice\": \""
          << (sampling_.is_tilted() ? (sampling_.automatic ? "auto" : "given") : "none")
          << "\", \"target_energy\": "
-         << (sampling_.target_energy ? number(*sampling_.target_energy) : "null") << "},\n"
+         << (sampling_.target_energy ? number(*sampling_.target_energy) : "null")
+         << ", \"pilot\": \"" << json_escape(tilt_log_) << "\"},\n"
          << "  \"degrees_of_freedom\": {";
     for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
       json << (b ? ", " : "") << '"' << to_string(study_.boundaries[b])

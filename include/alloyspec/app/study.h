@@ -123,6 +123,17 @@ namespace alloyspec
     void check_potential_scale() const;
     /** InputError, with the estimate, if the study certainly cannot fit in this machine's memory. */
     void check_memory() const;
+    /**
+     * `sampling/tilt = auto`: the cross-entropy method (tilt_choice.h) on
+     * pilot realisations of the first boundary condition, scored by their
+     * lowest eigenvalue, with the level lowered towards `sampling/target
+     * energy` step by step (multilevel CE). The pilot's realisations are
+     * numbered from 2^48 on, so they are never part of the sample. The choice
+     * is stored in `tilt.txt`, which a resumed run reuses.
+     */
+    void choose_tilt(const ResultsStore &store, const RunOptions &options, bool root);
+    /** The tilt a stored study was run at (tilt.txt for tilt = auto; the parameter otherwise). */
+    double stored_tilt(const std::string &directory) const;
 
     /** Pilot solve for `discretisation/accuracy`: sets degree and elements per cell. */
     void choose_for_accuracy(bool root);
@@ -169,5 +180,7 @@ namespace alloyspec
     /** Rank 0: a record of this run reached the folder (a failure then keeps the folder). */
     bool                                          stored_any_ = false;
     std::string                                   output_directory_;
+    /** What the automatic tilt choice did, for run.json. */
+    std::string                                   tilt_log_;
   };
 } // namespace alloyspec

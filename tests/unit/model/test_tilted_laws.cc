@@ -6,7 +6,9 @@
 #include <alloyspec/model/lattice.h>
 #include <alloyspec/model/potential_model.h>
 #include <alloyspec/model/random_stream.h>
+#include <alloyspec/model/sampling.h>
 #include <alloyspec/model/tilted_laws.h>
+#include <alloyspec/model/tilt_choice.h>
 
 #include <boost/math/special_functions/hypergeometric_1F1.hpp>
 
@@ -321,6 +323,24 @@ namespace
     PotentialModel model;
     model.set_fixed_values({0, 1, 2, 3}, lattice);
     EXPECT_THROW(model.set_tilt(1.0), InputError);
+  }
+
+  /**
+   * Cross-entropy update for a two-valued law: moment matching
+   * A c_θ + B(1 − c_θ) = m* inverts to θ = ln(c(1 − c_θ)/((1 − c)c_θ))/(A − B)
+   * with c_θ = (m* − B)/(A − B) (from the tilted probability in PHYSICS.md).
+   */
+  TEST(TiltedLaws, CrossEntropyTiltMatchesTheEliteMean)
+  {
+    const double c = 0.5, a = 4.0, b = 0.0;
+    const auto   law = make_bernoulli_law(c, a, b);
+    // Elite means 0.8 and 1.2 with weights e^{-1} and e^{-2}: m* = (0.8 e^{-1} + 1.2 e^{-2})/(e^{-1} + e^{-2}).
+    const std::vector<PilotSample> elite{{0.8, -1.0}, {1.2, -2.0}};
+    const double wanted = (0.8 * std::exp(-1.0) + 1.2 * std::exp(-2.0)) /
+                          (std::exp(-1.0) + std::exp(-2.0));
+    const double c_theta = (wanted - b) / (a - b);
+    const double exact   = std::log(c * (1 - c_theta) / ((1 - c) * c_theta)) / (a - b);
+    EXPECT_NEAR(cross_entropy_tilt(*law, elite, max_tilt), exact, 1e-9);
   }
 
   TEST(TiltedLaws, TooStrongTiltIsRefused)
