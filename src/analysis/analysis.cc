@@ -14,6 +14,7 @@
 #include <fstream>
 #include <limits>
 #include <map>
+#include <set>
 #include <sstream>
 
 namespace alloyspec
@@ -21,6 +22,8 @@ namespace alloyspec
   namespace
   {
     constexpr double nan = std::numeric_limits<double>::quiet_NaN();
+    /** Rows of the eigenvalue table of a fixed potential, per boundary condition. */
+    constexpr std::size_t max_eigenvalue_rows = 20;
 
     /** Short form for tables of the report. */
     std::string brief(const double x)
@@ -309,9 +312,244 @@ namespace alloyspec
       return checks;
     }
 
-    std::vector<std::string> analyse(const std::string &output_dir, const AnalysisInput &in,
-                                     const AnalysisSettings &s, ReportContent report)
+    bool is_deterministic(const AnalysisInput &in)
     {
+      if (in.fixed_potential)
+        return true;
+      std::set<std::uint64_t> realisations;
+      for (const auto &r : in.records)
+        realisations.insert(r.realisation);
+      return realisations.size() == 1;
+    }
+
+    /**
+     * The eigenvalues of one fixed potential with their residuals, absolute
+     * error bounds and Richardson-extrapolated values. The bound is
+     * @f$F\,\hat e@f$ with @f$\hat e@f$ the Richardson estimate of
+     * @f$\lambda_h - \lambda@f$ and F the safety factor, so
+     * @f$\lambda_h - \hat e = \lambda_h - \text{bound}/F@f$ is the extrapolated value
+     * (which costs nothing once @f$\lambda_{h/2}@f$ is known).
+     */
+    ReportTable eigenvalue_table(const AnalysisInput &in)
+    {
+      const std::string unit =
+        in.energy_column.rfind("energy_", 0) == 0 ? in.energy_column.substr(7) : "reduced units";
+      ReportTable t{"Eigenvalues of the fixed potential (lowest " +
+                      std::to_string(max_eigenvalue_rows) + " per boundary condition; energies in " +
+                      unit + "). Error bound: absolute, on λ_h − λ, " +
+                      short_number(in.error_safety_factor) +
+                      " × the Richardson estimate; the extrapolated value is λ_h minus that "
+                      "estimate. Residual: relative, ‖Ku − λMu‖/(max(|λ|,1)‖Mu‖).",
+                    {"boundary", "index", "eigenvalue λ_h", "residual (relative)",
+                     "error bound (absolute)", "Richardson-extrapolated λ"},
+                    {}};
+      std::set<std::string> seen;
+      for (const auto &r : in.records)
+        {
+          if (!seen.insert(r.boundary).second)
+            continue; // one realisation per boundary condition
+          const std::size_t n = std::min<std::size_t>(r.eigenvalues.size(), max_eigenvalue_rows);
+          for (std::size_t j = 0; j < n; ++j)
+            {
+              const double error = j < r.errors.size() ? r.errors[j] : std::nan("");
+              const double res   = j < r.residuals.size() ? r.residuals[j] : std::nan("");
+              const bool   have  = std::isfinite(error);
+              t.rows.push_back({r.boundary, std::to_string(j), short_number(r.eigenvalues[j], 10),
+                                short_number(res, 2),
+                                have ? short_number(error, 3) : "not estimated",
+                                have ? short_number(r.eigenvalues[j] - error / in.error_safety_factor, 10) :
+                                       "needs discretisation/error estimate"});
+            }
+        }
+      return t;
+    }
+
+    /**
+     * Maps of the lowest eigenfunctions of a fixed potential from the study's
+     * eigenfunction_slice_<bc>.csv: a curve per function in 1D, one panel per
+     * function (colour = ψ) in 2D and on the mid-plane in 3D.
+     */
+    Figure eigenfunction_figure(FigureMaker &maker, const AnalysisInput &in, const std::string &bc)
+    {
+      const std::string file =
+        (std::filesystem::path(in.source_directory) / ("eigenfunction_slice_" + bc + ".csv")).string();
+      Figure none{"eigenfunctions_" + bc, "", "", {}, true};
+      if (in.source_directory.empty() || !std::filesystem::exists(file))
+        return none;
+      const Columns table = read_csv_columns(file);
+      std::vector<std::string> psi;
+      for (int j = 0; table.count("psi_" + std::to_string(j)); ++j)
+        psi.push_back("psi_" + std::to_string(j));
+      std::vector<double> x, y; // "x" or "x_nm"
+      for (const auto &[name, values] : table)
+        {
+          if (name.rfind("x", 0) == 0)
+            x = values;
+          if (name.rfind("y", 0) == 0)
+            y = values;
+        }
+      if (psi.empty() || x.empty() || y.size() != x.size())
+        return none;
+      std::ostringstream data;
+      for (std::size_t k = 0; k < x.size(); ++k)
+        {
+          data << csv_number(x[k]) << ' ' << csv_number(y[k]);
+          for (const auto &p : psi)
+            data << ' ' << csv_number(table.at(p)[k]);
+          data << '\n';
+        }
+      // Eigenvalues for the titles.
+      std::vector<double> levels;
+      for (const auto &r : in.records)
+        if (r.boundary == bc)
+          {
+            levels = r.eigenvalues;
+            break;
+          }
+      const std::string unit =
+        in.energy_column.rfind("energy_", 0) == 0 ? " " + in.energy_column.substr(7) : "";
+      const std::string length = in.solver_energy_unit > 0.0 ? " (nm)" : " (cells)";
+      const auto title = [&](std::size_t j) {
+        return "ψ_" + std::to_string(j) +
+               (j < levels.size() ? ", λ = " + short_number(levels[j], 5) + unit : "");
+      };
+      std::ostringstream plot;
+      if (in.dimension == 1)
+        {
+          plot << "set xlabel " << gnuplot_string("x" + length) << "\nset ylabel 'ψ(x)'\nplot ";
+          for (std::size_t j = 0; j < psi.size(); ++j)
+            plot << (j ? ", " : "") << "data using 1:" << 3 + j << " with lines lw 2 title "
+                 << gnuplot_string(title(j));
+          plot << "\n";
+        }
+      else
+        {
+          const std::size_t columns = psi.size() > 1 ? 2 : 1, rows = (psi.size() + 1) / 2;
+          plot << "set palette defined (-1 '#2166ac', 0 '#f7f7f7', 1 '#b2182b')\n"
+               << "set size ratio -1\nunset key\nset xlabel " << gnuplot_string("x" + length)
+               << "\nset ylabel " << gnuplot_string("y" + length) << "\n"
+               << "set multiplot layout " << rows << "," << columns << "\n";
+          for (std::size_t j = 0; j < psi.size(); ++j)
+            {
+              double top = 0;
+              for (const double v : table.at(psi[j]))
+                top = std::max(top, std::abs(v));
+              plot << "set title " << gnuplot_string(title(j)) << "\nset cbrange ["
+                   << csv_number(-top) << ":" << csv_number(top) << "]\n"
+                   << "plot data using 1:2:" << 3 + j << " with points pt 5 ps 1.1 lc palette\n";
+            }
+          plot << "unset multiplot\n";
+        }
+      std::string where = in.dimension == 3 ? " on the mid-plane of the box" : "";
+      return maker.make("eigenfunctions_" + bc, "Lowest eigenfunctions (" + bc + ")",
+                        "The lowest " + std::to_string(psi.size()) + " eigenfunctions of the fixed "
+                        "potential under the " + bc + " condition" + where +
+                          " (colour: ψ, blue negative, red positive; each panel on its own scale).",
+                        data.str(), plot.str());
+    }
+
+    /** The few lines a run ends with: band bottom, bracket at three energies, tails, report. */
+    std::vector<std::string> closing_summary(const std::string &output_dir, const AnalysisInput &in,
+                                             const std::vector<BoundaryAnalysis> &all)
+    {
+      const std::string unit =
+        in.energy_column.rfind("energy_", 0) == 0 ? " " + in.energy_column.substr(7) : "";
+      std::vector<std::string> lines;
+      std::string              bottom = "Band bottom E0 = " + short_number(in.band_bottom) + unit;
+      for (const auto &a : all)
+        {
+          double lowest = std::numeric_limits<double>::infinity();
+          for (const auto &r : in.records)
+            if (r.boundary == a.name)
+              for (const double x : r.eigenvalues)
+                lowest = std::min(lowest, x);
+          if (std::isfinite(lowest))
+            bottom += "; lowest " + a.name + " level " + short_number(lowest) + unit;
+        }
+      lines.push_back(bottom);
+      // Three energies spread over those where every boundary is complete.
+      std::vector<std::size_t> complete;
+      for (std::size_t i = 0; i < in.energies.size(); ++i)
+        if (std::all_of(all.begin(), all.end(), [&](const BoundaryAnalysis &a) {
+              return a.band[i].complete;
+            }))
+          complete.push_back(i);
+      if (!complete.empty() && !all.empty())
+        {
+          std::string line = "Mean IDS [";
+          for (std::size_t b = 0; b < all.size(); ++b)
+            line += (b ? ", " : "") + all[b].name;
+          line += "] in " + density_unit(in, false) + ":";
+          std::size_t previous = in.energies.size();
+          for (const double q : {0.25, 0.5, 0.75})
+            {
+              const std::size_t i = complete[std::size_t(q * double(complete.size() - 1))];
+              if (i == previous)
+                continue;
+              previous = i;
+              line += " E = " + short_number(in.energies[i]) + unit + ": [";
+              for (std::size_t b = 0; b < all.size(); ++b)
+                line += (b ? ", " : "") + short_number(all[b].band[i].mean, 3);
+              line += "];";
+            }
+          line.pop_back();
+          lines.push_back(line);
+        }
+      else
+        lines.push_back("No grid energy where every realisation's spectrum is complete: no IDS "
+                        "to show (raise spectrum/eigenvalues)");
+      std::string tails = "Tail fits resolved:";
+      for (const auto &a : all)
+        tails += " " + a.name + " Lifshitz " + (a.lifshitz.resolved ? "yes" : "no") + ", Urbach " +
+                 (a.urbach.resolved ? "yes (E_U = " + short_number(a.urbach.urbach_energy, 3) + unit +
+                                        ")" :
+                                      "no") +
+                 ";";
+      tails.back() = ' ';
+      lines.push_back(tails + "(reasons in tails.json)");
+      lines.push_back("Report: " + (std::filesystem::path(output_dir) / "report.html").string());
+      return lines;
+    }
+
+    /**
+     * One line when the computed spectra do not reach the top of the grid plus
+     * the Lorentzian margin, with the number of eigenvalues that would, from
+     * Weyl's law N ∝ (E − E_low)^{d/2} (an estimate).
+     */
+    std::string coverage_warning(const AnalysisInput &in, const AnalysisSettings &s)
+    {
+      if (in.records.empty() || in.energies.empty())
+        return {};
+      double      reach = std::numeric_limits<double>::infinity(), low = reach;
+      std::size_t most  = 0;
+      for (const auto &r : in.records)
+        {
+          reach = std::min(reach, r.complete_up_to);
+          most  = std::max(most, r.eigenvalues.size());
+          for (const double x : r.eigenvalues)
+            low = std::min(low, x);
+        }
+      const double need = in.energies.back() + incomplete_margin(Broadening::lorentzian) * s.lorentzian_width;
+      if (!(need > reach) || !(reach > low) || most == 0)
+        return {};
+      const double ratio  = std::pow((need - low) / (reach - low), 0.5 * double(in.dimension));
+      const auto   enough = std::size_t(std::ceil(double(most) * ratio));
+      const std::string unit = in.energy_column.rfind("energy_", 0) == 0 ? " " + in.energy_column.substr(7) : "";
+      return "the " + std::to_string(most) + " eigenvalues per solve are complete up to " +
+             short_number(reach) + unit + " in every realisation, but the grid ends at " +
+             short_number(in.energies.back()) + unit + " and the Lorentzian needs " +
+             short_number(need - in.energies.back()) + unit +
+             " beyond it: about " + std::to_string(enough) +
+             " eigenvalues (spectrum/eigenvalues) would cover it (Weyl scaling, an estimate); "
+             "Lorentzian DOS entries above " +
+             short_number(reach - (need - in.energies.back())) + unit + " are written as missing";
+    }
+
+    std::vector<std::string> analyse(const std::string &output_dir, const AnalysisInput &in,
+                                     const AnalysisSettings &requested, ReportContent report)
+    {
+      std::vector<std::string> chosen;
+      const AnalysisSettings   s = requested.resolved_for(in.records, chosen);
       if (in.energies.empty() || !(in.volume > 0.0) || in.dimension < 1 || in.dimension > 3 ||
           !(in.cell_size > 0.0))
         throw InputError("analysis: need a non-empty energy grid, a volume > 0, a cell size > 0 "
@@ -328,6 +566,7 @@ namespace alloyspec
 
       const double cell_volume = std::pow(in.cell_size, double(in.dimension));
       FigureMaker  maker(output_dir + "/figures", s.figure_formats, in.energy_unit);
+      maker.set_density_units(density_unit(in, false), density_unit(in, true));
       std::vector<std::string> names;
       std::vector<std::vector<IntervalRow>> lor, gau;
       std::vector<std::vector<GridValue>>   ids;
@@ -343,9 +582,15 @@ namespace alloyspec
       report.figures.push_back(ids_figure(maker, table, names, s.confidence_level));
       report.figures.push_back(dos_figure(maker, names, lor, gau, s.lorentzian_width,
                                           s.gaussian_width));
-      report.figures.push_back(lifshitz_figure(maker, names, ids, lif, in.band_bottom, cell_volume));
-      report.figures.push_back(urbach_figure(maker, names, gau, urb));
-      if (!ratios.empty() && !ratios[0].empty())
+      // One fixed potential has no ensemble: no tail fits, bands or level statistics.
+      const bool deterministic = is_deterministic(in);
+      if (!deterministic)
+        {
+          report.figures.push_back(
+            lifshitz_figure(maker, names, ids, lif, in.band_bottom, cell_volume));
+          report.figures.push_back(urbach_figure(maker, names, gau, urb));
+        }
+      if (!deterministic && !ratios.empty() && !ratios[0].empty())
         {
           report.figures.push_back(ipr_figure(maker, names, ipr, in.volume, cell_volume));
           report.figures.push_back(ratio_figure(maker, names, ratios));
@@ -366,7 +611,14 @@ namespace alloyspec
                                  {"volume |Λ|", brief(in.volume)},
                                  {"bottom of the spectrum E0", brief(in.band_bottom)},
                                  {"mean potential", brief(in.mean_potential)},
-                                 {"energy unit", in.energy_unit}});
+                                 {"energy unit", in.energy_unit},
+                                 {"broadening η (Lorentzian), σ (Gaussian); bin width",
+                                  short_number(s.lorentzian_width) + ", " +
+                                    short_number(s.gaussian_width) + "; " +
+                                    short_number(s.bin_width) +
+                                    (chosen.empty() ? "" : " (automatic ones chosen from the spectrum)")}});
+      for (const auto &c : chosen)
+        report.notes.push_back("Chosen from the computed spectrum: " + c + ".");
       for (const auto &a : all)
         {
           std::size_t complete = 0;
@@ -376,6 +628,17 @@ namespace alloyspec
                                         std::to_string(a.realisations) + ", IDS complete at " +
                                           std::to_string(complete) + " of " +
                                           std::to_string(a.band.size()) + " grid energies"});
+        }
+      if (deterministic)
+        {
+          for (const auto &a : all)
+            if (auto f = eigenfunction_figure(maker, in, a.name); !f.empty)
+              report.figures.push_back(std::move(f));
+          report.tables.push_back(eigenvalue_table(in));
+          report.notes.push_back(
+            "A fixed potential (the 'file' law or a single realisation): the report lists its "
+            "eigenvalues instead of ensemble statistics (tail fits, bootstrap bands and level "
+            "statistics need many realisations).");
         }
       ReportTable fits{"Tail fits (interval at confidence " + brief(s.confidence_level) + ")",
                        {"boundary", "fit", "window", "points / states / realisations", "result",
@@ -400,7 +663,8 @@ namespace alloyspec
                                  ", " + brief(a.urbach.urbach_high) + "]",
                                a.urbach.resolved ? "yes" : "no", a.urbach.reason});
         }
-      report.tables.push_back(fits);
+      if (!deterministic)
+        report.tables.push_back(fits);
       ReportTable sample{"IDS at selected energies (mean and bootstrap interval; * = incomplete)",
                          {"energy"},
                          {}};
@@ -415,17 +679,35 @@ namespace alloyspec
                           brief(a.band[i].upper) + "]" + (a.band[i].complete ? "" : " *"));
           sample.rows.push_back(row);
         }
-      report.tables.push_back(sample);
+      if (!deterministic)
+        report.tables.push_back(sample);
       for (auto &c : exact_checks(in))
         report.checks.push_back(c);
-      report.notes.push_back(
+      if (!deterministic)
+        report.notes.push_back(
         "Lifshitz fits use neighbouring grid points that share realisations; their errors are "
         "correlated, so the slope interval is approximate. In a Dirichlet box of L cells the "
         "spectrum starts about dπ²/(La)² above E0, which cuts the tail off at low energy.");
-      for (const auto &w : maker.warnings())
+      std::vector<std::string> warnings = maker.warnings();
+      if (const auto w = coverage_warning(in, s); !w.empty())
+        warnings.insert(warnings.begin(), w);
+      for (const auto &w : warnings)
         report.notes.push_back(w);
       write_text(output_dir + "/report.html", render_report(report));
-      return maker.warnings();
+      // The report's key numbers, for scripts.
+      Json key = manifest_header("analysis");
+      key["missing_value"] = "null";
+      Json numbers         = Json::object();
+      for (const auto &[name, value] : report.key_numbers)
+        numbers[name] = value;
+      key["key_numbers"] = numbers;
+      auto lines         = closing_summary(output_dir, in, all);
+      for (const auto &[name, value] : report.key_numbers)
+        if (name == "1/L fits") // a box-size series: its result comes first
+          lines.insert(lines.begin(), "Box-size series: " + value);
+      key["summary"] = lines;
+      write_json_file(output_dir, "key_numbers.json", key);
+      return warnings;
     }
   } // namespace
 
@@ -478,8 +760,6 @@ namespace alloyspec
     std::string unit = length + powers[std::min(input.dimension, 3u)];
     if (per_energy)
       unit = energy + "⁻¹·" + unit;
-    if (!physical)
-      unit += per_energy ? "; reduced units: ℓ cell edge, ε = ħ²/2mℓ²" : "; ℓ: cell edge (reduced units)";
     return unit;
   }
 

@@ -54,9 +54,9 @@ namespace alloyspec
     std::string style_header()
     {
       return "set encoding utf8\n"
-             "set datafile missing 'NaN'\n"
+             "set datafile missing 'nan'\n"
              "set grid lc rgb '#dddddd'\n"
-             "set key box opaque samplen 2\n"
+             "set key outside right top vertical nobox noopaque samplen 1.5 spacing 0.9 font ',10'\n"
              "set border lw 1.2\n"
              "set samples 400\n";
     }
@@ -148,7 +148,30 @@ namespace alloyspec
                            const std::string &caption, const std::string &data,
                            const std::string &commands)
   {
-    Figure figure{name, title, caption, {}};
+    Figure figure{name, title, caption, {}, false};
+    // A figure needs at least two rows with a value to show: otherwise it is
+    // omitted, not drawn as an empty frame (gnuplot would also fail on it).
+    {
+      std::istringstream lines(data);
+      std::size_t        rows = 0;
+      for (std::string line; std::getline(lines, line) && rows < 2;)
+        {
+          if (line.empty() || line[0] == '#')
+            continue;
+          std::istringstream words(line);
+          std::string        word;
+          words >> word; // the abscissa
+          bool any = false;
+          while (words >> word)
+            any = any || std::isfinite(std::strtod(word.c_str(), nullptr));
+          rows += any;
+        }
+      if (rows < 2)
+        {
+          figure.empty = true;
+          return figure;
+        }
+    }
     const std::string stem = directory_ + "/" + name;
     {
       std::ofstream out(stem + ".dat");
@@ -233,7 +256,7 @@ namespace alloyspec
       }
     std::ostringstream plot;
     plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
-         << "set ylabel 'IDS N(E) (states per unit volume)'\nset key top left\n"
+         << "set ylabel " << gnuplot_string("IDS N(E) (" + maker.ids_unit() + ")") << "\n"
          << "plot ";
     for (std::size_t b = 0; b < boundaries.size(); ++b)
       {
@@ -262,7 +285,9 @@ namespace alloyspec
             << (has_semi ? "Dashed: semiclassical count E_q[(E−q)₊^{d/2}]·ω_d/(2π)^d (Weyl's "
                            "law cell by cell). "
                          : "")
-            << "Curves stop where some realisation's spectrum is incomplete.";
+            << "Curves stop where some realisation's spectrum is incomplete. Steps and kinks in a "
+               "small box are box-quantisation structure (the levels of the finite box), not "
+               "features of the infinite-volume IDS.";
     return maker.make("ids", "Integrated density of states", caption.str(), data.str(),
                       plot.str());
   }
@@ -290,7 +315,7 @@ namespace alloyspec
       }
     std::ostringstream plot;
     plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
-         << "set ylabel 'DOS ρ(E) (states per unit volume per unit energy)'\nset key top left\n"
+         << "set ylabel " << gnuplot_string("DOS ρ(E) (" + maker.dos_unit() + ")") << "\n"
          << "plot ";
     for (std::size_t b = 0; b < boundaries.size(); ++b)
       {
@@ -309,7 +334,9 @@ namespace alloyspec
       "Density of states averaged over realisations: Lorentzian broadening "
       "−(1/π) Im tr(H − E − iη)⁻¹/|Λ| (solid, band ±1 standard error) and Gaussian broadening "
       "(dashed). Curves stop where the broadening kernel reaches above the computed part of some "
-      "realisation's spectrum.";
+      "realisation's spectrum. Peaks narrower than the box's level spacing pattern are "
+      "box-quantisation modes of the finite box, not features of the material's density of "
+      "states; they shrink as L grows.";
     return maker.make("dos", "Density of states", caption, data.str(), plot.str());
   }
 
@@ -338,7 +365,7 @@ namespace alloyspec
       }
     std::ostringstream plot, caption;
     plot << "set xlabel 'ln(E − E₀)  (E in the energy unit of the study)'\n"
-         << "set ylabel 'ln(−ln n(E)),  n = IDS per unit cell'\nset key top right\n";
+         << "set ylabel 'ln(−ln n(E)),  n = IDS per unit cell'\n";
     for (std::size_t b = 0; b < fits.size(); ++b)
       if (std::isfinite(fits[b].slope) && fits[b].window_high > e0)
         plot << "f" << b << "(x) = (x >= " << num(std::log(std::max(fits[b].window_low, e0) - e0))
@@ -351,13 +378,19 @@ namespace alloyspec
         plot << (b ? ", \\\n     " : "") << "data using 1:" << 2 + 2 * b << ":" << 3 + 2 * b
              << " with yerrorbars pt 7 ps 0.6 lc rgb '" << col << "' title "
              << gnuplot_string(boundaries[b]);
-        if (std::isfinite(fits[b].slope) && fits[b].window_high > e0)
-          plot << ", \\\n     f" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
-               << gnuplot_string("fit, slope " + short_number(fits[b].slope, 3) +
-                                 (fits[b].resolved ? "" : " (not resolved)"));
-        caption << boundaries[b] << ": slope " << fits[b].slope << " [" << fits[b].slope_low
-                << ", " << fits[b].slope_high << "]" << (fits[b].resolved ? "" : " (not resolved)")
-                << ". ";
+        // An unresolved fit is not drawn: its slope would read as a result.
+        if (fits[b].resolved && std::isfinite(fits[b].slope) && fits[b].window_high > e0)
+          {
+            plot << ", \\\n     f" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
+                 << gnuplot_string("fit, slope " + short_number(fits[b].slope, 3));
+            caption << boundaries[b] << ": slope " << short_number(fits[b].slope, 3) << " ["
+                    << short_number(fits[b].slope_low, 3) << ", "
+                    << short_number(fits[b].slope_high, 3) << "]. ";
+          }
+        else
+          caption << boundaries[b] << ": no fit drawn, not resolved ("
+                  << (fits[b].reason.empty() ? std::string("no usable window") : fits[b].reason)
+                  << "). ";
       }
     plot << "\n";
     const double expected = fits.empty() ? 0.0 : fits[0].expected_slope;
@@ -395,13 +428,19 @@ namespace alloyspec
       }
     std::ostringstream plot, caption;
     plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
-         << "set ylabel 'ln ρ(E)  (Gaussian-broadened DOS)'\nset key bottom right\n";
+         << "set ylabel 'ln ρ(E)  (Gaussian-broadened DOS)'\n";
     // Show the window with as much again on either side: the tail, not the whole band.
     if (!fits.empty() && fits[0].window_high > fits[0].window_low)
       {
+        // Not below the first energy where any curve has data (no empty margin).
+        double first = fits[0].window_high;
+        for (std::size_t i = 0; i < n; ++i)
+          for (std::size_t b = 0; b < boundaries.size(); ++b)
+            if (gaussian[b][i].complete && gaussian[b][i].mean > 0)
+              first = std::min(first, gaussian[b][i].energy);
         const double w = fits[0].window_high - fits[0].window_low;
-        plot << "set xrange [" << num(fits[0].window_low - w) << ":" << num(fits[0].window_high + w)
-             << "]\n";
+        plot << "set xrange [" << num(std::max(fits[0].window_low - w, first)) << ":"
+             << num(fits[0].window_high + w) << "]\n";
       }
     for (std::size_t b = 0; b < fits.size(); ++b)
       if (std::isfinite(fits[b].slope))
@@ -416,13 +455,18 @@ namespace alloyspec
         plot << (b ? ", \\\n     " : "") << "data using 1:" << 2 + 2 * b << ":" << 3 + 2 * b
              << " with yerrorbars pt 7 ps 0.5 lc rgb '" << col << "' title "
              << gnuplot_string(boundaries[b]);
-        if (std::isfinite(fits[b].slope))
-          plot << ", \\\n     g" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
-               << gnuplot_string("fit, E_U = " + short_number(fits[b].urbach_energy, 3) +
-                                 (fits[b].resolved ? "" : " (not resolved)"));
-        caption << boundaries[b] << ": E_U = " << fits[b].urbach_energy << " ["
-                << fits[b].urbach_low << ", " << fits[b].urbach_high << "]"
-                << (fits[b].resolved ? "" : " (not resolved: " + fits[b].reason + ")") << ". ";
+        if (fits[b].resolved && std::isfinite(fits[b].slope))
+          {
+            plot << ", \\\n     g" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
+                 << gnuplot_string("fit, E_U = " + short_number(fits[b].urbach_energy, 3));
+            caption << boundaries[b] << ": E_U = " << short_number(fits[b].urbach_energy, 3)
+                    << " [" << short_number(fits[b].urbach_low, 3) << ", "
+                    << short_number(fits[b].urbach_high, 3) << "]. ";
+          }
+        else
+          caption << boundaries[b] << ": no fit drawn, not resolved ("
+                  << (fits[b].reason.empty() ? std::string("no usable window") : fits[b].reason)
+                  << "). ";
       }
     plot << "\n";
     return maker.make("urbach", "Urbach tail: ln ρ(E) below the band edge",
@@ -478,7 +522,7 @@ namespace alloyspec
     std::ostringstream plot;
     plot << "set yrange [" << num(bottom / 3) << ":" << num(top * 3) << "]\n"
          << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
-         << "set ylabel 'mean IPR ∫|ψ|⁴/(∫|ψ|²)²  (1/volume)'\nset logscale y\nset key top right\n"
+         << "set ylabel 'mean IPR ∫|ψ|⁴/(∫|ψ|²)²  (1/volume)'\nset logscale y\n"
          << "plot " << bin_plot(boundaries) << ", \\\n     " << num(1.0 / volume)
          << " with lines dt 3 lc rgb 'gray40' title '1/|Λ| (spread over the box)', \\\n     "
          << num(1.0 / cell_volume)
@@ -496,7 +540,7 @@ namespace alloyspec
   {
     std::ostringstream plot;
     plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
-         << "set ylabel 'mean spacing ratio ⟨r⟩'\nset yrange [0:*]\nset key below\n"
+         << "set ylabel 'mean spacing ratio ⟨r⟩'\nset yrange [0:*]\n"
          << "plot " << bin_plot(boundaries) << ", \\\n     " << num(spacing_ratio_poisson)
          << " with lines dt 2 lw 1.5 lc rgb 'black' title 'Poisson 2 ln 2 − 1 ≈ 0.386', \\\n     "
          << num(spacing_ratio_goe)
@@ -529,7 +573,7 @@ namespace alloyspec
       }
     std::ostringstream plot;
     plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
-         << "set ylabel 'extrapolated IDS N∞(E) (states per unit volume)'\nset key top left\nplot ";
+         << "set ylabel " << gnuplot_string("extrapolated IDS N∞(E) (" + maker.ids_unit() + ")") << "\nplot ";
     for (std::size_t b = 0; b < boundaries.size(); ++b)
       {
         const std::size_t c = 2 + 3 * b;

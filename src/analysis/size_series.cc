@@ -76,18 +76,24 @@ namespace alloyspec
   {
     if (!fit.fitted)
       return;
+    // The estimate itself must be a possible IDS: a negative value, or one
+    // outside the bracket, is flagged even when its interval reaches back in.
+    // The intervals are quoted so that a reader can judge how far off it is.
     const double z  = normal_quantile(0.5 + confidence / 2);
     const double n  = fit.result.n_infinity;
     const double dn = z * fit.result.n_infinity_error;
+    const std::string interval = " (interval ±" + short_number(dn, 2) + ")";
     std::vector<std::string> why;
-    if (n + dn < 0.0)
-      why.push_back("N∞ = " + short_number(n) + " is negative");
-    if (std::isfinite(lower) && n + dn < lower - z * lower_error)
-      why.push_back("N∞ lies below the Dirichlet mean of the largest box (" + short_number(lower) +
-                    ")");
-    if (std::isfinite(upper) && n - dn > upper + z * upper_error)
-      why.push_back("N∞ lies above the Neumann mean of the largest box (" + short_number(upper) +
-                    ")");
+    if (n < 0.0)
+      why.push_back("N∞ = " + short_number(n) + interval + " is negative");
+    if (std::isfinite(lower) && n < lower)
+      why.push_back("N∞ = " + short_number(n) + " lies below the Dirichlet mean " +
+                    short_number(lower) + " ± " + short_number(z * lower_error, 2) +
+                    " of the largest box");
+    if (std::isfinite(upper) && n > upper)
+      why.push_back("N∞ = " + short_number(n) + " lies above the Neumann mean " +
+                    short_number(upper) + " ± " + short_number(z * upper_error, 2) +
+                    " of the largest box");
     if (why.empty())
       return;
     fit.consistent = false;
@@ -164,7 +170,11 @@ namespace alloyspec
     for (std::size_t k = 0; k < studies.size(); ++k)
       {
         const auto &s = studies[k];
-        SizeRows    sr{std::pow(s.volume / std::pow(s.cell_size, d), 1.0 / d), s.volume, {}};
+        // L from the volume; a whole number of cells is written as one (4, not 3.9999999999999996).
+        double l = std::pow(s.volume / std::pow(s.cell_size, d), 1.0 / d);
+        if (std::abs(l - std::round(l)) < 1e-9 * l)
+          l = std::round(l);
+        SizeRows sr{l, s.volume, {}};
         for (const auto &bc : first.boundaries)
           {
             IdsAccumulator acc(energies, s.volume);
@@ -328,6 +338,7 @@ namespace alloyspec
     report.title = "alloyspec: box-size series of " + std::to_string(series.size()) + " sizes";
     FigureMaker maker(output_dir + "/figures", settings.figure_formats, big.energy_unit);
     const std::string ids_unit = density_unit(big, false);
+    maker.set_density_units(ids_unit, density_unit(big, true));
     {
       // Overlay of the IDS of every size: Dirichlet solid, Neumann dashed.
       std::ostringstream data, plot;
@@ -346,7 +357,7 @@ namespace alloyspec
         }
       plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
            << "set ylabel " << gnuplot_string("IDS N_L(E) (" + ids_unit + ")") << "\n"
-           << "set key top left\nplot ";
+           << "plot ";
       for (std::size_t k = 0; k < series.size(); ++k)
         for (std::size_t b = 0; b < bcs.size(); ++b)
           plot << (k + b ? ", \\\n     " : "") << "data using 1:" << 2 + k * bcs.size() + b
@@ -461,6 +472,10 @@ namespace alloyspec
                                series.front().rows[di][mid].mean;
             plot << "set xlabel 'L (cells per direction)'\n"
                  << "set ylabel " << gnuplot_string("N_L^N − N_L^D (" + ids_unit + ")") << "\n"
+                 << "set xtics (";
+            for (std::size_t k = 0; k < series.size(); ++k)
+              plot << (k ? ", " : "") << csv_number(series[k].size);
+            plot << ")\n"
                  << "set logscale xy\nset xrange [" << csv_number(series.front().size * 0.85)
                  << ":" << csv_number(series.back().size * 1.15) << "]\n"
                  << "set key outside right top vertical samplen 1.5\nplot ";
@@ -501,7 +516,7 @@ namespace alloyspec
           }
         plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
              << "set ylabel " << gnuplot_string("N∞(E) (" + ids_unit + ")") << "\n"
-             << "set key top left\nplot ";
+             << "plot ";
         for (std::size_t b = 0; b < bcs.size(); ++b)
           {
             const std::size_t c   = 2 + 5 * b;

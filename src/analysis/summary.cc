@@ -317,7 +317,9 @@ namespace alloyspec
                            "figures and report are not written for weighted samples");
         return warnings;
       }
-    write_local_trace_table(output_dir, merged, rows, settings.lorentzian_width);
+    std::vector<std::string> chosen; // reported by write_analysis, which chooses the same
+    write_local_trace_table(output_dir, merged, rows,
+                            settings.resolved_for(merged.records, chosen).lorentzian_width);
     merged.ids_table = (std::filesystem::path(output_dir) / "ids.csv").string();
     return write_analysis(output_dir, merged, settings);
   }

@@ -7,6 +7,8 @@
 #include <alloyspec/app/study.h>
 #include <alloyspec/analysis/summary.h>
 #include <alloyspec/app/verify.h>
+#include <alloyspec/core/format.h>
+#include <alloyspec/io/manifest.h>
 #include <alloyspec/io/folder_lock.h>
 #include <alloyspec/io/results_store.h>
 
@@ -242,6 +244,48 @@ end
         text.pop_back();
       return text;
     }
+    /**
+     * The entries that differ from their defaults, one "section/entry = value"
+     * a line; the full set is in the output folder's parameter file.
+     */
+    void print_changed_parameters(const dealii::ParameterHandler &prm, const std::string &output)
+    {
+      dealii::ParameterHandler defaults;
+      Study::declare_parameters(defaults);
+      const auto now    = flatten_parameters(to_short_prm(prm));
+      const auto before = flatten_parameters(to_short_prm(defaults));
+      std::ostringstream changed;
+      std::size_t        count = 0;
+      for (const auto &[key, value] : now)
+        {
+          const auto it = before.find(key);
+          if (it == before.end() || it->second != value)
+            changed << "  " << key << " = " << value << '\n', ++count;
+        }
+      std::cout << count << " parameter(s) differ from the defaults (all of them: "
+                << (std::filesystem::path(output) / "parameters.prm").string() << ")"
+                << (count ? ":\n" : "\n") << changed.str();
+    }
+
+    /** The closing lines the analysis left in key_numbers.json (nothing if it is absent). */
+    void print_closing_summary(const std::string &folder)
+    {
+      const std::filesystem::path file = std::filesystem::path(folder) / "key_numbers.json";
+      std::ifstream               in(file);
+      if (!in)
+        return;
+      try
+        {
+          const Json key = Json::parse(in);
+          if (key.contains("summary"))
+            for (const auto &line : key["summary"])
+              std::cout << line.get<std::string>() << '\n';
+        }
+      catch (const Json::exception &)
+        {
+          std::cout << "Results in " << folder << "/ (report.html)\n";
+        }
+    }
   } // namespace
 
   int run_command_line(int argc, char **argv)
@@ -417,8 +461,8 @@ end
                 const FolderLock lock(summary_output, "summarise into it");
                 for (const auto &warning : summarise_studies(summary_output, stored, settings))
                   std::cerr << "alloyspec: warning: " << warning << '\n';
-                std::cout << "Tables, figures and report written to " << summary_output << "/\n"
-                          << "These are model estimates for the stated model and box, not "
+                print_closing_summary(summary_output);
+                std::cout << "These are model estimates for the stated model and box, not "
                              "measurements.\n";
               }
             return 0;
@@ -500,9 +544,11 @@ end
             std::cout << "alloyspec " << ALLOYSPEC_VERSION << ": "
                       << (config.empty() ? std::string("embedded demo scenario (invented)") : config)
                       << ", seed " << effective_seed << ", "
-                      << dealii::Utilities::MPI::n_mpi_processes(MPI_COMM_WORLD)
-                      << " MPI rank(s)\nEffective parameters:\n";
-            prm.print_parameters(std::cout, dealii::ParameterHandler::ShortPRM);
+                      << dealii::Utilities::MPI::n_mpi_processes(MPI_COMM_WORLD) << " MPI rank(s)\n";
+            if (print_only)
+              prm.print_parameters(std::cout, dealii::ParameterHandler::ShortPRM);
+            else
+              print_changed_parameters(prm, output);
             std::cout.flush();
           }
         if (print_only)
@@ -518,17 +564,22 @@ end
         study.run(options);
         if (root)
           {
-            std::cout << "Timings (s):";
+            double total = 0;
+            std::cout << "Timings:";
+            bool first = true;
             for (const auto &[name, seconds] : study.timings())
-              std::cout << ' ' << name << ' ' << seconds;
-            std::cout << "\nResults in " << output
-                      << (study.tilted()
-                            ? "/: eigenvalues.csv, realisations.csv (with log_weight), ids.csv and "
-                              "tail.csv (importance-weighted), run.json, parameters.prm\n"
-                            : "/: eigenvalues.csv, realisations.csv, ids.csv, tail.csv, dos.csv, "
-                              "tails.json, localisation.csv, figures/, report.html, run.json, "
-                              "parameters.prm\n")
-                      << "These are model estimates for the stated model and box, not measurements.\n";
+              {
+                std::cout << (first ? " " : ", ") << name << ' ' << readable_seconds(seconds);
+                total += seconds, first = false;
+              }
+            std::cout << " (total " << readable_seconds(total) << ")\n";
+            if (study.tilted())
+              std::cout << "Results in " << output
+                        << "/: eigenvalues.csv, realisations.csv (with log_weight), ids.csv and "
+                           "tail.csv (importance-weighted), run.json, parameters.prm\n";
+            else
+              print_closing_summary(output);
+            std::cout << "These are model estimates for the stated model and box, not measurements.\n";
           }
         return 0;
       }

@@ -1,5 +1,6 @@
 #include <alloyspec/core/collective_errors.h>
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
 #include <alloyspec/solver/landscape.h>
 #include <alloyspec/core/interrupt.h>
 #include <alloyspec/core/progress.h>
@@ -565,6 +566,7 @@ namespace alloyspec
     if (!estimators_.empty())
       record.errors = estimators_[b]->errors(q, result.eigenvalues);
     export_eigenfunctions(realisation, b, q, result);
+    write_eigenfunction_slices(realisation, b, result);
     record.solve_seconds =
       std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     return record;
@@ -592,6 +594,36 @@ namespace alloyspec
                              to_string(study_.boundaries[b]) + ".vtu";
     discretisations_[b]->write_vtu(
       (std::filesystem::path(output_directory_) / file).string(), q, names, fields);
+  }
+
+  void Study::write_eigenfunction_slices(std::uint64_t realisation, std::size_t b,
+                                         const EigenResult &result) const
+  {
+    // Maps for the report of a fixed potential: its first realisation only.
+    const bool fixed = !potential_.is_random() || study_.realisations == 1;
+    if (!fixed || realisation != study_.first_realisation || (teams_ && !teams_->leader()) ||
+        result.eigenvectors.empty())
+      return;
+    const std::size_t count = std::min<std::size_t>(result.eigenvectors.size(), 4);
+    std::vector<std::vector<std::array<double, 3>>> slices;
+    for (std::size_t j = 0; j < count; ++j)
+      slices.push_back(discretisations_[b]->slice_values(result.eigenvectors[j]));
+    std::ostringstream csv;
+    const std::string  unit = units_.is_physical() ? "_" + units_.length_label() : "";
+    csv << "x" << unit << ",y" << unit;
+    for (std::size_t j = 0; j < count; ++j)
+      csv << ",psi_" << j;
+    csv << '\n';
+    for (std::size_t k = 0; k < slices[0].size(); ++k)
+      {
+        csv << csv_number(slices[0][k][0]) << ',' << csv_number(slices[0][k][1]);
+        for (std::size_t j = 0; j < count; ++j)
+          csv << ',' << csv_number(slices[j][k][2]);
+        csv << '\n';
+      }
+    ResultsStore::write_file_in(output_directory_,
+                                "eigenfunction_slice_" + to_string(study_.boundaries[b]) + ".csv",
+                                csv.str());
   }
 
   void Study::solve(const ResultsStore &store, const RunOptions &options)
@@ -646,6 +678,8 @@ namespace alloyspec
           if (slot < pending.size())
             for (std::size_t b = 0; b < study_.boundaries.size(); ++b)
               {
+                progress.phase("solving realisation " + std::to_string(pending[slot]) + ", " +
+                               to_string(study_.boundaries[b]));
                 const RealisationRecord record = solve_one(pending[slot], b);
                 if (!teams_->leader())
                   continue;
@@ -696,6 +730,8 @@ namespace alloyspec
       in.boundaries.push_back(to_string(bc));
     in.energies        = study_.energies;
     in.band_bottom     = potential_.bottom();
+    in.fixed_potential = !potential_.is_random();
+    in.error_safety_factor = safety_factor;
     in.mean_potential  = potential_.is_random() ? potential_.law()->mean() : 0.0;
     in.model_summary   = "H = -Laplacian + V on " + lattice_.description() + "; " +
                        potential_.description() + "; FE_Q(" +
@@ -715,8 +751,14 @@ namespace alloyspec
         in.energy_unit        = "E (" + units_.energy_label() + ")";
         in.energy_column      = "energy_" + units_.energy_label();
         in.solver_energy_unit = units_.solver_energy_unit();
+        // The reduced unit of the tables is the solver's (per nm², not per cell edge²).
+        in.model_summary += " The energy_reduced columns and the stored records use the solver "
+                            "unit hbar^2/(2 m* nm^2) = " +
+                            short_number(units_.solver_energy_unit(), 6) + " " +
+                            units_.energy_label() + ".";
       }
     in.parameters_text = parameters_prm;
+    in.source_directory = directory;
 
     std::set<std::uint64_t> realisations;
     StoredRecords read = read_stored_records(directory);
@@ -745,6 +787,9 @@ namespace alloyspec
         {
           realisations.insert(r.realisation);
           r.eigenvalues    = units_.to_user_energies(std::move(r.eigenvalues));
+          // Bounds are differences of energies: the same factor, no offset.
+          for (double &e : r.errors)
+            e = units_.to_user_energy(e) - units_.to_user_energy(0.0);
           r.complete_up_to = units_.to_user_energy(r.complete_up_to);
           r.potential_min  = units_.to_user_energy(r.potential_min);
           r.potential_max  = units_.to_user_energy(r.potential_max);

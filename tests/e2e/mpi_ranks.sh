@@ -18,7 +18,7 @@ fail() { echo "FAIL: $*"; exit 1; }
 timeout 300 "${mpi[@]}" "$exe" run "${args[@]}" --output "$work/two" > "$work/two.log" 2>&1 \
   || fail "2 ranks: $(cat "$work/two.log")"
 grep -q "2 MPI rank" "$work/two.log" || fail "2-rank run does not report 2 ranks"
-[ "$(grep -c "Effective parameters" "$work/two.log")" -eq 1 ] \
+[ "$(grep -c "differ from the defaults" "$work/two.log")" -eq 1 ] \
   || fail "the parameters were printed more than once with 2 ranks"
 python3 "$here/check_study.py" "$work/two" || fail "2-rank study does not pass check_study.py"
 python3 "$here/compare_studies.py" "$work/one" "$work/two" || fail "1 and 2 ranks differ"

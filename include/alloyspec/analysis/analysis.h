@@ -38,8 +38,17 @@ namespace alloyspec
      * (the unit of the stored records) in the user's unit; 0 in reduced units.
      */
     double                    solver_energy_unit = 0;
+    /**
+     * The potential is fixed (the `file` law): the report lists eigenvalues
+     * instead of ensemble statistics (as it also does for one realisation).
+     */
+    bool                      fixed_potential = false;
+    /** Factor between the stored error bounds and the Richardson estimate (solver layer's). */
+    double                    error_safety_factor = 3.0;
     std::string               model_summary;   ///< one paragraph: model, law, box
     std::string               parameters_text; ///< effective parameters, shown verbatim
+    /** The study folder (eigenfunction_slice_<bc>.csv of a fixed potential is read from it). */
+    std::string               source_directory;
     std::vector<RealisationRecord> records;
     /**
      * ids.csv of the study (columns energy, ids_<bc>, stderr_<bc>, complete_<bc>,

@@ -63,11 +63,13 @@ namespace alloyspec
   SizeFit fit_size_series(const std::vector<SizePoint> &points);
 
   /**
-   * Flags a fit as inconsistent, with the reason, when N∞ is negative, or lies
-   * outside the Dirichlet–Neumann bracket of the largest box by more than the
-   * interval at @p confidence (E[N_L^D] ≤ N ≤ E[N_L^N] for every L, Kirsch &
-   * Martinelli 1982). @p lower and @p upper are the largest box's means with
-   * their errors; NaN skips that side.
+   * Flags a fit as inconsistent, with the reason, when the estimate N∞ is
+   * negative or lies outside the Dirichlet–Neumann bracket of the largest box
+   * (E[N_L^D] ≤ N ≤ E[N_L^N] for every L, Kirsch & Martinelli 1982). The test
+   * is on the estimate, not its interval: an estimate that is no possible IDS
+   * is not drawn as one; the reason quotes the intervals at @p confidence.
+   * @p lower and @p upper are the largest box's means with their errors; NaN
+   * skips that side.
    */
   void check_against_bracket(SizeFit &fit, double lower, double lower_error, double upper,
                              double upper_error, double confidence);

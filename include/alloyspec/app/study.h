@@ -142,6 +142,12 @@ namespace alloyspec
     void export_eigenfunctions(std::uint64_t realisation, std::size_t boundary_index,
                                const std::vector<double> &cell_values, const EigenResult &result) const;
     RealisationRecord solve_one(std::uint64_t realisation, std::size_t boundary_index);
+    /**
+     * For a fixed potential: the lowest four eigenfunctions on a line (1D), the
+     * domain (2D) or the mid-plane (3D), as eigenfunction_slice_<bc>.csv.
+     */
+    void write_eigenfunction_slices(std::uint64_t realisation, std::size_t boundary_index,
+                                    const EigenResult &result) const;
 
     /** Cell values of realisation @p r in solver units (UnitSystem::to_solver_energies). */
     std::vector<double> solver_cell_values(std::uint64_t realisation) const;

@@ -4,6 +4,7 @@
 #include <alloyspec/model/boundary.h>
 
 #include <cstddef>
+#include <array>
 #include <memory>
 #include <string>
 #include <vector>
@@ -142,6 +143,14 @@ namespace alloyspec
     virtual void localisation_measures(const std::vector<std::vector<double>> &vectors,
                                        std::size_t lattice_cell, std::vector<double> &ipr,
                                        std::vector<double> &weight) const = 0;
+
+    /**
+     * Values of the discrete function @p u (DoF values) on a grid of (p+2)^d
+     * points per element, as (x, y, u) triples: along the line in 1D (y = 0),
+     * over the domain in 2D, and on the plane z = mid-height of the domain in
+     * 3D (elements are taken as straight along z, true on boxes), for maps.
+     */
+    virtual std::vector<std::array<double, 3>> slice_values(const std::vector<double> &u) const = 0;
 
     /**
      * Writes @p fields (DoF vectors with names) and the cell potential as a cell
