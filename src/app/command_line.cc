@@ -147,6 +147,46 @@ end
         prm.leave_subsection();
     }
 
+    /**
+     * Follows the `include` lines of a parameter file (deal.II resolves them
+     * against the working directory) and refuses a cycle or a chain deeper
+     * than any sane one: deal.II itself recurses until the stack overflows
+     * (a file that included itself died with a segmentation fault).
+     */
+    void check_includes(const std::filesystem::path &file, std::vector<std::string> &chain)
+    {
+      constexpr std::size_t max_depth = 16; // common practice, no source
+      std::error_code       error;
+      const std::string     id = std::filesystem::weakly_canonical(file, error).string();
+      if (std::find(chain.begin(), chain.end(), id) != chain.end() || chain.size() >= max_depth)
+        {
+          std::string path;
+          for (const auto &f : chain)
+            path += "'" + f + "' includes ";
+          throw InputError("parameter file '" + chain.front() + "': " + path + "'" + id + "'" +
+                           (chain.size() >= max_depth ? ": more than 16 levels of 'include'" :
+                                                        ", which includes itself again") +
+                           " (allowed: includes that end)");
+        }
+      std::ifstream in(file);
+      if (!in)
+        return; // deal.II reports a file it cannot open
+      chain.push_back(id);
+      for (std::string line; std::getline(in, line);)
+        {
+          line.erase(std::min(line.find('#'), line.size()));
+          const auto first = line.find_first_not_of(" \t");
+          if (first == std::string::npos || line.compare(first, 8, "include ") != 0)
+            continue;
+          std::string name = line.substr(first + 8);
+          name.erase(0, name.find_first_not_of(" \t"));
+          name.erase(name.find_last_not_of(" \t\r") + 1);
+          if (!name.empty())
+            check_includes(name, chain);
+        }
+      chain.pop_back();
+    }
+
     void read_parameters(dealii::ParameterHandler &prm, const std::string &config)
     {
       try
@@ -157,6 +197,8 @@ end
             {
               if (!std::filesystem::exists(config))
                 throw InputError("parameter file '" + config + "' does not exist");
+              std::vector<std::string> chain;
+              check_includes(config, chain);
               prm.parse_input(config, "", false);
               // A data file named in a parameter file is found next to it.
               prm.enter_subsection("potential");

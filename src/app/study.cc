@@ -115,6 +115,31 @@ namespace alloyspec
 
     constexpr std::uint64_t max_realisations = 4294967295ULL; // the stream counter holds 32 bits
 
+    /**
+     * Largest magnitude of a cell value in solver units. Rounding in the
+     * factorisations of K - sigma M is about 2e-16 max|q| in absolute terms; at
+     * 1e6 that is 2e-10, below the level spacing of any box that fits in
+     * memory. Beyond it the shifted solves lose the spectrum (a potential of
+     * 1e308 overflowed, 1e8 broke the fits), and physically a cell of 1e6
+     * (decay e^-1000 across a unit cell) is already an impenetrable wall.
+     * Common practice, no source.
+     */
+    constexpr double max_potential_magnitude = 1e6;
+
+    /** Bytes of physical memory of this machine (0 if unknown). */
+    double physical_memory_bytes()
+    {
+      const long pages = ::sysconf(_SC_PHYS_PAGES), page = ::sysconf(_SC_PAGESIZE);
+      return pages > 0 && page > 0 ? double(pages) * double(page) : 0.0;
+    }
+
+    std::string gibibytes(double bytes)
+    {
+      char buffer[40];
+      std::snprintf(buffer, sizeof buffer, "%.3g GiB", bytes / 1073741824.0);
+      return buffer;
+    }
+
   } // namespace
 
   void StudySettings::declare_parameters(dealii::ParameterHandler &prm)
@@ -235,6 +260,82 @@ namespace alloyspec
     // entry it has not checked.
     LandscapeSettings landscape;
     landscape.parse_parameters(prm);
+    check_potential_scale();
+  }
+
+  void Study::check_potential_scale() const
+  {
+    double low = 0, high = 0;
+    if (potential_.is_random())
+      {
+        const SingleSiteLaw &law = *potential_.law();
+        low                      = law.support_min();
+        high                     = law.support_max();
+        if (!std::isfinite(low) || !std::isfinite(high))
+          {
+            // An untruncated gaussian: 8 standard deviations hold all but 1e-15.
+            const double spread = 8.0 * std::sqrt(law.variance());
+            low                 = law.mean() - spread;
+            high                = law.mean() + spread;
+          }
+      }
+    else
+      {
+        const std::vector<double> q = potential_.cell_values(study_.seed, 0);
+        const auto [lo, hi]         = std::minmax_element(q.begin(), q.end());
+        low                         = *lo;
+        high                        = *hi;
+      }
+    const double magnitude =
+      std::max(std::abs(units_.to_solver_energy(low)), std::abs(units_.to_solver_energy(high)));
+    if (!(magnitude <= max_potential_magnitude))
+      {
+        std::ostringstream message;
+        message << "subsection 'potential' (" << potential_.description()
+                << "): the cell values reach " << low << " to " << high
+                << ", allowed are magnitudes up to "
+                << units_.to_user_energy(max_potential_magnitude) << " (" << max_potential_magnitude
+                << " solver units); beyond that rounding in the factorisations swamps the level "
+                   "spacings, and a cell that high is already an impenetrable wall";
+        throw InputError(message.str());
+      }
+  }
+
+  void Study::check_memory() const
+  {
+    // A lower estimate, to refuse what cannot fit before anything is written
+    // (the documented maxima died with a bare std::bad_alloc). Per boundary
+    // condition: the mesh (about 1 KiB per element in deal.II's triangulation
+    // and DoF handler; common practice, no source), K and M (value and column
+    // index per entry, (2p + 1)^d entries per row) and a factor at least as
+    // large as K; plus the stored eigenpairs of every realisation, which the
+    // tables hold at once (5 numbers each).
+    const unsigned int dim = lattice_.dimension();
+    const double       p   = discretisation_settings_.degree;
+    const double       r   = discretisation_settings_.elements_per_cell;
+    double elements = 1, dofs = 1;
+    for (unsigned int d = 0; d < dim; ++d)
+      {
+        elements *= lattice_.cells()[d] * r;
+        dofs *= lattice_.cells()[d] * r * p + 1;
+      }
+    const double row          = std::pow(2 * p + 1, double(dim));
+    const double per_boundary = geometry_.has_mesh() ? 0.0 : 1024.0 * elements + 3 * 12.0 * dofs * row;
+    const double k            = solver_settings_.energy_cutoff ? solver_settings_.max_eigenvalues :
+                                                                 solver_settings_.n_eigenvalues;
+    const double records = double(study_.realisations) * study_.boundaries.size() * k * 5 * 8;
+    const double total   = per_boundary * study_.boundaries.size() + records;
+    const double memory  = physical_memory_bytes();
+    if (memory > 0 && total > memory)
+      throw InputError("the study needs at least " + gibibytes(total) + " of memory (" +
+                       gibibytes(per_boundary * study_.boundaries.size()) +
+                       " for the meshes, matrices and factors of 'lattice/cells' = " +
+                       lattice_.description() + ", " + gibibytes(records) + " for the eigenvalues of " +
+                       std::to_string(study_.realisations) +
+                       " realisations), more than this machine's " + gibibytes(memory) +
+                       ": use fewer cells, a lower 'discretisation/degree', fewer "
+                       "'study/realisations' (studies of disjoint realisations can be merged "
+                       "by summarise) or fewer eigenvalues");
   }
 
   void Study::run(const RunOptions &options)
@@ -242,6 +343,7 @@ namespace alloyspec
     const bool root = dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0;
     // Checked before anything is written (the same verdict on every rank).
     teams_ = std::make_unique<RealisationTeams>(options.ranks_per_realisation);
+    check_memory();
     // SIGINT/SIGTERM from here on finish the running realisation first.
     std::optional<InterruptGuard> interrupt_guard(std::in_place);
     output_directory_ = options.output_directory;
@@ -390,10 +492,20 @@ namespace alloyspec
   void Study::assemble()
   {
     problems_.clear();
-    for (auto &d : discretisations_)
+    for (std::size_t b = 0; b < discretisations_.size(); ++b)
       {
-        d->assemble_fixed();
-        problems_.push_back(d->make_problem());
+        discretisations_[b]->assemble_fixed();
+        problems_.push_back(discretisations_[b]->make_problem());
+        // Fewer unknowns than eigenvalues wanted: the solver returns them all.
+        // None at all (every node on a Dirichlet face) leaves nothing to count.
+        if (problems_.back()->n_genuine() == 0)
+          throw InputError("parameter 'discretisation/degree': with degree " +
+                           std::to_string(discretisation_settings_.degree) + " and " +
+                           std::to_string(discretisation_settings_.elements_per_cell) +
+                           " element(s) per cell, the " + to_string(study_.boundaries[b]) +
+                           " problem on " + lattice_.description() +
+                           " has no unknowns (every node lies on a constrained face); raise "
+                           "'discretisation/degree' or 'discretisation/elements per cell'");
       }
     solver_ = std::make_unique<EigenSolver>(solver_settings_);
     solver_->use_teams(teams_.get());

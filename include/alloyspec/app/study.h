@@ -130,6 +130,10 @@ namespace alloyspec
      */
     bool check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const;
 
+    /** InputError if a cell value can exceed the magnitude the solver resolves (study.cc). */
+    void check_potential_scale() const;
+    /** InputError, with the estimate, if the study certainly cannot fit in this machine's memory. */
+    void check_memory() const;
     /**
      * `sampling/tilt = auto`: the cross-entropy method (tilt_choice.h) on
      * pilot realisations of the first boundary condition, scored by their
