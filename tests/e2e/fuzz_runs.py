@@ -68,7 +68,7 @@ def run(kind, what, args, watch=None, fresh=None):
 
 
 TINY = ["--set", "study/realisations=1", "--set", "spectrum/eigenvalues=3",
-        "--set", "discretisation/degree=1", "--set", "study/energies=0:0.5:4", "--no-progress"]
+        "--set", "discretisation/degree=1", "--set", "study/energies=0 to 4 by 0.5", "--no-progress"]
 
 # 1. Parameter values from valid, edge and invalid pools, in tiny boxes.
 pools = {
@@ -90,7 +90,7 @@ pools = {
     "study/realisations": ["1", "2", "4294967295", "0"],
     "study/export eigenfunctions": ["", "0", "0, 1", "{0|1}", "99999"],
     "landscape/shift": ["auto", "0", "-inf", "nan", "1"],
-    "study/energies": ["0:0.5:4", "0:1e-300:1", "4:1:0", "0, 1, 2"],
+    "study/energies": ["0 to 4 by 0.5", "0 to 1 by 1e-300", "4 to 0 by 1", "0:0.5:4", "0, 1, 2"],
 }
 keys = sorted(pools)
 for case in range(30):
@@ -210,7 +210,7 @@ def mutate_text(text):
     else:
         return ""
     return "\n".join(lines)
-names = ["eigenvalues.csv", "realisations.csv", "parameters.prm"]
+names = ["eigenvalues.csv", "realisations.csv", "as_run.prm"]
 for case in range(30):
     copy = os.path.join(work, f"stored_{case}")
     shutil.copytree(study, copy)

@@ -154,7 +154,7 @@ fi
 # 5. Small and extreme cases: exit 0 with every eigenvalue there is, or 2
 #    with a message naming the parameter, and a refused run leaves no folder.
 tiny=(--set discretisation/degree=1 --set "discretisation/elements per cell=1" --set spectrum/eigenvalues=5
-      --set study/realisations=2 --set "study/energies=0:0.5:4" --no-progress)
+      --set study/realisations=2 --set "study/energies=0 to 4 by 0.5" --no-progress)
 expect() { # expect STATUS "message part" NAME args...
   local want=$1 must=$2 name=$3; shift 3
   cases=$((cases + 1))

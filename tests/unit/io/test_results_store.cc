@@ -317,11 +317,11 @@ TEST(ResultsStore, StoredParameterFileMustHoldParameters)
 {
   TemporaryFolder folder("parameters");
   EXPECT_THROW(ResultsStore::read_stored_parameters(folder.path.string()), InputError); // missing
-  spit(folder.path / "parameters.prm", "");
+  spit(folder.path / ResultsStore::parameters_file, "");
   EXPECT_THROW(ResultsStore::read_stored_parameters(folder.path.string()), InputError); // empty
-  spit(folder.path / "parameters.prm", "# only a comment\nsubsection lattice\nend\n");
+  spit(folder.path / ResultsStore::parameters_file, "# only a comment\nsubsection lattice\nend\n");
   EXPECT_THROW(ResultsStore::read_stored_parameters(folder.path.string()), InputError);
-  spit(folder.path / "parameters.prm", "subsection lattice\n  set cells = 3\nend\n");
+  spit(folder.path / ResultsStore::parameters_file, "subsection lattice\n  set cells = 3\nend\n");
   EXPECT_NO_THROW(ResultsStore::read_stored_parameters(folder.path.string()));
 }
 
