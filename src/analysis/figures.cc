@@ -54,7 +54,8 @@ namespace alloyspec
     std::string style_header()
     {
       return "set encoding utf8\n"
-             "set datafile missing 'nan'\n"
+             // No 'set datafile missing': the tables' nan is then an undefined
+             // value, which breaks a line, where a 'missing' one would be bridged.
              "set grid lc rgb '#dddddd'\n"
              "set key outside right top vertical nobox noopaque samplen 1.5 spacing 0.9 font ',10'\n"
              "set border lw 1.2\n"
