@@ -1,6 +1,8 @@
 /** @file analysis.cc  From stored spectra to tables, tail fits, figures and report.html. */
 #include <alloyspec/analysis/analysis.h>
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
+#include <alloyspec/io/manifest.h>
 #include <alloyspec/analysis/figures.h>
 #include <alloyspec/analysis/report.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
@@ -12,6 +14,7 @@
 #include <fstream>
 #include <limits>
 #include <map>
+#include <set>
 #include <sstream>
 
 namespace alloyspec
@@ -19,16 +22,8 @@ namespace alloyspec
   namespace
   {
     constexpr double nan = std::numeric_limits<double>::quiet_NaN();
-
-    std::string num(const double x)
-    {
-      if (!std::isfinite(x))
-        return "";
-      std::ostringstream s;
-      s.precision(10);
-      s << x;
-      return s.str();
-    }
+    /** Rows of the eigenvalue table of a fixed potential, per boundary condition. */
+    constexpr std::size_t max_eigenvalue_rows = 20;
 
     /** Short form for tables of the report. */
     std::string brief(const double x)
@@ -43,37 +38,11 @@ namespace alloyspec
       return s.str();
     }
 
-    std::string json_number(const double x) { return std::isfinite(x) ? num(x) : "null"; }
-
-    std::string json_string(const std::string &s)
-    {
-      std::string out = "\"";
-      for (const char c : s)
-        {
-          if (c == '"' || c == '\\')
-            out += '\\', out += c;
-          else if (c == '\n')
-            out += "\\n";
-          else if (static_cast<unsigned char>(c) < 0x20)
-            out += ' ';
-          else
-            out += c;
-        }
-      return out + "\"";
-    }
-
-    /** Writes @p content to @p path through a temporary file and a rename. */
+    /** Writes @p content to @p path atomically (temporary file, then rename). */
     void write_text(const std::string &path, const std::string &content)
     {
-      const std::string temporary = path + ".tmp";
-      {
-        std::ofstream out(temporary, std::ios::binary);
-        out << content;
-        out.flush();
-        if (!out)
-          throw InputError(path + ": cannot write the file");
-      }
-      std::filesystem::rename(temporary, path);
+      const std::filesystem::path p(path);
+      ResultsStore::write_file_in(p.parent_path().string(), p.filename().string(), content);
     }
 
     /** Everything computed for one boundary condition. */
@@ -129,6 +98,12 @@ namespace alloyspec
       return a;
     }
 
+    /** @p x where the row is complete, the missing marker where it is not (never an under-count). */
+    std::string if_complete(const bool complete, const double x)
+    {
+      return csv_number(complete ? x : std::numeric_limits<double>::quiet_NaN());
+    }
+
     std::string ids_band_csv(const std::vector<BoundaryAnalysis> &all,
                              const std::vector<double> &energies)
     {
@@ -140,10 +115,14 @@ namespace alloyspec
       csv << '\n';
       for (std::size_t i = 0; i < energies.size(); ++i)
         {
-          csv << num(energies[i]);
+          csv << csv_number(energies[i]);
           for (const auto &a : all)
-            csv << ',' << num(a.band[i].mean) << ',' << num(a.band[i].lower) << ','
-                << num(a.band[i].upper) << ',' << (a.band[i].complete ? 1 : 0);
+            {
+              const auto &r = a.band[i];
+              csv << ',' << if_complete(r.complete, r.mean) << ','
+                  << if_complete(r.complete, r.lower) << ',' << if_complete(r.complete, r.upper)
+                  << ',' << (r.complete ? 1 : 0);
+            }
           csv << '\n';
         }
       return csv.str();
@@ -160,20 +139,27 @@ namespace alloyspec
       csv << '\n';
       for (std::size_t i = 0; i < energies.size(); ++i)
         {
-          csv << num(energies[i]);
+          csv << csv_number(energies[i]);
           for (const auto &a : all)
             for (const auto *rows : {&a.lorentzian, &a.gaussian})
-              csv << ',' << num((*rows)[i].mean) << ',' << num((*rows)[i].standard_error) << ','
-                  << ((*rows)[i].complete ? 1 : 0);
+              {
+                const auto &r = (*rows)[i];
+                csv << ',' << if_complete(r.complete, r.mean) << ','
+                    << if_complete(r.complete, r.standard_error) << ',' << (r.complete ? 1 : 0);
+              }
           csv << '\n';
         }
       return csv.str();
     }
 
-    std::string localisation_csv(const std::vector<BoundaryAnalysis> &all)
+    /** Bin edges carry the energy unit in their name in physical units ("bin_low_eV"). */
+    std::string localisation_csv(const std::vector<BoundaryAnalysis> &all, const AnalysisInput &in)
     {
+      const std::string unit = in.solver_energy_unit > 0.0 && in.energy_column.rfind("energy_", 0) == 0 ?
+                                 in.energy_column.substr(6) :
+                                 std::string();
       std::ostringstream csv;
-      csv << "bin_low,bin_high";
+      csv << "bin_low" << unit << ",bin_high" << unit;
       for (const auto &a : all)
         csv << ",ratio_" << a.name << ",ratio_stderr_" << a.name << ",ratio_count_" << a.name
             << ",ipr_" << a.name << ",ipr_stderr_" << a.name << ",ipr_count_" << a.name;
@@ -181,57 +167,64 @@ namespace alloyspec
       const std::size_t n = all.empty() ? 0 : all[0].ratios.size();
       for (std::size_t b = 0; b < n; ++b)
         {
-          csv << num(all[0].ratios[b].lower) << ',' << num(all[0].ratios[b].upper);
+          csv << csv_number(all[0].ratios[b].lower) << ',' << csv_number(all[0].ratios[b].upper);
           for (const auto &a : all)
-            csv << ',' << num(a.ratios[b].mean) << ',' << num(a.ratios[b].standard_error) << ','
-                << a.ratios[b].count << ',' << num(a.ipr[b].mean) << ','
-                << num(a.ipr[b].standard_error) << ',' << a.ipr[b].count;
+            csv << ',' << csv_number(a.ratios[b].mean) << ',' << csv_number(a.ratios[b].standard_error) << ','
+                << a.ratios[b].count << ',' << csv_number(a.ipr[b].mean) << ','
+                << csv_number(a.ipr[b].standard_error) << ',' << a.ipr[b].count;
           csv << '\n';
         }
       return csv.str();
     }
 
-    std::string fit_json(const TailFit &f, bool lifshitz)
+    Json fit_json(const TailFit &f, bool lifshitz)
     {
-      std::ostringstream j;
-      j << "{\"resolved\": " << (f.resolved ? "true" : "false")
-        << ", \"reason\": " << json_string(f.reason)
-        << ", \"window\": [" << json_number(f.window_low) << ", " << json_number(f.window_high)
-        << "], \"points\": " << f.points << ", \"states\": " << f.states
-        << ", \"realisations\": " << f.realisations << ", \"slope\": " << json_number(f.slope)
-        << ", \"slope_stderr\": " << json_number(f.slope_error) << ", \"slope_interval\": ["
-        << json_number(f.slope_low) << ", " << json_number(f.slope_high)
-        << "], \"intercept\": " << json_number(f.intercept)
-        << ", \"chi_squared\": " << json_number(f.chi_squared) << ", \"dof\": " << f.dof;
+      Json j;
+      j["resolved"]       = f.resolved;
+      j["reason"]         = f.reason;
+      j["window"]         = {json_number(f.window_low), json_number(f.window_high)};
+      j["points"]         = f.points;
+      j["states"]         = f.states;
+      j["realisations"]   = f.realisations;
+      j["slope"]          = json_number(f.slope);
+      j["slope_stderr"]   = json_number(f.slope_error);
+      j["slope_interval"] = {json_number(f.slope_low), json_number(f.slope_high)};
+      j["intercept"]      = json_number(f.intercept);
+      j["chi_squared"]    = json_number(f.chi_squared);
+      j["dof"]            = f.dof;
       if (lifshitz)
-        j << ", \"expected_slope\": " << json_number(f.expected_slope)
-          << ", \"consistent_with_expected\": " << (f.consistent ? "true" : "false");
+        {
+          j["expected_slope"]           = json_number(f.expected_slope);
+          j["consistent_with_expected"] = f.consistent;
+        }
       else
-        j << ", \"urbach_energy\": " << json_number(f.urbach_energy) << ", \"urbach_interval\": ["
-          << json_number(f.urbach_low) << ", " << json_number(f.urbach_high)
-          << "], \"reference_energy\": " << json_number(f.reference_energy);
-      j << "}";
-      return j.str();
+        {
+          j["urbach_energy"]    = json_number(f.urbach_energy);
+          j["urbach_interval"]  = {json_number(f.urbach_low), json_number(f.urbach_high)};
+          j["reference_energy"] = json_number(f.reference_energy);
+        }
+      return j;
     }
 
-    std::string tails_json(const std::vector<BoundaryAnalysis> &all, const AnalysisInput &in,
-                           const AnalysisSettings &s)
+    Json tails_json(const std::vector<BoundaryAnalysis> &all, const AnalysisInput &in,
+                    const AnalysisSettings &s)
     {
-      std::ostringstream j;
-      j << "{\n  \"band_bottom\": " << json_number(in.band_bottom)
-        << ",\n  \"dimension\": " << in.dimension
-        << ",\n  \"confidence_level\": " << json_number(s.confidence_level)
-        << ",\n  \"gaussian_width\": " << json_number(s.gaussian_width)
-        << ",\n  \"energy_unit\": " << json_string(in.energy_unit) << ",\n  \"lifshitz\": {";
-      for (std::size_t b = 0; b < all.size(); ++b)
-        j << (b ? "," : "") << "\n    " << json_string(all[b].name) << ": "
-          << fit_json(all[b].lifshitz, true);
-      j << "\n  },\n  \"urbach\": {";
-      for (std::size_t b = 0; b < all.size(); ++b)
-        j << (b ? "," : "") << "\n    " << json_string(all[b].name) << ": "
-          << fit_json(all[b].urbach, false);
-      j << "\n  }\n}\n";
-      return j.str();
+      Json j                 = manifest_header("tail fits");
+      j["band_bottom"]       = json_number(in.band_bottom);
+      j["dimension"]         = in.dimension;
+      j["confidence_level"]  = json_number(s.confidence_level);
+      j["gaussian_width"]    = json_number(s.gaussian_width);
+      j["energy_unit"]       = in.energy_unit;
+      j["missing_value"]     = "null";
+      Json lifshitz = Json::object(), urbach = Json::object();
+      for (const auto &a : all)
+        {
+          lifshitz[a.name] = fit_json(a.lifshitz, true);
+          urbach[a.name]   = fit_json(a.urbach, false);
+        }
+      j["lifshitz"] = lifshitz;
+      j["urbach"]   = urbach;
+      return j;
     }
 
     /** IDS table for the figure: ids.csv by name if there is one, else from the records. */
@@ -319,9 +312,244 @@ namespace alloyspec
       return checks;
     }
 
-    std::vector<std::string> analyse(const std::string &output_dir, const AnalysisInput &in,
-                                     const AnalysisSettings &s, ReportContent report)
+    bool is_deterministic(const AnalysisInput &in)
     {
+      if (in.fixed_potential)
+        return true;
+      std::set<std::uint64_t> realisations;
+      for (const auto &r : in.records)
+        realisations.insert(r.realisation);
+      return realisations.size() == 1;
+    }
+
+    /**
+     * The eigenvalues of one fixed potential with their residuals, absolute
+     * error bounds and Richardson-extrapolated values. The bound is
+     * @f$F\,\hat e@f$ with @f$\hat e@f$ the Richardson estimate of
+     * @f$\lambda_h - \lambda@f$ and F the safety factor, so
+     * @f$\lambda_h - \hat e = \lambda_h - \text{bound}/F@f$ is the extrapolated value
+     * (which costs nothing once @f$\lambda_{h/2}@f$ is known).
+     */
+    ReportTable eigenvalue_table(const AnalysisInput &in)
+    {
+      const std::string unit =
+        in.energy_column.rfind("energy_", 0) == 0 ? in.energy_column.substr(7) : "reduced units";
+      ReportTable t{"Eigenvalues of the fixed potential (lowest " +
+                      std::to_string(max_eigenvalue_rows) + " per boundary condition; energies in " +
+                      unit + "). Error bound: absolute, on λ_h − λ, " +
+                      short_number(in.error_safety_factor) +
+                      " × the Richardson estimate; the extrapolated value is λ_h minus that "
+                      "estimate. Residual: relative, ‖Ku − λMu‖/(max(|λ|,1)‖Mu‖).",
+                    {"boundary", "index", "eigenvalue λ_h", "residual (relative)",
+                     "error bound (absolute)", "Richardson-extrapolated λ"},
+                    {}};
+      std::set<std::string> seen;
+      for (const auto &r : in.records)
+        {
+          if (!seen.insert(r.boundary).second)
+            continue; // one realisation per boundary condition
+          const std::size_t n = std::min<std::size_t>(r.eigenvalues.size(), max_eigenvalue_rows);
+          for (std::size_t j = 0; j < n; ++j)
+            {
+              const double error = j < r.errors.size() ? r.errors[j] : std::nan("");
+              const double res   = j < r.residuals.size() ? r.residuals[j] : std::nan("");
+              const bool   have  = std::isfinite(error);
+              t.rows.push_back({r.boundary, std::to_string(j), short_number(r.eigenvalues[j], 10),
+                                short_number(res, 2),
+                                have ? short_number(error, 3) : "not estimated",
+                                have ? short_number(r.eigenvalues[j] - error / in.error_safety_factor, 10) :
+                                       "needs discretisation/error estimate"});
+            }
+        }
+      return t;
+    }
+
+    /**
+     * Maps of the lowest eigenfunctions of a fixed potential from the study's
+     * eigenfunction_slice_<bc>.csv: a curve per function in 1D, one panel per
+     * function (colour = ψ) in 2D and on the mid-plane in 3D.
+     */
+    Figure eigenfunction_figure(FigureMaker &maker, const AnalysisInput &in, const std::string &bc)
+    {
+      const std::string file =
+        (std::filesystem::path(in.source_directory) / ("eigenfunction_slice_" + bc + ".csv")).string();
+      Figure none{"eigenfunctions_" + bc, "", "", {}, true};
+      if (in.source_directory.empty() || !std::filesystem::exists(file))
+        return none;
+      const Columns table = read_csv_columns(file);
+      std::vector<std::string> psi;
+      for (int j = 0; table.count("psi_" + std::to_string(j)); ++j)
+        psi.push_back("psi_" + std::to_string(j));
+      std::vector<double> x, y; // "x" or "x_nm"
+      for (const auto &[name, values] : table)
+        {
+          if (name.rfind("x", 0) == 0)
+            x = values;
+          if (name.rfind("y", 0) == 0)
+            y = values;
+        }
+      if (psi.empty() || x.empty() || y.size() != x.size())
+        return none;
+      std::ostringstream data;
+      for (std::size_t k = 0; k < x.size(); ++k)
+        {
+          data << csv_number(x[k]) << ' ' << csv_number(y[k]);
+          for (const auto &p : psi)
+            data << ' ' << csv_number(table.at(p)[k]);
+          data << '\n';
+        }
+      // Eigenvalues for the titles.
+      std::vector<double> levels;
+      for (const auto &r : in.records)
+        if (r.boundary == bc)
+          {
+            levels = r.eigenvalues;
+            break;
+          }
+      const std::string unit =
+        in.energy_column.rfind("energy_", 0) == 0 ? " " + in.energy_column.substr(7) : "";
+      const std::string length = in.solver_energy_unit > 0.0 ? " (nm)" : " (cells)";
+      const auto title = [&](std::size_t j) {
+        return "ψ_" + std::to_string(j) +
+               (j < levels.size() ? ", λ = " + short_number(levels[j], 5) + unit : "");
+      };
+      std::ostringstream plot;
+      if (in.dimension == 1)
+        {
+          plot << "set xlabel " << gnuplot_string("x" + length) << "\nset ylabel 'ψ(x)'\nplot ";
+          for (std::size_t j = 0; j < psi.size(); ++j)
+            plot << (j ? ", " : "") << "data using 1:" << 3 + j << " with lines lw 2 title "
+                 << gnuplot_string(title(j));
+          plot << "\n";
+        }
+      else
+        {
+          const std::size_t columns = psi.size() > 1 ? 2 : 1, rows = (psi.size() + 1) / 2;
+          plot << "set palette defined (-1 '#2166ac', 0 '#f7f7f7', 1 '#b2182b')\n"
+               << "set size ratio -1\nunset key\nset xlabel " << gnuplot_string("x" + length)
+               << "\nset ylabel " << gnuplot_string("y" + length) << "\n"
+               << "set multiplot layout " << rows << "," << columns << "\n";
+          for (std::size_t j = 0; j < psi.size(); ++j)
+            {
+              double top = 0;
+              for (const double v : table.at(psi[j]))
+                top = std::max(top, std::abs(v));
+              plot << "set title " << gnuplot_string(title(j)) << "\nset cbrange ["
+                   << csv_number(-top) << ":" << csv_number(top) << "]\n"
+                   << "plot data using 1:2:" << 3 + j << " with points pt 5 ps 1.1 lc palette\n";
+            }
+          plot << "unset multiplot\n";
+        }
+      std::string where = in.dimension == 3 ? " on the mid-plane of the box" : "";
+      return maker.make("eigenfunctions_" + bc, "Lowest eigenfunctions (" + bc + ")",
+                        "The lowest " + std::to_string(psi.size()) + " eigenfunctions of the fixed "
+                        "potential under the " + bc + " condition" + where +
+                          " (colour: ψ, blue negative, red positive; each panel on its own scale).",
+                        data.str(), plot.str());
+    }
+
+    /** The few lines a run ends with: band bottom, bracket at three energies, tails, report. */
+    std::vector<std::string> closing_summary(const std::string &output_dir, const AnalysisInput &in,
+                                             const std::vector<BoundaryAnalysis> &all)
+    {
+      const std::string unit =
+        in.energy_column.rfind("energy_", 0) == 0 ? " " + in.energy_column.substr(7) : "";
+      std::vector<std::string> lines;
+      std::string              bottom = "Band bottom E0 = " + short_number(in.band_bottom) + unit;
+      for (const auto &a : all)
+        {
+          double lowest = std::numeric_limits<double>::infinity();
+          for (const auto &r : in.records)
+            if (r.boundary == a.name)
+              for (const double x : r.eigenvalues)
+                lowest = std::min(lowest, x);
+          if (std::isfinite(lowest))
+            bottom += "; lowest " + a.name + " level " + short_number(lowest) + unit;
+        }
+      lines.push_back(bottom);
+      // Three energies spread over those where every boundary is complete.
+      std::vector<std::size_t> complete;
+      for (std::size_t i = 0; i < in.energies.size(); ++i)
+        if (std::all_of(all.begin(), all.end(), [&](const BoundaryAnalysis &a) {
+              return a.band[i].complete;
+            }))
+          complete.push_back(i);
+      if (!complete.empty() && !all.empty())
+        {
+          std::string line = "Mean IDS [";
+          for (std::size_t b = 0; b < all.size(); ++b)
+            line += (b ? ", " : "") + all[b].name;
+          line += "] in " + density_unit(in, false) + ":";
+          std::size_t previous = in.energies.size();
+          for (const double q : {0.25, 0.5, 0.75})
+            {
+              const std::size_t i = complete[std::size_t(q * double(complete.size() - 1))];
+              if (i == previous)
+                continue;
+              previous = i;
+              line += " E = " + short_number(in.energies[i]) + unit + ": [";
+              for (std::size_t b = 0; b < all.size(); ++b)
+                line += (b ? ", " : "") + short_number(all[b].band[i].mean, 3);
+              line += "];";
+            }
+          line.pop_back();
+          lines.push_back(line);
+        }
+      else
+        lines.push_back("No grid energy where every realisation's spectrum is complete: no IDS "
+                        "to show (raise spectrum/eigenvalues)");
+      std::string tails = "Tail fits resolved:";
+      for (const auto &a : all)
+        tails += " " + a.name + " Lifshitz " + (a.lifshitz.resolved ? "yes" : "no") + ", Urbach " +
+                 (a.urbach.resolved ? "yes (E_U = " + short_number(a.urbach.urbach_energy, 3) + unit +
+                                        ")" :
+                                      "no") +
+                 ";";
+      tails.back() = ' ';
+      lines.push_back(tails + "(reasons in tails.json)");
+      lines.push_back("Report: " + (std::filesystem::path(output_dir) / "report.html").string());
+      return lines;
+    }
+
+    /**
+     * One line when the computed spectra do not reach the top of the grid plus
+     * the Lorentzian margin, with the number of eigenvalues that would, from
+     * Weyl's law N ∝ (E − E_low)^{d/2} (an estimate).
+     */
+    std::string coverage_warning(const AnalysisInput &in, const AnalysisSettings &s)
+    {
+      if (in.records.empty() || in.energies.empty())
+        return {};
+      double      reach = std::numeric_limits<double>::infinity(), low = reach;
+      std::size_t most  = 0;
+      for (const auto &r : in.records)
+        {
+          reach = std::min(reach, r.complete_up_to);
+          most  = std::max(most, r.eigenvalues.size());
+          for (const double x : r.eigenvalues)
+            low = std::min(low, x);
+        }
+      const double need = in.energies.back() + incomplete_margin(Broadening::lorentzian) * s.lorentzian_width;
+      if (!(need > reach) || !(reach > low) || most == 0)
+        return {};
+      const double ratio  = std::pow((need - low) / (reach - low), 0.5 * double(in.dimension));
+      const auto   enough = std::size_t(std::ceil(double(most) * ratio));
+      const std::string unit = in.energy_column.rfind("energy_", 0) == 0 ? " " + in.energy_column.substr(7) : "";
+      return "the " + std::to_string(most) + " eigenvalues per solve are complete up to " +
+             short_number(reach) + unit + " in every realisation, but the grid ends at " +
+             short_number(in.energies.back()) + unit + " and the Lorentzian needs " +
+             short_number(need - in.energies.back()) + unit +
+             " beyond it: about " + std::to_string(enough) +
+             " eigenvalues (spectrum/eigenvalues) would cover it (Weyl scaling, an estimate); "
+             "Lorentzian DOS entries above " +
+             short_number(reach - (need - in.energies.back())) + unit + " are written as missing";
+    }
+
+    std::vector<std::string> analyse(const std::string &output_dir, const AnalysisInput &in,
+                                     const AnalysisSettings &requested, ReportContent report)
+    {
+      std::vector<std::string> chosen;
+      const AnalysisSettings   s = requested.resolved_for(in.records, chosen);
       if (in.energies.empty() || !(in.volume > 0.0) || in.dimension < 1 || in.dimension > 3 ||
           !(in.cell_size > 0.0))
         throw InputError("analysis: need a non-empty energy grid, a volume > 0, a cell size > 0 "
@@ -333,11 +561,12 @@ namespace alloyspec
 
       write_text(output_dir + "/ids_band.csv", with_energy_columns(ids_band_csv(all, in.energies), in));
       write_text(output_dir + "/dos.csv", with_energy_columns(dos_csv(all, in.energies), in));
-      write_text(output_dir + "/localisation.csv", localisation_csv(all));
-      write_text(output_dir + "/tails.json", tails_json(all, in, s));
+      write_text(output_dir + "/localisation.csv", localisation_csv(all, in));
+      write_json_file(output_dir, "tails.json", tails_json(all, in, s));
 
       const double cell_volume = std::pow(in.cell_size, double(in.dimension));
       FigureMaker  maker(output_dir + "/figures", s.figure_formats, in.energy_unit);
+      maker.set_density_units(density_unit(in, false), density_unit(in, true));
       std::vector<std::string> names;
       std::vector<std::vector<IntervalRow>> lor, gau;
       std::vector<std::vector<GridValue>>   ids;
@@ -353,9 +582,15 @@ namespace alloyspec
       report.figures.push_back(ids_figure(maker, table, names, s.confidence_level));
       report.figures.push_back(dos_figure(maker, names, lor, gau, s.lorentzian_width,
                                           s.gaussian_width));
-      report.figures.push_back(lifshitz_figure(maker, names, ids, lif, in.band_bottom, cell_volume));
-      report.figures.push_back(urbach_figure(maker, names, gau, urb));
-      if (!ratios.empty() && !ratios[0].empty())
+      // One fixed potential has no ensemble: no tail fits, bands or level statistics.
+      const bool deterministic = is_deterministic(in);
+      if (!deterministic)
+        {
+          report.figures.push_back(
+            lifshitz_figure(maker, names, ids, lif, in.band_bottom, cell_volume));
+          report.figures.push_back(urbach_figure(maker, names, gau, urb));
+        }
+      if (!deterministic && !ratios.empty() && !ratios[0].empty())
         {
           report.figures.push_back(ipr_figure(maker, names, ipr, in.volume, cell_volume));
           report.figures.push_back(ratio_figure(maker, names, ratios));
@@ -376,7 +611,14 @@ namespace alloyspec
                                  {"volume |Λ|", brief(in.volume)},
                                  {"bottom of the spectrum E0", brief(in.band_bottom)},
                                  {"mean potential", brief(in.mean_potential)},
-                                 {"energy unit", in.energy_unit}});
+                                 {"energy unit", in.energy_unit},
+                                 {"broadening η (Lorentzian), σ (Gaussian); bin width",
+                                  short_number(s.lorentzian_width) + ", " +
+                                    short_number(s.gaussian_width) + "; " +
+                                    short_number(s.bin_width) +
+                                    (chosen.empty() ? "" : " (automatic ones chosen from the spectrum)")}});
+      for (const auto &c : chosen)
+        report.notes.push_back("Chosen from the computed spectrum: " + c + ".");
       for (const auto &a : all)
         {
           std::size_t complete = 0;
@@ -386,6 +628,17 @@ namespace alloyspec
                                         std::to_string(a.realisations) + ", IDS complete at " +
                                           std::to_string(complete) + " of " +
                                           std::to_string(a.band.size()) + " grid energies"});
+        }
+      if (deterministic)
+        {
+          for (const auto &a : all)
+            if (auto f = eigenfunction_figure(maker, in, a.name); !f.empty)
+              report.figures.push_back(std::move(f));
+          report.tables.push_back(eigenvalue_table(in));
+          report.notes.push_back(
+            "A fixed potential (the 'file' law or a single realisation): the report lists its "
+            "eigenvalues instead of ensemble statistics (tail fits, bootstrap bands and level "
+            "statistics need many realisations).");
         }
       ReportTable fits{"Tail fits (interval at confidence " + brief(s.confidence_level) + ")",
                        {"boundary", "fit", "window", "points / states / realisations", "result",
@@ -410,7 +663,8 @@ namespace alloyspec
                                  ", " + brief(a.urbach.urbach_high) + "]",
                                a.urbach.resolved ? "yes" : "no", a.urbach.reason});
         }
-      report.tables.push_back(fits);
+      if (!deterministic)
+        report.tables.push_back(fits);
       ReportTable sample{"IDS at selected energies (mean and bootstrap interval; * = incomplete)",
                          {"energy"},
                          {}};
@@ -425,17 +679,35 @@ namespace alloyspec
                           brief(a.band[i].upper) + "]" + (a.band[i].complete ? "" : " *"));
           sample.rows.push_back(row);
         }
-      report.tables.push_back(sample);
+      if (!deterministic)
+        report.tables.push_back(sample);
       for (auto &c : exact_checks(in))
         report.checks.push_back(c);
-      report.notes.push_back(
+      if (!deterministic)
+        report.notes.push_back(
         "Lifshitz fits use neighbouring grid points that share realisations; their errors are "
         "correlated, so the slope interval is approximate. In a Dirichlet box of L cells the "
         "spectrum starts about dπ²/(La)² above E0, which cuts the tail off at low energy.");
-      for (const auto &w : maker.warnings())
+      std::vector<std::string> warnings = maker.warnings();
+      if (const auto w = coverage_warning(in, s); !w.empty())
+        warnings.insert(warnings.begin(), w);
+      for (const auto &w : warnings)
         report.notes.push_back(w);
       write_text(output_dir + "/report.html", render_report(report));
-      return maker.warnings();
+      // The report's key numbers, for scripts.
+      Json key = manifest_header("analysis");
+      key["missing_value"] = "null";
+      Json numbers         = Json::object();
+      for (const auto &[name, value] : report.key_numbers)
+        numbers[name] = value;
+      key["key_numbers"] = numbers;
+      auto lines         = closing_summary(output_dir, in, all);
+      for (const auto &[name, value] : report.key_numbers)
+        if (name == "1/L fits") // a box-size series: its result comes first
+          lines.insert(lines.begin(), "Box-size series: " + value);
+      key["summary"] = lines;
+      write_json_file(output_dir, "key_numbers.json", key);
+      return warnings;
     }
   } // namespace
 
@@ -461,7 +733,7 @@ namespace alloyspec
             continue;
           }
         const double e = std::strtod(first.c_str(), nullptr);
-        out << first << ',' << num(e / input.solver_energy_unit) << rest << '\n';
+        out << first << ',' << csv_number(e / input.solver_energy_unit) << rest << '\n';
       }
     return out.str();
   }
@@ -472,116 +744,23 @@ namespace alloyspec
     return analyse(output_dir, input, settings, ReportContent{});
   }
 
-  std::vector<std::string> write_summary(const std::string                &output_dir,
-                                         const std::vector<AnalysisInput> &studies,
-                                         const AnalysisSettings           &settings)
+  std::vector<std::string> write_analysis(const std::string &output_dir, const AnalysisInput &input,
+                                          const AnalysisSettings &settings, ReportContent report)
   {
-    if (studies.size() < 2)
-      throw InputError("summarise: need at least two studies (box sizes) to extrapolate");
-    for (const auto &s : studies)
-      if (s.energies != studies[0].energies || s.dimension != studies[0].dimension ||
-          !(s.volume > 0.0) || !(s.cell_size > 0.0))
-        throw InputError("summarise: all studies must share the energy grid and the dimension "
-                         "and have a positive volume and cell size");
-    const auto &energies = studies[0].energies;
-    const double d       = double(studies[0].dimension);
-    std::vector<double> sizes;
-    std::size_t         largest = 0;
-    for (std::size_t k = 0; k < studies.size(); ++k)
-      {
-        const auto &s = studies[k];
-        sizes.push_back(std::pow(s.volume / std::pow(s.cell_size, d), 1.0 / d));
-        if (sizes.back() > sizes[largest])
-          largest = k;
-      }
-    std::filesystem::create_directories(output_dir);
-
-    // Per boundary and energy: N_L from every study where it is complete.
-    const auto &bcs = studies[largest].boundaries;
-    std::vector<std::vector<Extrapolation>> fits(bcs.size(), std::vector<Extrapolation>(energies.size()));
-    std::vector<std::vector<bool>>          ok(bcs.size(), std::vector<bool>(energies.size(), false));
-    for (std::size_t b = 0; b < bcs.size(); ++b)
-      {
-        std::vector<std::vector<IdsAccumulator::Row>> rows;
-        for (const auto &s : studies)
-          {
-            IdsAccumulator acc(energies, s.volume);
-            for (const auto &r : s.records)
-              if (r.boundary == bcs[b])
-                acc.add(r.eigenvalues, r.complete_up_to);
-            rows.push_back(acc.rows());
-          }
-        for (std::size_t i = 0; i < energies.size(); ++i)
-          {
-            std::vector<double> l, m, e;
-            for (std::size_t k = 0; k < studies.size(); ++k)
-              if (rows[k][i].complete && rows[k][i].standard_error > 0.0)
-                l.push_back(sizes[k]), m.push_back(rows[k][i].mean),
-                  e.push_back(rows[k][i].standard_error);
-            // Three sizes at least, so that χ² has a degree of freedom to test the 1/L form.
-            if (l.size() >= 3)
-              fits[b][i] = extrapolate_in_inverse_size(l, m, e), ok[b][i] = true;
-          }
-      }
-    const auto index = [&](const char *name) {
-      const auto it = std::find(bcs.begin(), bcs.end(), name);
-      return it == bcs.end() ? -1 : int(it - bcs.begin());
-    };
-    const int          di = index("dirichlet"), ni = index("neumann");
-    std::ostringstream csv;
-    csv << "energy";
-    for (const auto &bc : bcs)
-      csv << ",n_infinity_" << bc << ",stderr_" << bc << ",c_" << bc << ",c_stderr_" << bc
-          << ",chi_squared_" << bc << ",dof_" << bc;
-    csv << ",agree\n";
-    std::size_t compared = 0, agreeing = 0;
-    for (std::size_t i = 0; i < energies.size(); ++i)
-      {
-        csv << num(energies[i]);
-        for (std::size_t b = 0; b < bcs.size(); ++b)
-          {
-            const auto &f = fits[b][i];
-            if (ok[b][i])
-              csv << ',' << num(f.n_infinity) << ',' << num(f.n_infinity_error) << ',' << num(f.c)
-                  << ',' << num(f.c_error) << ',' << num(f.chi_squared) << ',' << f.dof;
-            else
-              csv << ",,,,,,";
-          }
-        csv << ',';
-        if (di >= 0 && ni >= 0 && ok[di][i] && ok[ni][i])
-          {
-            const bool agree = extrapolations_agree(fits[di][i], fits[ni][i],
-                                                    settings.confidence_level);
-            ++compared, agreeing += agree;
-            csv << (agree ? 1 : 0);
-          }
-        csv << '\n';
-      }
-    write_text(output_dir + "/extrapolation.csv", with_energy_columns(csv.str(), studies[largest]));
-
-    ReportContent report;
-    report.title = "alloyspec summary of " + std::to_string(studies.size()) + " box sizes";
-    std::ostringstream list;
-    for (std::size_t k = 0; k < sizes.size(); ++k)
-      list << (k ? ", " : "") << brief(sizes[k]);
-    report.key_numbers.push_back({"box sizes L (cells per direction)", list.str()});
-    report.key_numbers.push_back({"figures and tail fits below", "largest box, L = " +
-                                                                   brief(sizes[largest])});
-    if (compared > 0)
-      report.checks.push_back(
-        {"Dirichlet and Neumann extrapolations agree (N + c/L)", agreeing == compared,
-         std::to_string(agreeing) + " of " + std::to_string(compared) +
-           " energies agree within the interval at confidence " +
-           brief(settings.confidence_level) +
-           " (treated as independent, which is conservative for common cell values)"});
-    FigureMaker maker(output_dir + "/figures", settings.figure_formats,
-                      studies[largest].energy_unit);
-    report.figures.push_back(extrapolation_figure(
-      maker, read_csv_columns(output_dir + "/extrapolation.csv"), bcs, settings.confidence_level));
-    for (const auto &w : maker.warnings())
-      report.notes.push_back(w);
-    auto warnings = analyse(output_dir, studies[largest], settings, report);
-    warnings.insert(warnings.end(), maker.warnings().begin(), maker.warnings().end());
-    return warnings;
+    return analyse(output_dir, input, settings, std::move(report));
   }
+
+  std::string density_unit(const AnalysisInput &input, const bool per_energy)
+  {
+    static const char *powers[] = {"", "⁻¹", "⁻²", "⁻³"};
+    const bool         physical = input.solver_energy_unit > 0.0;
+    const std::string  length   = physical ? "nm" : "ℓ";
+    const std::string  energy =
+      physical && input.energy_column.rfind("energy_", 0) == 0 ? input.energy_column.substr(7) : "ε";
+    std::string unit = length + powers[std::min(input.dimension, 3u)];
+    if (per_energy)
+      unit = energy + "⁻¹·" + unit;
+    return unit;
+  }
+
 } // namespace alloyspec

@@ -1,6 +1,8 @@
 /** @file figures.cc  gnuplot scripts and data files for the analysis figures. */
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
 #include <alloyspec/analysis/figures.h>
+#include <alloyspec/io/results_store.h>
 
 #include <algorithm>
 #include <cmath>
@@ -37,10 +39,7 @@ namespace alloyspec
     {
       if (!std::isfinite(x))
         return "NaN";
-      std::ostringstream s;
-      s.precision(10);
-      s << x;
-      return s.str();
+      return csv_number(x); // full precision, like every table
     }
 
     /** Column @p name of @p table, or an empty vector. */
@@ -56,13 +55,23 @@ namespace alloyspec
     std::string style_header()
     {
       return "set encoding utf8\n"
-             "set datafile missing 'NaN'\n"
+             // No 'set datafile missing': the tables' nan is then an undefined
+             // value, which breaks a line, where a 'missing' one would be bridged.
              "set grid lc rgb '#dddddd'\n"
-             "set key box opaque samplen 2\n"
+             "set key outside right top vertical nobox noopaque samplen 1.5 spacing 0.9 font ',10'\n"
              "set border lw 1.2\n"
              "set samples 400\n";
     }
   } // namespace
+
+  std::string legend_name(const std::string &boundary)
+  {
+    if (boundary == "dirichlet")
+      return "Dirichlet";
+    if (boundary == "neumann")
+      return "Neumann";
+    return boundary;
+  }
 
   std::string gnuplot_string(const std::string &text)
   {
@@ -150,12 +159,32 @@ namespace alloyspec
                            const std::string &caption, const std::string &data,
                            const std::string &commands)
   {
-    Figure figure{name, title, caption, {}};
-    const std::string stem = directory_ + "/" + name;
+    Figure figure{name, title, caption, {}, false};
+    // A figure needs at least two rows with a value to show: otherwise it is
+    // omitted, not drawn as an empty frame (gnuplot would also fail on it).
     {
-      std::ofstream out(stem + ".dat");
-      out << data;
+      std::istringstream lines(data);
+      std::size_t        rows = 0;
+      for (std::string line; std::getline(lines, line) && rows < 2;)
+        {
+          if (line.empty() || line[0] == '#')
+            continue;
+          std::istringstream words(line);
+          std::string        word;
+          words >> word; // the abscissa
+          bool any = false;
+          while (words >> word)
+            any = any || std::isfinite(std::strtod(word.c_str(), nullptr));
+          rows += any;
+        }
+      if (rows < 2)
+        {
+          figure.empty = true;
+          return figure;
+        }
     }
+    const std::string stem = directory_ + "/" + name;
+    ResultsStore::write_file_in(directory_, name + ".dat", data);
     std::ostringstream script;
     script << "# " << title << "\n" << style_header() << "data = " << gnuplot_string(stem + ".dat")
            << "\n";
@@ -165,14 +194,13 @@ namespace alloyspec
           script << "set terminal pngcairo size 960,640 font 'DejaVu Sans,12' noenhanced\n";
         else
           script << "set terminal svg size 960,640 dynamic font 'DejaVu Sans,12' noenhanced\n";
-        script << "set output " << gnuplot_string(stem + "." + format) << "\n"
+        // Drawn under a temporary name and renamed once gnuplot succeeded, so
+        // a crash never leaves a half-drawn figure under the real name.
+        script << "set output " << gnuplot_string(stem + ".partial." + format) << "\n"
                << "set title " << gnuplot_string(title) << "\n"
                << commands << "\nset output\n";
       }
-    {
-      std::ofstream out(stem + ".gp");
-      out << script.str();
-    }
+    ResultsStore::write_file_in(directory_, name + ".gp", script.str());
     if (!available_ || formats_.empty())
       return figure;
 
@@ -192,11 +220,17 @@ namespace alloyspec
     if (failed != 0 || waitpid(pid, &status, 0) < 0 || !WIFEXITED(status) ||
         WEXITSTATUS(status) != 0)
       warnings_.push_back("gnuplot failed on figure '" + name + "' (see " + log + ")");
+    const bool drawn = failed == 0 && WIFEXITED(status) && WEXITSTATUS(status) == 0;
     for (const auto &format : formats_)
       {
-        const std::string file = stem + "." + format;
+        const std::string file = stem + "." + format, partial = stem + ".partial." + format;
         std::error_code   ec;
-        if (std::filesystem::exists(file, ec) && std::filesystem::file_size(file, ec) > 0)
+        if (drawn && std::filesystem::exists(partial, ec) &&
+            std::filesystem::file_size(partial, ec) > 0)
+          std::filesystem::rename(partial, file, ec);
+        else
+          std::filesystem::remove(partial, ec);
+        if (drawn && !ec && std::filesystem::exists(file, ec))
           figure.files.push_back(file);
         else
           warnings_.push_back("figure file " + file + " was not written");
@@ -235,16 +269,16 @@ namespace alloyspec
       }
     std::ostringstream plot;
     plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
-         << "set ylabel 'IDS N(E) (states per unit volume)'\nset key top left\n"
+         << "set ylabel " << gnuplot_string("IDS N(E) (" + maker.ids_unit() + ")") << "\n"
          << "plot ";
     for (std::size_t b = 0; b < boundaries.size(); ++b)
       {
         const std::size_t c = 2 + 3 * b;
         plot << "data using 1:" << c + 1 << ":" << c + 2 << " with filledcurves fc rgb '"
              << colour(boundaries[b]) << "' fs transparent solid 0.25 noborder title "
-             << gnuplot_string(boundaries[b] + " band") << ", \\\n     data using 1:" << c
+             << gnuplot_string(legend_name(boundaries[b]) + " band") << ", \\\n     data using 1:" << c
              << " with lines lw 2 lc rgb '" << colour(boundaries[b]) << "' title "
-             << gnuplot_string(boundaries[b]) << ", \\\n     ";
+             << gnuplot_string(legend_name(boundaries[b])) << ", \\\n     ";
       }
     const bool has_semi =
       std::any_of(semi.begin(), semi.end(), [](double x) { return std::isfinite(x); });
@@ -264,7 +298,9 @@ namespace alloyspec
             << (has_semi ? "Dashed: semiclassical count E_q[(E−q)₊^{d/2}]·ω_d/(2π)^d (Weyl's "
                            "law cell by cell). "
                          : "")
-            << "Curves stop where some realisation's spectrum is incomplete.";
+            << "Curves stop where some realisation's spectrum is incomplete. Steps and kinks in a "
+               "small box are box-quantisation structure (the levels of the finite box), not "
+               "features of the infinite-volume IDS.";
     return maker.make("ids", "Integrated density of states", caption.str(), data.str(),
                       plot.str());
   }
@@ -292,7 +328,7 @@ namespace alloyspec
       }
     std::ostringstream plot;
     plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
-         << "set ylabel 'DOS ρ(E) (states per unit volume per unit energy)'\nset key top left\n"
+         << "set ylabel " << gnuplot_string("DOS ρ(E) (" + maker.dos_unit() + ")") << "\n"
          << "plot ";
     for (std::size_t b = 0; b < boundaries.size(); ++b)
       {
@@ -302,16 +338,19 @@ namespace alloyspec
              << " with filledcurves fc rgb '" << col
              << "' fs transparent solid 0.25 noborder notitle, \\\n     data using 1:" << c
              << " with lines lw 2 lc rgb '" << col << "' title "
-             << gnuplot_string(boundaries[b] + ", Lorentzian η = " + num(eta))
+             << gnuplot_string(legend_name(boundaries[b]) + ", Lorentzian η = " + short_number(eta, 3))
              << ", \\\n     data using 1:" << c + 3 << " with lines dt 2 lw 1.5 lc rgb '" << col
-             << "' title " << gnuplot_string(boundaries[b] + ", Gaussian σ = " + num(sigma));
+             << "' title "
+             << gnuplot_string(legend_name(boundaries[b]) + ", Gaussian σ = " + short_number(sigma, 3));
       }
     plot << "\n";
     const std::string caption =
       "Density of states averaged over realisations: Lorentzian broadening "
       "−(1/π) Im tr(H − E − iη)⁻¹/|Λ| (solid, band ±1 standard error) and Gaussian broadening "
       "(dashed). Curves stop where the broadening kernel reaches above the computed part of some "
-      "realisation's spectrum.";
+      "realisation's spectrum. Peaks narrower than the box's level spacing pattern are "
+      "box-quantisation modes of the finite box, not features of the material's density of "
+      "states; they shrink as L grows.";
     return maker.make("dos", "Density of states", caption, data.str(), plot.str());
   }
 
@@ -340,7 +379,7 @@ namespace alloyspec
       }
     std::ostringstream plot, caption;
     plot << "set xlabel 'ln(E − E₀)  (E in the energy unit of the study)'\n"
-         << "set ylabel 'ln(−ln n(E)),  n = IDS per unit cell'\nset key top right\n";
+         << "set ylabel 'ln(−ln n(E)),  n = IDS per unit cell'\n";
     for (std::size_t b = 0; b < fits.size(); ++b)
       if (std::isfinite(fits[b].slope) && fits[b].window_high > e0)
         plot << "f" << b << "(x) = (x >= " << num(std::log(std::max(fits[b].window_low, e0) - e0))
@@ -352,21 +391,27 @@ namespace alloyspec
         const std::string col = colour(boundaries[b]);
         plot << (b ? ", \\\n     " : "") << "data using 1:" << 2 + 2 * b << ":" << 3 + 2 * b
              << " with yerrorbars pt 7 ps 0.6 lc rgb '" << col << "' title "
-             << gnuplot_string(boundaries[b]);
-        if (std::isfinite(fits[b].slope) && fits[b].window_high > e0)
-          plot << ", \\\n     f" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
-               << gnuplot_string("fit, slope " + num(std::round(fits[b].slope * 1000) / 1000) +
-                                 (fits[b].resolved ? "" : " (not resolved)"));
-        caption << boundaries[b] << ": slope " << fits[b].slope << " [" << fits[b].slope_low
-                << ", " << fits[b].slope_high << "]" << (fits[b].resolved ? "" : " (not resolved)")
-                << ". ";
+             << gnuplot_string(legend_name(boundaries[b]));
+        // An unresolved fit is not drawn: its slope would read as a result.
+        if (fits[b].resolved && std::isfinite(fits[b].slope) && fits[b].window_high > e0)
+          {
+            plot << ", \\\n     f" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
+                 << gnuplot_string("fit, slope " + short_number(fits[b].slope, 3));
+            caption << legend_name(boundaries[b]) << ": slope " << short_number(fits[b].slope, 3) << " ["
+                    << short_number(fits[b].slope_low, 3) << ", "
+                    << short_number(fits[b].slope_high, 3) << "]. ";
+          }
+        else
+          caption << legend_name(boundaries[b]) << ": no fit drawn, not resolved ("
+                  << (fits[b].reason.empty() ? std::string("no usable window") : fits[b].reason)
+                  << "). ";
       }
     plot << "\n";
     const double expected = fits.empty() ? 0.0 : fits[0].expected_slope;
     return maker.make("lifshitz", "Lifshitz tail: ln(−ln n) against ln(E − E₀)",
-                      "Bottom of the spectrum, E₀ = " + num(e0) +
+                      "Bottom of the spectrum, E₀ = " + short_number(e0) +
                         ". Lines: weighted least-squares fits over the Lifshitz window. " +
-                        caption.str() + "Asymptotic Lifshitz slope −d/2 = " + num(expected) +
+                        caption.str() + "Asymptotic Lifshitz slope −d/2 = " + short_number(expected) +
                         " (Lifshitz 1964; Kirsch & Martinelli 1983).",
                       data.str(), plot.str());
   }
@@ -397,13 +442,19 @@ namespace alloyspec
       }
     std::ostringstream plot, caption;
     plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
-         << "set ylabel 'ln ρ(E)  (Gaussian-broadened DOS)'\nset key bottom right\n";
+         << "set ylabel 'ln ρ(E)  (Gaussian-broadened DOS)'\n";
     // Show the window with as much again on either side: the tail, not the whole band.
     if (!fits.empty() && fits[0].window_high > fits[0].window_low)
       {
+        // Not below the first energy where any curve has data (no empty margin).
+        double first = fits[0].window_high;
+        for (std::size_t i = 0; i < n; ++i)
+          for (std::size_t b = 0; b < boundaries.size(); ++b)
+            if (gaussian[b][i].complete && gaussian[b][i].mean > 0)
+              first = std::min(first, gaussian[b][i].energy);
         const double w = fits[0].window_high - fits[0].window_low;
-        plot << "set xrange [" << num(fits[0].window_low - w) << ":" << num(fits[0].window_high + w)
-             << "]\n";
+        plot << "set xrange [" << num(std::max(fits[0].window_low - w, first)) << ":"
+             << num(fits[0].window_high + w) << "]\n";
       }
     for (std::size_t b = 0; b < fits.size(); ++b)
       if (std::isfinite(fits[b].slope))
@@ -417,14 +468,19 @@ namespace alloyspec
         const std::string col = colour(boundaries[b]);
         plot << (b ? ", \\\n     " : "") << "data using 1:" << 2 + 2 * b << ":" << 3 + 2 * b
              << " with yerrorbars pt 7 ps 0.5 lc rgb '" << col << "' title "
-             << gnuplot_string(boundaries[b]);
-        if (std::isfinite(fits[b].slope))
-          plot << ", \\\n     g" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
-               << gnuplot_string("fit, E_U = " + num(std::round(fits[b].urbach_energy * 1e4) / 1e4) +
-                                 (fits[b].resolved ? "" : " (not resolved)"));
-        caption << boundaries[b] << ": E_U = " << fits[b].urbach_energy << " ["
-                << fits[b].urbach_low << ", " << fits[b].urbach_high << "]"
-                << (fits[b].resolved ? "" : " (not resolved: " + fits[b].reason + ")") << ". ";
+             << gnuplot_string(legend_name(boundaries[b]));
+        if (fits[b].resolved && std::isfinite(fits[b].slope))
+          {
+            plot << ", \\\n     g" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
+                 << gnuplot_string("fit, E_U = " + short_number(fits[b].urbach_energy, 3));
+            caption << legend_name(boundaries[b]) << ": E_U = " << short_number(fits[b].urbach_energy, 3)
+                    << " [" << short_number(fits[b].urbach_low, 3) << ", "
+                    << short_number(fits[b].urbach_high, 3) << "]. ";
+          }
+        else
+          caption << legend_name(boundaries[b]) << ": no fit drawn, not resolved ("
+                  << (fits[b].reason.empty() ? std::string("no usable window") : fits[b].reason)
+                  << "). ";
       }
     plot << "\n";
     return maker.make("urbach", "Urbach tail: ln ρ(E) below the band edge",
@@ -459,7 +515,7 @@ namespace alloyspec
       for (std::size_t b = 0; b < boundaries.size(); ++b)
         plot << (b ? ", \\\n     " : "") << "data using 1:" << 2 + 2 * b << ":" << 3 + 2 * b
              << " with yerrorlines pt 7 ps 0.7 lw 1.5 lc rgb '" << colour(boundaries[b])
-             << "' title " << gnuplot_string(boundaries[b]);
+             << "' title " << gnuplot_string(legend_name(boundaries[b]));
       return plot.str();
     }
 
@@ -480,7 +536,7 @@ namespace alloyspec
     std::ostringstream plot;
     plot << "set yrange [" << num(bottom / 3) << ":" << num(top * 3) << "]\n"
          << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
-         << "set ylabel 'mean IPR ∫|ψ|⁴/(∫|ψ|²)²  (1/volume)'\nset logscale y\nset key top right\n"
+         << "set ylabel 'mean IPR ∫|ψ|⁴/(∫|ψ|²)²  (1/volume)'\nset logscale y\n"
          << "plot " << bin_plot(boundaries) << ", \\\n     " << num(1.0 / volume)
          << " with lines dt 3 lc rgb 'gray40' title '1/|Λ| (spread over the box)', \\\n     "
          << num(1.0 / cell_volume)
@@ -498,7 +554,7 @@ namespace alloyspec
   {
     std::ostringstream plot;
     plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
-         << "set ylabel 'mean spacing ratio ⟨r⟩'\nset yrange [0:*]\nset key below\n"
+         << "set ylabel 'mean spacing ratio ⟨r⟩'\nset yrange [0:*]\n"
          << "plot " << bin_plot(boundaries) << ", \\\n     " << num(spacing_ratio_poisson)
          << " with lines dt 2 lw 1.5 lc rgb 'black' title 'Poisson 2 ln 2 − 1 ≈ 0.386', \\\n     "
          << num(spacing_ratio_goe)
@@ -531,7 +587,7 @@ namespace alloyspec
       }
     std::ostringstream plot;
     plot << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
-         << "set ylabel 'extrapolated IDS N∞(E) (states per unit volume)'\nset key top left\nplot ";
+         << "set ylabel " << gnuplot_string("extrapolated IDS N∞(E) (" + maker.ids_unit() + ")") << "\nplot ";
     for (std::size_t b = 0; b < boundaries.size(); ++b)
       {
         const std::size_t c = 2 + 3 * b;
@@ -539,13 +595,13 @@ namespace alloyspec
              << " with filledcurves fc rgb '" << colour(boundaries[b])
              << "' fs transparent solid 0.25 noborder notitle, \\\n     data using 1:" << c
              << " with lines lw 2 lc rgb '" << colour(boundaries[b]) << "' title "
-             << gnuplot_string(boundaries[b] + " → L = ∞");
+             << gnuplot_string(legend_name(boundaries[b]) + " → L = ∞");
       }
     plot << "\n";
     return maker.make("extrapolation", "IDS extrapolated to infinite volume",
                       "Weighted least-squares fit N_L = N∞ + c/L over the box sizes, per energy "
                       "and boundary condition; band: interval at confidence " +
-                        num(confidence) + ".",
+                        short_number(confidence) + ".",
                       data.str(), plot.str());
   }
 } // namespace alloyspec

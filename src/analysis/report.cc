@@ -82,7 +82,10 @@ namespace alloyspec
 
     void render_table(std::ostringstream &html, const ReportTable &table)
     {
-      html << "<table>\n<caption>" << html_escape(table.caption) << "</caption>\n<tr>";
+      html << "<table>\n";
+      if (!table.caption.empty())
+        html << "<caption>" << html_escape(table.caption) << "</caption>\n";
+      html << "<tr>";
       for (const auto &h : table.header)
         html << "<th>" << html_escape(h) << "</th>";
       html << "</tr>\n";
@@ -123,7 +126,7 @@ namespace alloyspec
 
     if (!content.key_numbers.empty())
       {
-        ReportTable key{"Key numbers", {"quantity", "value"}, {}};
+        ReportTable key{"", {"quantity", "value"}, {}}; // the heading names it
         for (const auto &[name, value] : content.key_numbers)
           key.rows.push_back({name, value});
         html << "<h2>Key numbers</h2>\n";
@@ -142,10 +145,16 @@ namespace alloyspec
         html << "</table>\n";
       }
 
-    if (!content.figures.empty())
+    std::vector<std::string> omitted;
+    for (const auto &f : content.figures)
+      if (f.empty)
+        omitted.push_back(f.title);
+    if (omitted.size() < content.figures.size())
       html << "<h2>Figures</h2>\n";
     for (const auto &f : content.figures)
       {
+        if (f.empty) // no data: listed below, never drawn as an empty frame
+          continue;
         std::string image, type;
         for (const auto &file : f.files)
           if (ends_with(file, ".png"))
@@ -160,16 +169,20 @@ namespace alloyspec
           html << "<img alt=\"" << html_escape(f.title) << "\" src=\"data:" << type << ";base64,"
                << base64_encode(bytes) << "\">\n";
         else
-          html << "<p><em>Image not available (figures need gnuplot); data and script: figures/"
+          html << "<p><em>Image not written (gnuplot missing or failed: see the notes and "
+                  "figures/gnuplot.log); data and script: figures/"
                << html_escape(f.name) << ".dat, .gp</em></p>\n";
         html << "<figcaption>" << html_escape(f.caption) << "</figcaption>\n</figure>\n";
       }
 
-    if (!content.notes.empty())
+    if (!content.notes.empty() || !omitted.empty())
       {
         html << "<h2>Notes</h2>\n<ul>\n";
         for (const auto &n : content.notes)
           html << "<li>" << html_escape(n) << "</li>\n";
+        for (const auto &t : omitted)
+          html << "<li>Figure omitted, nothing to draw: " << html_escape(t)
+               << " (fewer than two points with a value; see the tables).</li>\n";
         html << "</ul>\n";
       }
     if (!content.parameters_text.empty())

@@ -1,5 +1,6 @@
 /** @file spectral_analysis.cc  Bootstrap intervals, broadened densities, level statistics, IPR. */
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
 #include <alloyspec/io/results_store.h>
 #include <alloyspec/analysis/spectral_analysis.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
@@ -13,6 +14,7 @@
 #include <cstdlib>
 #include <limits>
 #include <map>
+#include <set>
 #include <sstream>
 #include <stdexcept>
 
@@ -101,13 +103,15 @@ namespace alloyspec
   {
     using namespace dealii::Patterns;
     prm.enter_subsection("analysis");
-    prm.declare_entry("lorentzian width", "0.1", Double(min_width, max_width),
+    prm.declare_entry("lorentzian width", "auto", Anything(),
                       "Width eta > 0 of the Lorentzian broadening of the density of states, "
                       "-(1/pi) Im tr (H - E - i eta)^-1 / |Lambda|, in the energy unit. It must "
-                      "exceed the mean level spacing to give a smooth curve.");
-    prm.declare_entry("gaussian width", "0.1", Double(min_width, max_width),
+                      "exceed the mean level spacing to give a smooth curve. 'auto': the mean level "
+                      "spacing of the computed spectra.");
+    prm.declare_entry("gaussian width", "auto", Anything(),
                       "Standard deviation sigma > 0 of the Gaussian broadening of the density of "
-                      "states, in the energy unit. Used for the Urbach fit.");
+                      "states, in the energy unit. Used for the Urbach fit. 'auto': twice the mean "
+                      "level spacing of the computed spectra.");
     prm.declare_entry("bootstrap samples", "1000", Integer(min_bootstrap, max_bootstrap),
                       "Number of bootstrap resamples of the realisations for the percentile "
                       "confidence band of the IDS (100 to 1000000).");
@@ -127,9 +131,10 @@ namespace alloyspec
                       "Energy window 'E_low, E_high' of the Urbach fit ln rho = a + (E - E_high)/E_U "
                       "of the Gaussian-broadened DOS. Empty: from E0 to the mean potential (the "
                       "band bottom of the averaged potential).");
-    prm.declare_entry("bin width", "0.5", Double(min_width, max_width),
+    prm.declare_entry("bin width", "auto", Anything(),
                       "Width of the energy bins in which level-spacing ratios and inverse "
-                      "participation ratios are averaged, in the energy unit.");
+                      "participation ratios are averaged, in the energy unit. 'auto': a tenth of the "
+                      "range of the computed spectra.");
     prm.declare_entry("figure formats", "png, svg", List(Selection("png|svg"), 0, 2),
                       "Image formats of the figures: any of png, svg (empty: no figures). "
                       "Figures need /usr/bin/gnuplot; without it they are skipped with a warning.");
@@ -151,10 +156,14 @@ namespace alloyspec
     prm.leave_subsection();
 
     const std::string width_range = range(min_width, max_width);
-    lorentzian_width =
-      parse_real("lorentzian width", text["lorentzian width"], min_width, max_width, width_range);
-    gaussian_width =
-      parse_real("gaussian width", text["gaussian width"], min_width, max_width, width_range);
+    const std::string width_allowed = "'auto' or " + width_range;
+    const auto        width         = [&](const char *entry, double &value, bool &automatic) {
+      automatic = dealii::Utilities::trim(text[entry]) == "auto";
+      if (!automatic)
+        value = parse_real(entry, text[entry], min_width, max_width, width_allowed);
+    };
+    width("lorentzian width", lorentzian_width, lorentzian_automatic);
+    width("gaussian width", gaussian_width, gaussian_automatic);
     const std::string count_range = "an integer from 100 to 1000000";
     const double      samples     = parse_real("bootstrap samples", text["bootstrap samples"],
                                       min_bootstrap, max_bootstrap, count_range);
@@ -176,7 +185,7 @@ namespace alloyspec
     lifshitz_fraction = parse_real("lifshitz fraction", text["lifshitz fraction"], min_fraction,
                                    max_fraction, range(min_fraction, max_fraction));
     urbach_window     = parse_window("urbach window", text["urbach window"]);
-    bin_width = parse_real("bin width", text["bin width"], min_width, max_width, width_range);
+    width("bin width", bin_width, bin_automatic);
     figure_formats.clear();
     for (const auto &f : dealii::Utilities::split_string_list(text["figure formats"], ','))
       {
@@ -185,6 +194,61 @@ namespace alloyspec
         if (std::find(figure_formats.begin(), figure_formats.end(), f) == figure_formats.end())
           figure_formats.push_back(f);
       }
+  }
+
+  AnalysisSettings AnalysisSettings::resolved_for(const std::vector<RealisationRecord> &records,
+                                                  std::vector<std::string> &notes) const
+  {
+    AnalysisSettings out = *this;
+    if (!lorentzian_automatic && !gaussian_automatic && !bin_automatic)
+      return out;
+    std::vector<double>        spacings;
+    double                     lowest = std::numeric_limits<double>::infinity(), top = lowest;
+    std::set<std::uint64_t>    realisations;
+    for (const auto &r : records)
+      {
+        realisations.insert(r.realisation);
+        const auto levels = trusted_levels(r);
+        if (levels.size() >= 2)
+          spacings.push_back((levels.back() - levels.front()) / double(levels.size() - 1));
+        if (!levels.empty())
+          lowest = std::min(lowest, levels.front());
+        top = std::min(top, r.complete_up_to);
+      }
+    // Kept when nothing can be measured (no record with two levels): the old fixed widths.
+    double spacing = 0.0;
+    if (!spacings.empty())
+      {
+        std::nth_element(spacings.begin(), spacings.begin() + spacings.size() / 2, spacings.end());
+        // The mean over R realisations is as smooth as one spectrum with R
+        // times the levels: the spacing that matters is that of the pool.
+        spacing = spacings[spacings.size() / 2] / double(realisations.size());
+      }
+    const auto choose = [&](bool automatic, double &value, double chosen, const char *entry,
+                            const std::string &how) {
+      if (!automatic)
+        return;
+      if (chosen > 0.0 && std::isfinite(chosen))
+        {
+          value = chosen;
+          notes.push_back(std::string("analysis/") + entry + " = " + short_number(value) + " (" +
+                          how + ")");
+        }
+      else
+        notes.push_back(std::string("analysis/") + entry + " = " + short_number(value) +
+                        " (the default: no spectrum to measure a level spacing from)");
+    };
+    const std::string of_spacing =
+      " the mean level spacing " + short_number(spacing) + " of the " +
+      std::to_string(realisations.size()) + " realisations' levels pooled";
+    choose(lorentzian_automatic, out.lorentzian_width, spacing, "lorentzian width",
+           "1 ×" + of_spacing);
+    choose(gaussian_automatic, out.gaussian_width, 2 * spacing, "gaussian width",
+           "2 ×" + of_spacing);
+    choose(bin_automatic, out.bin_width, top > lowest ? (top - lowest) / 10 : 0.0, "bin width",
+           "a tenth of the complete range " + short_number(lowest) + " to " + short_number(top));
+    out.lorentzian_automatic = out.gaussian_automatic = out.bin_automatic = false;
+    return out;
   }
 
   std::uint64_t SplitMix64::next()

@@ -1,13 +1,18 @@
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
 #include <alloyspec/io/results_store.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
 #include <alloyspec/analysis/summary.h>
+#include <alloyspec/io/parameter_text.h>
+#include <alloyspec/analysis/size_series.h>
+#include <alloyspec/analysis/tail_table.h>
 
 #include <algorithm>
 #include <array>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
+#include <limits>
 #include <set>
 #include <sstream>
 
@@ -15,14 +20,11 @@ namespace alloyspec
 {
   namespace
   {
-    std::string number(double x)
-    {
-      if (!std::isfinite(x))
-        return "nan";
-      char buffer[40];
-      std::snprintf(buffer, sizeof buffer, "%.17g", x);
-      return buffer;
-    }
+    /**
+     * Weights are called degenerate when their effective sample size is below
+     * this share of the realisations (common practice, no source).
+     */
+    constexpr double min_effective_share = 0.1;
 
     /** Entries that may differ between folders of one model. */
     bool is_run_only(const std::string &key)
@@ -73,54 +75,6 @@ namespace alloyspec
     }
   } // namespace
 
-  std::map<std::string, std::string> flatten_parameters(const std::string &text)
-  {
-    std::map<std::string, std::string> flat;
-    std::vector<std::string>           path;
-    std::istringstream                 in(text);
-    for (std::string line; std::getline(in, line);)
-      {
-        const auto hash = line.find('#');
-        if (hash != std::string::npos)
-          line.erase(hash);
-        std::istringstream words(line);
-        std::string        first;
-        if (!(words >> first))
-          continue;
-        if (first == "subsection")
-          {
-            std::string name;
-            std::getline(words, name);
-            name.erase(0, name.find_first_not_of(" \t"));
-            name.erase(name.find_last_not_of(" \t\r") + 1);
-            path.push_back(name);
-          }
-        else if (first == "end")
-          {
-            if (!path.empty())
-              path.pop_back();
-          }
-        else if (first == "set")
-          {
-            std::string rest;
-            std::getline(words, rest);
-            const auto  eq    = rest.find('=');
-            std::string name  = rest.substr(0, eq);
-            std::string value = eq == std::string::npos ? "" : rest.substr(eq + 1);
-            for (std::string *s : {&name, &value})
-              {
-                s->erase(0, s->find_first_not_of(" \t"));
-                s->erase(s->find_last_not_of(" \t\r") + 1);
-              }
-            std::string key;
-            for (const auto &p : path)
-              key += p + "/";
-            flat[key + name] = value;
-          }
-      }
-    return flat;
-  }
-
   std::string format_ids_table(const std::vector<std::string>                   &boundaries,
                                const std::vector<double>                        &energies,
                                const std::vector<std::vector<IdsAccumulator::Row>> &rows,
@@ -145,16 +99,23 @@ namespace alloyspec
     csv << ",semiclassical,realisations\n";
     for (std::size_t i = 0; i < energies.size(); ++i)
       {
-        csv << number(energies[i]);
+        csv << csv_number(energies[i]);
+        // An incomplete count is only a lower bound: written as missing, never as a value.
+        const auto value = [&](const int b, const double x) {
+          return csv_number(rows[b][i].complete ? x : std::numeric_limits<double>::quiet_NaN());
+        };
         for (const int b : {d, n, p})
           if (b >= 0)
-            csv << ',' << number(rows[b][i].mean) << ',' << number(rows[b][i].standard_error);
+            csv << ',' << value(b, rows[b][i].mean) << ',' << value(b, rows[b][i].standard_error);
         if (d >= 0 && n >= 0)
-          csv << ',' << number(rows[n][i].mean - rows[d][i].mean);
+          csv << ','
+              << csv_number(rows[d][i].complete && rows[n][i].complete ?
+                              rows[n][i].mean - rows[d][i].mean :
+                              std::numeric_limits<double>::quiet_NaN());
         for (const int b : {d, n, p})
           if (b >= 0)
             csv << ',' << (rows[b][i].complete ? 1 : 0);
-        csv << ',' << number(semiclassical[i]) << ',' << n_realisations << '\n';
+        csv << ',' << csv_number(semiclassical[i]) << ',' << n_realisations << '\n';
       }
     return csv.str();
   }
@@ -216,7 +177,7 @@ namespace alloyspec
         return; // records of an older version without central weights
       for (std::size_t i = 0; i < merged.energies.size(); ++i)
         {
-          csv << number(merged.energies[i]);
+          csv << csv_number(merged.energies[i]);
           for (std::size_t b = 0; b < merged.boundaries.size(); ++b)
             {
               const double n    = std::max<std::size_t>(count[b], 1);
@@ -224,13 +185,16 @@ namespace alloyspec
               const double var  = count[b] > 1 ? std::max(0.0, (sums[b][i][1] - n * mean * mean) / (n - 1)) : 0.0;
               const double se   = std::sqrt(var / n);
               const double combined = std::hypot(se, rows[b][i].standard_error);
-              csv << ',' << number(mean) << ',' << number(se) << ',' << number(rows[b][i].mean) << ','
-                  << number(combined > 0 ? (mean - rows[b][i].mean) / combined : 0.0) << ','
-                  << number(sums[b][i][2] / n) << ',' << (rows[b][i].complete ? 1 : 0);
+              const bool   ok       = rows[b][i].complete;
+              const double none     = std::numeric_limits<double>::quiet_NaN();
+              csv << ',' << csv_number(ok ? mean : none) << ',' << csv_number(ok ? se : none) << ','
+                  << csv_number(ok ? rows[b][i].mean : none) << ','
+                  << csv_number(!ok ? none : combined > 0 ? (mean - rows[b][i].mean) / combined : 0.0)
+                  << ',' << csv_number(ok ? sums[b][i][2] / n : none) << ',' << (ok ? 1 : 0);
             }
           csv << '\n';
         }
-      ResultsStore::write_file_in(output_dir, "local_trace.csv", csv.str());
+      ResultsStore::write_file_in(output_dir, "local_trace.csv", with_energy_columns(csv.str(), merged));
     }
   } // namespace
 
@@ -263,7 +227,7 @@ namespace alloyspec
     for (const auto &r : merged.records)
       for (std::size_t b = 0; b < merged.boundaries.size(); ++b)
         if (r.boundary == merged.boundaries[b])
-          ids[b].add(r.eigenvalues, r.complete_up_to);
+          ids[b].add(r.eigenvalues, r.complete_up_to, r.log_weight);
     std::vector<std::vector<IdsAccumulator::Row>> rows;
     for (const auto &a : ids)
       rows.push_back(a.rows());
@@ -275,7 +239,40 @@ namespace alloyspec
         format_ids_table(merged.boundaries, merged.energies, rows, semiclassical, n_realisations),
         merged));
 
-    write_local_trace_table(output_dir, merged, rows, settings.lorentzian_width);
+    ResultsStore::write_file_in(
+      output_dir, "tail.csv",
+      with_energy_columns(format_tail_table(merged.boundaries, rows, settings.confidence_level),
+                          merged));
+
+    std::vector<std::string> warnings;
+    const bool weighted = std::any_of(merged.records.begin(), merged.records.end(),
+                                      [](const RealisationRecord &r) { return r.log_weight != 0; });
+    if (weighted)
+      {
+        // Degenerate weights: a few realisations carry the whole estimate.
+        for (std::size_t b = 0; b < ids.size(); ++b)
+          {
+            const double ess = ids[b].weight_effective_sample_size();
+            std::ostringstream message;
+            message << "tilted sampling, " << merged.boundaries[b]
+                    << ": effective sample size of the weights " << ess << " of "
+                    << ids[b].n_realisations() << " realisations, mean weight "
+                    << ids[b].mean_weight();
+            if (ess < min_effective_share * double(ids[b].n_realisations()))
+              message << "; the weights are degenerate (few realisations dominate): read the "
+                         "intervals with care, or choose a smaller tilt";
+            warnings.push_back(message.str());
+          }
+        // Only ids.csv and tail.csv are weighted so far; the other tables
+        // would silently ignore the weights, so they are not written.
+        warnings.push_back("tilted sampling: ids.csv and tail.csv are importance-weighted; the "
+                           "DOS, bootstrap bands, tail fits, localisation tables, local trace, "
+                           "figures and report are not written for weighted samples");
+        return warnings;
+      }
+    std::vector<std::string> chosen; // reported by write_analysis, which chooses the same
+    write_local_trace_table(output_dir, merged, rows,
+                            settings.resolved_for(merged.records, chosen).lorentzian_width);
     merged.ids_table = (std::filesystem::path(output_dir) / "ids.csv").string();
     return write_analysis(output_dir, merged, settings);
   }
@@ -309,6 +306,13 @@ namespace alloyspec
       return write_study_tables(output_dir, studies, settings);
 
     // A box-size series: one merged study per size, then the 1/L extrapolation.
+    for (const auto &s : studies)
+      for (const auto &r : s.input.records)
+        if (r.log_weight != 0)
+          throw InputError("summarise: '" + s.directory +
+                           "' was run with sampling/method = tilted; a box-size series of "
+                           "tilted studies is not supported (its extrapolation would ignore "
+                           "the weights); summarise each box size on its own");
     std::vector<std::string>   warnings;
     std::vector<AnalysisInput> per_size;
     for (const auto &[cells, group] : by_cells)
@@ -327,7 +331,7 @@ namespace alloyspec
         input.ids_table = (std::filesystem::path(dir) / "ids.csv").string();
         per_size.push_back(std::move(input));
       }
-    const auto w = write_summary(output_dir, per_size, settings);
+    const auto w = write_size_series(output_dir, per_size, settings);
     warnings.insert(warnings.end(), w.begin(), w.end());
     return warnings;
   }

@@ -3,6 +3,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <optional>
 #include <limits>
 #include <sstream>
 #include <stdexcept>
@@ -53,14 +54,29 @@ namespace alloyspec
       return s * sum;
     }
 
-    /** Straight line y = a + b x by weighted least squares, with the slope's Student-t interval. */
-    void fit_line(const std::vector<double> &x, const std::vector<double> &y,
-                  const std::vector<double> &sigma, const double confidence, TailFit &fit)
+    /**
+     * Straight line y = a + b x by weighted least squares, with the slope's
+     * Student-t interval. Returns why the line cannot be fitted (all x equal
+     * to rounding, as when a huge potential pushes every level into one bin),
+     * or nothing: a fit that cannot be made is a tail not resolved, never a
+     * reason to lose the tables.
+     */
+    std::optional<std::string> fit_line(const std::vector<double> &x, const std::vector<double> &y,
+                                        const std::vector<double> &sigma, const double confidence,
+                                        TailFit &fit)
     {
       std::vector<std::vector<double>> design;
       for (const double xi : x)
         design.push_back({1.0, xi});
-      const LinearFit line = weighted_least_squares(design, y, sigma);
+      LinearFit line;
+      try
+        {
+          line = weighted_least_squares(design, y, sigma);
+        }
+      catch (const std::invalid_argument &e)
+        {
+          return std::string(e.what());
+        }
       fit.intercept   = line.parameters[0];
       fit.slope       = line.parameters[1];
       fit.chi_squared = line.chi_squared;
@@ -74,6 +90,7 @@ namespace alloyspec
                                         : std::numeric_limits<double>::infinity();
       fit.slope_low      = fit.slope - t * fit.slope_error;
       fit.slope_high     = fit.slope + t * fit.slope_error;
+      return std::nullopt;
     }
   } // namespace
 
@@ -283,10 +300,14 @@ namespace alloyspec
         fit.reason = why.str() + ": the data cannot resolve the Lifshitz tail; larger boxes, "
                                  "more realisations or a finer energy grid near E0 are needed";
         if (fit.points >= 3)
-          fit_line(x, y, sigma, confidence, fit); // reported, but not to be read as a result
+          (void)fit_line(x, y, sigma, confidence, fit); // reported, but not to be read as a result
         return fit;
       }
-    fit_line(x, y, sigma, confidence, fit);
+    if (const auto failed = fit_line(x, y, sigma, confidence, fit))
+      {
+        fit.reason = "the line cannot be fitted (" + *failed + "): the Lifshitz tail is not resolved";
+        return fit;
+      }
     fit.resolved   = true;
     fit.consistent = fit.slope_low <= fit.expected_slope && fit.expected_slope <= fit.slope_high;
     fit.reason     = fit.consistent
@@ -331,7 +352,11 @@ namespace alloyspec
                      " usable grid points in the Urbach window: the data cannot resolve the tail";
         return fit;
       }
-    fit_line(x, y, sigma, confidence, fit);
+    if (const auto failed = fit_line(x, y, sigma, confidence, fit))
+      {
+        fit.reason = "the line cannot be fitted (" + *failed + "): the Urbach tail is not resolved";
+        return fit;
+      }
     const double inf  = std::numeric_limits<double>::infinity();
     fit.urbach_energy = fit.slope > 0.0 ? 1.0 / fit.slope : inf;
     fit.urbach_low    = fit.slope_high > 0.0 ? 1.0 / fit.slope_high : 0.0;

@@ -8,6 +8,12 @@
 #include <alloyspec/app/study_model.h>
 #include <alloyspec/analysis/summary.h>
 #include <alloyspec/app/verify.h>
+#include <alloyspec/core/format.h>
+#include <alloyspec/io/manifest.h>
+#include <alloyspec/io/folder_lock.h>
+#include <alloyspec/io/parameter_text.h>
+#include <alloyspec/io/results_store.h>
+#include <alloyspec/model/energy_grid.h>
 
 #include <deal.II/base/exceptions.h>
 #include <deal.II/base/mpi.h>
@@ -48,7 +54,7 @@ end
 subsection study
   set realisations = 10
   set seed = 1
-  set energies = 0:0.05:3
+  set energies = 0 to 3 by 0.05
 end
 )";
 
@@ -75,6 +81,16 @@ end
     template <class Parsed>
     void parse_checked(Parsed &parsed, dealii::ParameterHandler &prm)
     {
+      // deal.II reads "{a|b}" as a loop over values (which we do not run) and
+      // then skips the entry's pattern check, so a brace would reach our
+      // parsers unchecked.
+      std::ostringstream text;
+      prm.print_parameters(text, dealii::ParameterHandler::ShortPRM);
+      for (const auto &[key, value] : flatten_parameters(text.str()))
+        if (value.find_first_of("{}") != std::string::npos)
+          throw InputError("parameter '" + key + "': '" + value +
+                           "' is not allowed: braces are not part of any value (see "
+                           "'alloyspec parameters' for the entry's allowed values)");
       try
         {
           parsed.parse_parameters(prm);
@@ -152,6 +168,46 @@ end
         prm.leave_subsection();
     }
 
+    /**
+     * Follows the `include` lines of a parameter file (deal.II resolves them
+     * against the working directory) and refuses a cycle or a chain deeper
+     * than any sane one: deal.II itself recurses until the stack overflows
+     * (a file that included itself died with a segmentation fault).
+     */
+    void check_includes(const std::filesystem::path &file, std::vector<std::string> &chain)
+    {
+      constexpr std::size_t max_depth = 16; // common practice, no source
+      std::error_code       error;
+      const std::string     id = std::filesystem::weakly_canonical(file, error).string();
+      if (std::find(chain.begin(), chain.end(), id) != chain.end() || chain.size() >= max_depth)
+        {
+          std::string path;
+          for (const auto &f : chain)
+            path += "'" + f + "' includes ";
+          throw InputError("parameter file '" + chain.front() + "': " + path + "'" + id + "'" +
+                           (chain.size() >= max_depth ? ": more than 16 levels of 'include'" :
+                                                        ", which includes itself again") +
+                           " (allowed: includes that end)");
+        }
+      std::ifstream in(file);
+      if (!in)
+        return; // deal.II reports a file it cannot open
+      chain.push_back(id);
+      for (std::string line; std::getline(in, line);)
+        {
+          line.erase(std::min(line.find('#'), line.size()));
+          const auto first = line.find_first_not_of(" \t");
+          if (first == std::string::npos || line.compare(first, 8, "include ") != 0)
+            continue;
+          std::string name = line.substr(first + 8);
+          name.erase(0, name.find_first_not_of(" \t"));
+          name.erase(name.find_last_not_of(" \t\r") + 1);
+          if (!name.empty())
+            check_includes(name, chain);
+        }
+      chain.pop_back();
+    }
+
     void read_parameters(dealii::ParameterHandler &prm, const std::string &config)
     {
       try
@@ -162,6 +218,8 @@ end
             {
               if (!std::filesystem::exists(config))
                 throw InputError("parameter file '" + config + "' does not exist");
+              std::vector<std::string> chain;
+              check_includes(config, chain);
               prm.parse_input(config, "", false);
               // A data file named in a parameter file is found next to it.
               prm.enter_subsection("potential");
@@ -207,6 +265,48 @@ end
       while (!text.empty() && (text.back() == '\n' || text.back() == ' '))
         text.pop_back();
       return text;
+    }
+    /**
+     * The entries that differ from their defaults, one "section/entry = value"
+     * a line; the full set is in the output folder's parameter file.
+     */
+    void print_changed_parameters(const dealii::ParameterHandler &prm, const std::string &output)
+    {
+      dealii::ParameterHandler defaults;
+      Study::declare_parameters(defaults);
+      const auto now    = flatten_parameters(to_short_prm(prm));
+      const auto before = flatten_parameters(to_short_prm(defaults));
+      std::ostringstream changed;
+      std::size_t        count = 0;
+      for (const auto &[key, value] : now)
+        {
+          const auto it = before.find(key);
+          if (it == before.end() || it->second != value)
+            changed << "  " << key << " = " << value << '\n', ++count;
+        }
+      std::cout << count << " parameter(s) differ from the defaults (all of them: "
+                << (std::filesystem::path(output) / ResultsStore::parameters_file).string() << ")"
+                << (count ? ":\n" : "\n") << changed.str();
+    }
+
+    /** The closing lines the analysis left in key_numbers.json (nothing if it is absent). */
+    void print_closing_summary(const std::string &folder)
+    {
+      const std::filesystem::path file = std::filesystem::path(folder) / "key_numbers.json";
+      std::ifstream               in(file);
+      if (!in)
+        return;
+      try
+        {
+          const Json key = Json::parse(in);
+          if (key.contains("summary"))
+            for (const auto &line : key["summary"])
+              std::cout << line.get<std::string>() << '\n';
+        }
+      catch (const Json::exception &)
+        {
+          std::cout << "Results in " << folder << "/ (report.html)\n";
+        }
     }
   } // namespace
 
@@ -355,13 +455,20 @@ end
             AnalysisSettings         settings;
             for (const auto &folder : summary_inputs)
               {
-                const std::string file = (std::filesystem::path(folder) / "parameters.prm").string();
-                if (!std::filesystem::exists(file))
-                  throw InputError("summarise: '" + folder +
-                                   "' is not a study folder (no parameters.prm)");
+                if (!std::filesystem::is_directory(folder))
+                  throw InputError("summarise: '" + folder + "' is not a folder (allowed: "
+                                   "study folders written by 'alloyspec run')");
+                // Missing or empty: refused, never read as the defaults.
+                (void)ResultsStore::read_stored_parameters(folder);
+                const std::string file = ResultsStore::stored_parameters_path(folder);
                 dealii::ParameterHandler stored_prm;
                 Study::declare_parameters(stored_prm);
                 read_parameters(stored_prm, file);
+                // Earlier versions stored the grid as "a:h:b"; it means "a to b by h".
+                stored_prm.enter_subsection("study");
+                if (const auto words = energy_grid_in_words(stored_prm.get("energies")))
+                  stored_prm.set("energies", *words);
+                stored_prm.leave_subsection();
                 for (const auto &assignment : summary_overrides)
                   apply_override(stored_prm, assignment);
                 StudyModel model;
@@ -372,10 +479,17 @@ end
               }
             if (root)
               {
+                std::error_code error;
+                std::filesystem::create_directories(summary_output, error);
+                if (error || !std::filesystem::is_directory(summary_output))
+                  throw InputError("option '--output': cannot use '" + summary_output +
+                                   "' as a folder" + (error ? ": " + error.message() : ""));
+                // Nobody else writes there while the tables are rewritten.
+                const FolderLock lock(summary_output, "summarise into it");
                 for (const auto &warning : summarise_studies(summary_output, stored, settings))
                   std::cerr << "alloyspec: warning: " << warning << '\n';
-                std::cout << "Tables, figures and report written to " << summary_output << "/\n"
-                          << "These are model estimates for the stated model and box, not "
+                print_closing_summary(summary_output);
+                std::cout << "These are model estimates for the stated model and box, not "
                              "measurements.\n";
               }
             return 0;
@@ -397,7 +511,8 @@ end
             run_inertia_count(model, count_options);
             if (root)
               std::cout << "Counts in " << count_output
-                        << "/: counts.csv, ids.csv, run.json, parameters.prm\n"
+                        << "/: counts.csv, ids.csv, run.json, " << ResultsStore::parameters_file
+                        << "\n"
                         << "These are model estimates for the stated model and box, not "
                            "measurements.\n";
             return 0;
@@ -431,7 +546,8 @@ end
         read_parameters(prm, config);
         for (const auto &assignment : overrides)
           apply_override(prm, assignment);
-        if (!seed.empty())
+        // Given but empty is not "not given".
+        if (run->get_option("--seed")->count() > 0)
           apply_override(prm, "study/seed=" + seed);
         make_data_paths_absolute(prm);
 
@@ -446,9 +562,11 @@ end
             std::cout << "alloyspec " << ALLOYSPEC_VERSION << ": "
                       << (config.empty() ? std::string("embedded demo scenario (invented)") : config)
                       << ", seed " << effective_seed << ", "
-                      << dealii::Utilities::MPI::n_mpi_processes(MPI_COMM_WORLD)
-                      << " MPI rank(s)\nEffective parameters:\n";
-            prm.print_parameters(std::cout, dealii::ParameterHandler::ShortPRM);
+                      << dealii::Utilities::MPI::n_mpi_processes(MPI_COMM_WORLD) << " MPI rank(s)\n";
+            if (print_only)
+              prm.print_parameters(std::cout, dealii::ParameterHandler::ShortPRM);
+            else
+              print_changed_parameters(prm, output);
             std::cout.flush();
           }
         if (print_only)
@@ -464,13 +582,23 @@ end
         study.run(options);
         if (root)
           {
-            std::cout << "Timings (s):";
-            for (const auto &[name, seconds] : study.timings())
-              std::cout << ' ' << name << ' ' << seconds;
-            std::cout << "\nResults in " << output
-                      << "/: eigenvalues.csv, realisations.csv, ids.csv, dos.csv, tails.json, "
-                         "localisation.csv, figures/, report.html, run.json, parameters.prm\n"
-                      << "These are model estimates for the stated model and box, not measurements.\n";
+            double total = 0;
+            std::cout << "Timings:";
+            bool first = true;
+            for (const auto &[name, seconds] : study.phase_timings())
+              {
+                std::cout << (first ? " " : ", ") << name << ' ' << readable_seconds(seconds);
+                total += seconds, first = false;
+              }
+            std::cout << " (total " << readable_seconds(total) << ")\n";
+            if (study.tilted())
+              std::cout << "Results in " << output
+                        << "/: eigenvalues.csv, realisations.csv (with log_weight), ids.csv and "
+                           "tail.csv (importance-weighted), run.json, "
+                        << ResultsStore::parameters_file << "\n";
+            else
+              print_closing_summary(output);
+            std::cout << "These are model estimates for the stated model and box, not measurements.\n";
           }
         return 0;
       }

@@ -7,6 +7,7 @@
 #include <alloyspec/model/lattice.h>
 #include <alloyspec/model/potential_model.h>
 #include <alloyspec/model/weyl_law.h>
+#include <alloyspec/io/folder_lock.h>
 #include <alloyspec/io/results_store.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
 #include <alloyspec/analysis/summary.h>
@@ -48,12 +49,31 @@ namespace alloyspec
     const auto         start = std::chrono::steady_clock::now();
     const StudySettings &study      = model.study();
     const auto          &boundaries = model.boundaries();
+    if (model.tilted())
+      throw InputError("sampling/method = tilted is not supported by the count command (its "
+                       "averages are unweighted); use 'alloyspec run', or sampling/method = plain");
+    // The pilot that turns a target into a degree belongs to `run`; counting
+    // the entries' own degree instead would count another operator.
+    if (model.error_estimate().accuracy)
+      throw InputError("parameter 'discretisation/accuracy' is not supported by the count command "
+                       "(allowed: empty; set 'discretisation/degree' and 'elements per cell' "
+                       "directly, e.g. to the choice in a run's run.json)");
     // Counts are taken in solver units; the tables show the user's unit.
     const std::vector<double> solver_energies = model.solver_energies();
 
     ResultsStore store(options.output_directory, false);
-    if (rank == 0)
-      store.write_file("parameters.prm", options.parameters_prm);
+    // Rank 0 holds the folder for the whole count, so that no run, count or
+    // summarise writes there at the same time; every rank learns if it could not.
+    std::unique_ptr<FolderLock> lock;
+    {
+      const auto [lock_error, lock_input_error] = capture_error([&] {
+        if (rank != 0)
+          return;
+        lock = std::make_unique<FolderLock>(options.output_directory, "count there");
+        store.write_file(ResultsStore::parameters_file, options.parameters_prm);
+      });
+      throw_if_any_failed(comm, lock_error, lock_input_error);
+    }
 
     std::map<std::string, double> timings;
     std::string                   error;

@@ -5,8 +5,12 @@
 #include <alloyspec/analysis/analysis.h>
 #include <alloyspec/fe/discretisation.h>
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
 #include <alloyspec/app/landscape_study.h>
 #include <alloyspec/core/progress.h>
+#include <alloyspec/io/folder_lock.h>
+#include <alloyspec/io/manifest.h>
+#include <alloyspec/io/record_reader.h>
 #include <alloyspec/io/results_store.h>
 #include <alloyspec/fe/spectral_problem.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
@@ -26,17 +30,6 @@ namespace alloyspec
 {
   namespace
   {
-    std::string number(const double x)
-    {
-      if (!std::isfinite(x))
-        return "nan";
-      char buffer[40];
-      std::snprintf(buffer, sizeof buffer, "%.12g", x);
-      return buffer;
-    }
-
-    std::string json_number(const double x) { return std::isfinite(x) ? number(x) : "null"; }
-
     /** Mean and standard error of the mean of realisation-wise values per energy. */
     struct MeanTable
     {
@@ -72,6 +65,13 @@ namespace alloyspec
     if (dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) != 0)
       return {};
     const StudyModel         &s          = model_;
+    if (s.tilted())
+      throw InputError("sampling/method = tilted is not supported by the landscape command (its "
+                       "averages are unweighted); use sampling/method = plain");
+    if (s.error_estimate().accuracy)
+      throw InputError("parameter 'discretisation/accuracy' is not supported by the landscape "
+                       "command (allowed: empty; set 'discretisation/degree' and 'elements per "
+                       "cell' directly, e.g. to the choice in a run's run.json)");
     const UnitSystem         &units      = s.units();
     const unsigned int        dim        = s.lattice().dimension();
     const auto               &boundaries = s.boundaries();
@@ -91,10 +91,14 @@ namespace alloyspec
       }
     const double volume = s.domain_volumes(discretisations.front().get()).first;
 
+    // Nobody writes eigenvalues into the folder while they are compared here.
+    std::filesystem::create_directories(output_directory);
+    const FolderLock lock(output_directory, "compare the landscape there");
+
     // Stored eigenvalues of the same realisations (from `alloyspec run` into this folder).
     std::map<std::pair<std::uint64_t, std::string>, RealisationRecord> stored;
     if (std::filesystem::exists(std::filesystem::path(output_directory) / "realisations.csv"))
-      for (auto &r : ResultsStore::read(output_directory))
+      for (auto &r : read_stored_records(output_directory).records)
         stored[{r.realisation, r.boundary}] = std::move(r);
 
     const std::uint64_t first = s.study().first_realisation, n = s.study().realisations;
@@ -117,10 +121,10 @@ namespace alloyspec
           {
             shift = units.to_solver_energy(*settings_.shift);
             if (*q_min + shift < 0.0)
-              throw InputError("parameter 'landscape/shift': " + number(*settings_.shift) +
+              throw InputError("parameter 'landscape/shift': " + short_number(*settings_.shift) +
                                " is too small for realisation " + std::to_string(r) +
                                " (allowed: at least minus the smallest cell value, " +
-                               number(-units.to_user_energy(*q_min)) + ", or 'auto')");
+                               short_number(-units.to_user_energy(*q_min)) + ", or 'auto')");
           }
         shifts.push_back(shift);
         for (std::size_t b = 0; b < boundaries.size(); ++b)
@@ -150,8 +154,8 @@ namespace alloyspec
                                        ? it->second.eigenvalues[k]
                                        : std::nan("");
                 estimates_csv << r << ',' << name << ',' << k << ','
-                              << number(units.to_user_energy(estimates[k])) << ','
-                              << number(units.to_user_energy(exact)) << '\n';
+                              << csv_number(units.to_user_energy(estimates[k])) << ','
+                              << csv_number(units.to_user_energy(exact)) << '\n';
                 if (k == 0 && std::isfinite(exact) && exact != 0.0)
                   first_estimate_error[b] += (estimates[k] - exact) / exact,
                     ++first_estimate_count[b];
@@ -185,35 +189,33 @@ namespace alloyspec
     std::vector<std::vector<double>> relative(boundaries.size());
     for (std::size_t i = 0; i < energies.size(); ++i)
       {
-        csv << number(energies[i]);
+        csv << csv_number(energies[i]);
         for (std::size_t b = 0; b < boundaries.size(); ++b)
           {
-            csv << ',' << number(landscape[b].mean(i)) << ','
-                << number(landscape[b].standard_error(i));
+            csv << ',' << csv_number(landscape[b].mean(i)) << ','
+                << csv_number(landscape[b].standard_error(i));
             if (all_stored[b])
               {
                 const auto  &e   = exact[b][i];
                 const double rel = e.mean > 0 ? (landscape[b].mean(i) - e.mean) / e.mean : std::nan("");
-                csv << ',' << number(e.mean) << ',' << (e.complete ? 1 : 0) << ',' << number(rel);
+                csv << ',' << csv_number(e.mean) << ',' << (e.complete ? 1 : 0) << ',' << csv_number(rel);
                 if (e.complete && std::isfinite(rel))
                   relative[b].push_back(std::abs(rel));
               }
           }
         csv << '\n';
       }
-    AnalysisInput labels;
-    if (units.is_physical())
-      labels.energy_column = "energy_" + units.energy_label(),
-      labels.solver_energy_unit = units.solver_energy_unit();
-    std::filesystem::create_directories(output_directory);
+    const AnalysisInput labels = s.analysis_input(volume);
     ResultsStore::write_file_in(output_directory, "landscape.csv", with_energy_columns(csv.str(), labels));
     ResultsStore::write_file_in(output_directory, "landscape_eigenvalues.csv", estimates_csv.str());
 
     std::vector<std::string> lines;
-    std::ostringstream       json;
-    json << "{\n  \"realisations\": " << n << ",\n  \"first_realisation\": " << first
-         << ",\n  \"energy_unit\": \"" << units.energy_label() << "\",\n  \"volume\": "
-         << json_number(volume) << ",\n  \"boundaries\": {";
+    Json manifest = manifest_header("landscape");
+    manifest["realisations"]      = n;
+    manifest["first_realisation"] = first;
+    manifest["energy_unit"]       = units.energy_label();
+    manifest["volume"]            = json_number(volume);
+    Json per_boundary             = Json::object();
     for (std::size_t b = 0; b < boundaries.size(); ++b)
       {
         const std::string name = to_string(boundaries[b]);
@@ -226,36 +228,34 @@ namespace alloyspec
         const double first_error = first_estimate_count[b]
                                      ? first_estimate_error[b] / first_estimate_count[b]
                                      : std::nan("");
-        json << (b ? "," : "") << "\n    \"" << name << "\": {\"landscape_seconds\": "
-             << json_number(landscape_seconds[b])
-             << ", \"eigen_solve_seconds_stored\": "
-             << (all_stored[b] ? json_number(eigen_seconds[b]) : "null")
-             << ", \"eigen_over_landscape_time\": " << json_number(ratio)
-             << ", \"mean_cg_iterations\": " << json_number(iterations[b] / double(n))
-             << ", \"median_abs_relative_difference\": " << json_number(median)
-             << ", \"max_abs_relative_difference\": "
-             << json_number(rel.empty() ? std::nan("") : rel.back())
-             << ", \"mean_relative_error_lowest_eigenvalue_estimate\": " << json_number(first_error)
-             << "}";
+        per_boundary[name] = {
+          {"landscape_seconds", json_number(landscape_seconds[b])},
+          {"eigen_solve_seconds_stored", all_stored[b] ? json_number(eigen_seconds[b]) : Json()},
+          {"eigen_over_landscape_time", json_number(ratio)},
+          {"mean_cg_iterations", json_number(iterations[b] / double(n))},
+          {"median_abs_relative_difference", json_number(median)},
+          {"max_abs_relative_difference", json_number(rel.empty() ? std::nan("") : rel.back())},
+          {"mean_relative_error_lowest_eigenvalue_estimate", json_number(first_error)}};
         std::ostringstream line;
-        line << name << ": " << n << " landscape solves in " << number(landscape_seconds[b]) << " s";
+        line << name << ": " << n << " landscape solves in " << short_number(landscape_seconds[b]) << " s";
         if (all_stored[b])
-          line << "; stored eigen-solves took " << number(eigen_seconds[b]) << " s (ratio "
-               << number(ratio) << "); |N_W - N|/N: median " << number(median) << ", max "
-               << number(rel.empty() ? std::nan("") : rel.back())
+          line << "; stored eigen-solves took " << short_number(eigen_seconds[b]) << " s (ratio "
+               << short_number(ratio) << "); |N_W - N|/N: median " << short_number(median) << ", max "
+               << short_number(rel.empty() ? std::nan("") : rel.back())
                << " over complete grid points with N > 0; lowest-eigenvalue estimate off by "
-               << number(100 * first_error) << " % on average";
+               << short_number(100 * first_error) << " % on average";
         else
           line << " (no stored eigenvalues of these realisations in the folder: run 'alloyspec "
                   "run' into it first to compare)";
         lines.push_back(line.str());
       }
-    json << "\n  },\n  \"shift_min\": "
-         << json_number(units.to_user_energy(*std::min_element(shifts.begin(), shifts.end())))
-         << ",\n  \"note\": \"N_W(E) = (1/|V|) int omega_d (E - W)_+^(d/2) / (2 pi)^d dx with W = "
-            "1/u - shift, (H + shift) u = 1. Eigen-solve times are those stored by 'alloyspec "
-            "run' in realisations.csv, measured on the machine that ran it.\"\n}\n";
-    ResultsStore::write_file_in(output_directory, "landscape.json", json.str());
+    manifest["boundaries"] = per_boundary;
+    manifest["shift_min"] =
+      json_number(units.to_user_energy(*std::min_element(shifts.begin(), shifts.end())));
+    manifest["method"] = "N_W(E) = (1/|V|) int omega_d (E - W)_+^(d/2) / (2 pi)^d dx with W = "
+                         "1/u - shift, (H + shift) u = 1. Eigen-solve times are those stored by "
+                         "'alloyspec run' in realisations.csv, measured on the machine that ran it.";
+    write_json_file(output_directory, "landscape.json", manifest);
     return lines;
   }
 } // namespace alloyspec

@@ -1,13 +1,20 @@
 #include <alloyspec/core/collective_errors.h>
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
+#include <alloyspec/solver/landscape.h>
 #include <alloyspec/core/interrupt.h>
 #include <alloyspec/core/progress.h>
+#include <alloyspec/io/folder_lock.h>
+#include <alloyspec/io/manifest.h>
+#include <alloyspec/io/record_reader.h>
+#include <alloyspec/io/parameter_text.h>
 #include <alloyspec/io/results_store.h>
 #include <alloyspec/fe/spectral_problem.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
 #include <alloyspec/app/study.h>
 #include <alloyspec/solver/team.h>
 #include <alloyspec/analysis/summary.h>
+#include <alloyspec/model/energy_grid.h>
 #include <alloyspec/model/weyl_law.h>
 
 #include <deal.II/base/mpi.h>
@@ -33,53 +40,46 @@ namespace alloyspec
 {
   namespace
   {
-    /** Adds the wall time of its scope to one entry of a timing table. */
+    /** Adds the wall time of its scope to one entry of a timing table (appended when new). */
     class ScopedTimer
     {
     public:
-      ScopedTimer(std::map<std::string, double> &table, std::string name)
+      ScopedTimer(Study::PhaseTimings &table, std::string name)
         : table_(table)
         , name_(std::move(name))
         , start_(std::chrono::steady_clock::now())
       {}
       ~ScopedTimer()
       {
-        table_[name_] +=
+        const double seconds =
           std::chrono::duration<double>(std::chrono::steady_clock::now() - start_).count();
+        const auto entry = std::find_if(table_.begin(), table_.end(),
+                                        [&](const auto &e) { return e.first == name_; });
+        if (entry == table_.end())
+          table_.emplace_back(name_, seconds);
+        else
+          entry->second += seconds;
       }
 
     private:
-      std::map<std::string, double>        &table_;
+      Study::PhaseTimings                  &table_;
       std::string                           name_;
       std::chrono::steady_clock::time_point start_;
     };
 
-    std::string json_escape(const std::string &s)
+    /** Bytes of physical memory of this machine (0 if unknown). */
+    double physical_memory_bytes()
     {
-      std::string out;
-      for (const char c : s)
-        {
-          if (c == '"' || c == '\\')
-            out += '\\';
-          if (c == '\n')
-            {
-              out += "\\n";
-              continue;
-            }
-          out += c;
-        }
-      return out;
+      const long pages = ::sysconf(_SC_PHYS_PAGES), page = ::sysconf(_SC_PAGESIZE);
+      return pages > 0 && page > 0 ? double(pages) * double(page) : 0.0;
     }
 
-    std::string number(double x)
+    std::string gibibytes(double bytes)
     {
-      if (!std::isfinite(x))
-        return "null";
       char buffer[40];
-      std::snprintf(buffer, sizeof buffer, "%.17g", x);
+      std::snprintf(buffer, sizeof buffer, "%.3g GiB", bytes / 1073741824.0);
       return buffer;
     }
-
 
   } // namespace
 
@@ -92,40 +92,149 @@ namespace alloyspec
   {
     model_.parse_parameters(prm);
     analysis_.parse_parameters(prm);
+    // Checked here too, although only `landscape` uses them: a run accepts no
+    // entry it has not checked.
+    LandscapeSettings landscape;
+    landscape.parse_parameters(prm);
+  }
+
+  void Study::check_memory() const
+  {
+    // A lower estimate, to refuse what cannot fit before anything is written
+    // (the documented maxima died with a bare std::bad_alloc). Per boundary
+    // condition: the mesh (about 1 KiB per element in deal.II's triangulation
+    // and DoF handler; common practice, no source), K and M (value and column
+    // index per entry, (2p + 1)^d entries per row) and a factor at least as
+    // large as K; plus the stored eigenpairs of every realisation, which the
+    // tables hold at once (5 numbers each).
+    const unsigned int dim = model_.lattice().dimension();
+    const double       p   = model_.discretisation().degree;
+    const double       r   = model_.discretisation().elements_per_cell;
+    double elements = 1, dofs = 1;
+    for (unsigned int d = 0; d < dim; ++d)
+      {
+        elements *= model_.lattice().cells()[d] * r;
+        dofs *= model_.lattice().cells()[d] * r * p + 1;
+      }
+    const double row          = std::pow(2 * p + 1, double(dim));
+    const double per_boundary = model_.geometry().has_mesh() ? 0.0 : 1024.0 * elements + 3 * 12.0 * dofs * row;
+    const double k            = model_.solver().energy_cutoff ? model_.solver().max_eigenvalues :
+                                                                 model_.solver().n_eigenvalues;
+    const double records = double(model_.study().realisations) * model_.boundaries().size() * k * 5 * 8;
+    const double total   = per_boundary * model_.boundaries().size() + records;
+    const double memory  = physical_memory_bytes();
+    if (memory > 0 && total > memory)
+      throw InputError("the study needs at least " + gibibytes(total) + " of memory (" +
+                       gibibytes(per_boundary * model_.boundaries().size()) +
+                       " for the meshes, matrices and factors of 'lattice/cells' = " +
+                       model_.lattice().description() + ", " + gibibytes(records) + " for the eigenvalues of " +
+                       std::to_string(model_.study().realisations) +
+                       " realisations), more than this machine's " + gibibytes(memory) +
+                       ": use fewer cells, a lower 'discretisation/degree', fewer "
+                       "'study/realisations' (studies of disjoint realisations can be merged "
+                       "by summarise) or fewer eigenvalues");
   }
 
   void Study::run(const RunOptions &options)
   {
-    const bool   root = dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0;
+    const bool root = dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0;
     // Checked before anything is written (the same verdict on every rank).
     teams_ = std::make_unique<RealisationTeams>(options.ranks_per_realisation);
+    check_memory();
     // SIGINT/SIGTERM from here on finish the running realisation first.
     std::optional<InterruptGuard> interrupt_guard(std::in_place);
-    ResultsStore store(options.output_directory, options.resume);
     output_directory_ = options.output_directory;
-    // Only rank 0 writes; every rank must learn if it refused (else the others hang).
+
+    // Rank 0 owns the folder: it checks it, creates it, locks it for the whole
+    // run and records the parameters. Every rank learns the verdict, so that
+    // no rank waits for one that gave up (a hang).
+    std::optional<ResultsStore> store;
+    std::unique_ptr<FolderLock> lock;
+    bool                        wrote_parameters = false;
+    stored_any_                                  = false;
+    // A run refused before it stored anything leaves the folder as it found it.
+    auto roll_back = [&] {
+      if (!root || !store || stored_any_)
+        return;
+      std::error_code ignored;
+      if (wrote_parameters)
+        std::filesystem::remove(store->path(ResultsStore::parameters_file), ignored);
+      const bool created = store->created_folder();
+      lock.reset();
+      if (created)
+        std::filesystem::remove(options.output_directory, ignored); // only if empty
+    };
+    {
+      const auto [error, input_error] = capture_error([&] {
+        if (!root)
+          return;
+        store.emplace(options.output_directory, options.resume);
+        lock = std::make_unique<FolderLock>(options.output_directory,
+                                            options.resume ? "resume the study there" :
+                                                             "run a study there");
+        if (lock->took_over_stale())
+          std::cerr << "alloyspec: warning: the folder's lock was left by a run that ended "
+                       "without releasing it ("
+                    << lock->stale_holder() << "); taken over\n";
+        // Another run may have filled the folder before the lock was ours.
+        if (!options.resume)
+          store->refuse_earlier_study();
+        wrote_parameters = check_and_record_parameters(*store, options);
+        if (options.resume)
+          for (const auto &warning : store->prepare_resume())
+            std::cerr << "alloyspec: warning: " << warning << '\n';
+      });
+      if (!error.empty())
+        roll_back();
+      throw_if_any_failed(MPI_COMM_WORLD, error, input_error);
+    }
+    if (!root)
+      store.emplace(ResultsStore::attach(options.output_directory));
+    try
+      {
+        if (model_.error_estimate().accuracy)
+          {
+            ScopedTimer t(timings_, "pilot_choice");
+            choose_for_accuracy(root);
+          }
+        // The labels users see (console, run.json) say what each phase produces.
+        { ScopedTimer t(timings_, "mesh");         make_grid(); }
+        { ScopedTimer t(timings_, "unknowns");     setup_system(); }
+        { ScopedTimer t(timings_, "matrices");     assemble(); }
+        if (model_.sampling().is_tilted() && model_.sampling().automatic)
+          {
+            ScopedTimer t(timings_, "tilt_search");
+            choose_tilt(*store, options, root);
+          }
+        { ScopedTimer t(timings_, "eigen_solves"); solve(*store, options); }
+      }
+    catch (const Interrupted &)
+      {
+        throw;
+      }
+    catch (...)
+      {
+        roll_back();
+        throw;
+      }
+    // The guard stays up: a stop request that arrives once every realisation
+    // is stored lets the (quick) tables be written rather than die half-way
+    // through them (a second signal still ends the process at once); the run
+    // then ends with the signal's status, as any stopped run does.
     const auto [error, input_error] = capture_error([&] {
       if (root)
-        check_and_record_parameters(store, options);
+        {
+          ScopedTimer t(timings_, "tables");
+          postprocess(*store, options);
+        }
     });
     throw_if_any_failed(MPI_COMM_WORLD, error, input_error);
-    if (model_.error_estimate().accuracy)
-      {
-        ScopedTimer t(timings_, "choose_discretisation");
-        choose_for_accuracy(root);
-      }
-    { ScopedTimer t(timings_, "make_grid");    make_grid(); }
-    { ScopedTimer t(timings_, "setup_system"); setup_system(); }
-    { ScopedTimer t(timings_, "assemble");     assemble(); }
-    { ScopedTimer t(timings_, "solve");        solve(store, options); }
-    // The guard stays up: a stop request that arrives once every realisation
-    // is stored lets the (quick) tables be written and the run end normally,
-    // rather than die half-way through them; a second signal still ends it.
-    if (root)
-      {
-        ScopedTimer t(timings_, "postprocess");
-        postprocess(store, options);
-      }
+    if (const int signal = dealii::Utilities::MPI::max(InterruptGuard::received(), MPI_COMM_WORLD))
+      throw Interrupted(signal, "stopped on " + signal_name(signal) +
+                                  " while the tables were written; all " +
+                                  std::to_string(model_.study().realisations) +
+                                  " realisations are stored in '" + store->directory() +
+                                  "' and the tables were completed");
   }
 
   void Study::make_grid()
@@ -150,10 +259,20 @@ namespace alloyspec
   void Study::assemble()
   {
     problems_.clear();
-    for (auto &d : discretisations_)
+    for (std::size_t b = 0; b < discretisations_.size(); ++b)
       {
-        d->assemble_fixed();
-        problems_.push_back(d->make_problem());
+        discretisations_[b]->assemble_fixed();
+        problems_.push_back(discretisations_[b]->make_problem());
+        // Fewer unknowns than eigenvalues wanted: the solver returns them all.
+        // None at all (every node on a Dirichlet face) leaves nothing to count.
+        if (problems_.back()->n_genuine() == 0)
+          throw InputError("parameter 'discretisation/degree': with degree " +
+                           std::to_string(model_.discretisation().degree) + " and " +
+                           std::to_string(model_.discretisation().elements_per_cell) +
+                           " element(s) per cell, the " + to_string(model_.boundaries()[b]) +
+                           " problem on " + model_.lattice().description() +
+                           " has no unknowns (every node lies on a constrained face); raise "
+                           "'discretisation/degree' or 'discretisation/elements per cell'");
       }
     solver_ = std::make_unique<EigenSolver>(model_.solver());
     solver_->use_teams(teams_.get());
@@ -203,6 +322,7 @@ namespace alloyspec
     record.potential_min  = *std::min_element(q.begin(), q.end());
     record.potential_max  = *std::max_element(q.begin(), q.end());
     record.attempts       = result.attempts;
+    record.log_weight     = model_.potential().log_weight(model_.potential().cell_values(model_.study().seed, realisation));
     // The central cell (floor(L_i/2)) for the local-trace estimator.
     std::array<unsigned int, 3> centre{0, 0, 0};
     for (unsigned int d = 0; d < model_.lattice().dimension(); ++d)
@@ -214,6 +334,7 @@ namespace alloyspec
     if (!estimators_.empty())
       record.errors = estimators_[b]->errors(q, result.eigenvalues);
     export_eigenfunctions(realisation, b, q, result);
+    write_eigenfunction_slices(realisation, b, result);
     record.solve_seconds =
       std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     return record;
@@ -243,6 +364,36 @@ namespace alloyspec
       (std::filesystem::path(output_directory_) / file).string(), q, names, fields);
   }
 
+  void Study::write_eigenfunction_slices(std::uint64_t realisation, std::size_t b,
+                                         const EigenResult &result) const
+  {
+    // Maps for the report of a fixed potential: its first realisation only.
+    const bool fixed = !model_.potential().is_random() || model_.study().realisations == 1;
+    if (!fixed || realisation != model_.study().first_realisation || (teams_ && !teams_->leader()) ||
+        result.eigenvectors.empty())
+      return;
+    const std::size_t count = std::min<std::size_t>(result.eigenvectors.size(), 4);
+    std::vector<std::vector<std::array<double, 3>>> slices;
+    for (std::size_t j = 0; j < count; ++j)
+      slices.push_back(discretisations_[b]->slice_values(result.eigenvectors[j]));
+    std::ostringstream csv;
+    const std::string  unit = model_.units().is_physical() ? "_" + model_.units().length_label() : "";
+    csv << "x" << unit << ",y" << unit;
+    for (std::size_t j = 0; j < count; ++j)
+      csv << ",psi_" << j;
+    csv << '\n';
+    for (std::size_t k = 0; k < slices[0].size(); ++k)
+      {
+        csv << csv_number(slices[0][k][0]) << ',' << csv_number(slices[0][k][1]);
+        for (std::size_t j = 0; j < count; ++j)
+          csv << ',' << csv_number(slices[j][k][2]);
+        csv << '\n';
+      }
+    ResultsStore::write_file_in(output_directory_,
+                                "eigenfunction_slice_" + to_string(model_.boundaries()[b]) + ".csv",
+                                csv.str());
+  }
+
   void Study::solve(const ResultsStore &store, const RunOptions &options)
   {
     const MPI_Comm     comm  = MPI_COMM_WORLD;
@@ -254,8 +405,12 @@ namespace alloyspec
     if (options.resume)
       {
         std::map<std::uint64_t, std::size_t> stored;
-        for (const auto &r : ResultsStore::read(store.directory()))
-          ++stored[r.realisation];
+        const auto [error, input_error] = capture_error([&] {
+          // Rank 0 has already read these strictly and cut any torn remains.
+          for (const auto &r : read_stored_records(store.directory()).records)
+            ++stored[r.realisation];
+        });
+        throw_if_any_failed(comm, error, input_error);
         for (const auto &[r, n] : stored)
           if (n == model_.boundaries().size())
             done.insert(r);
@@ -291,6 +446,8 @@ namespace alloyspec
           if (slot < pending.size())
             for (std::size_t b = 0; b < model_.boundaries().size(); ++b)
               {
+                progress.phase("solving realisation " + std::to_string(pending[slot]) + ", " +
+                               to_string(model_.boundaries()[b]));
                 const RealisationRecord record = solve_one(pending[slot], b);
                 if (!teams_->leader())
                   continue;
@@ -300,31 +457,47 @@ namespace alloyspec
               }
         });
         // Rank 0 owns the files; it appends every finished realisation of
-        // this round before any rank starts the next one.
+        // this round before any rank starts the next one. A failed write (a
+        // full disk) is reported to every rank like a failed solve, so none
+        // waits for a round that never comes.
         const auto eigen_all   = dealii::Utilities::MPI::gather(comm, eigen_text, 0);
         const auto summary_all = dealii::Utilities::MPI::gather(comm, summary_text, 0);
-        if (rank == 0)
-          {
-            for (unsigned int p = 0; p < ranks; ++p)
-              if (!summary_all[p].empty())
+        const auto [write_error, write_input_error] = capture_error([&] {
+          if (rank != 0)
+            return;
+          for (unsigned int p = 0; p < ranks; ++p)
+            if (!summary_all[p].empty())
+              {
                 store.append_text(eigen_all[p], summary_all[p]);
-            progress.update(std::min(pending.size(), (round + 1) * teams));
-          }
-        // After storing what the other ranks finished.
-        throw_if_any_failed(comm, error, input_error);
+                stored_any_ = true;
+              }
+          progress.update(std::min(pending.size(), (round + 1) * teams));
+        });
+        // After storing what the other ranks finished; a solve's error first.
+        if (error.empty())
+          throw_if_any_failed(comm, write_error, write_input_error);
+        else
+          throw_if_any_failed(comm, error, input_error);
       }
     progress.finish();
   }
 
-  void Study::check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const
+  bool Study::check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const
   {
-    const std::string stored_path = store.path("parameters.prm");
-    if (options.resume && std::filesystem::exists(stored_path))
+    // The file this run writes; earlier versions wrote the legacy name, which
+    // is still read (ResultsStore::read_stored_parameters).
+    const std::string stored_path = store.path(ResultsStore::parameters_file);
+    const bool        had_file    = std::filesystem::exists(stored_path);
+    // Records without their parameters cannot be continued: the model they
+    // belong to is unknown, and a resume would label them with today's.
+    if (options.resume && (!ResultsStore::stored_parameters_path(store.directory()).empty() ||
+                           ResultsStore::holds_records(store.directory())))
       {
-        std::ifstream      in(stored_path);
-        std::ostringstream text;
-        text << in.rdbuf();
-        const auto before = flatten_parameters(text.str());
+        auto before = flatten_parameters(ResultsStore::read_stored_parameters(store.directory()));
+        // Earlier versions stored the grid as "a:h:b"; it means "a to b by h".
+        if (const auto grid = before.find("study/energies"); grid != before.end())
+          if (const auto words = energy_grid_in_words(grid->second))
+            grid->second = *words;
         const auto now    = flatten_parameters(options.parameters_prm);
         std::string differ;
         for (const auto &[key, value] : now)
@@ -341,7 +514,8 @@ namespace alloyspec
                            "' was run with other parameters; nothing was changed. Differences:" +
                            differ);
       }
-    store.write_file("parameters.prm", options.parameters_prm);
+    store.write_file(ResultsStore::parameters_file, options.parameters_prm);
+    return !had_file;
   }
 
   void Study::postprocess(const ResultsStore &store, const RunOptions &options)
@@ -352,52 +526,55 @@ namespace alloyspec
     std::set<std::uint64_t> realisations;
     for (const auto &r : stored.input.records)
       realisations.insert(r.realisation);
-    const double volume = model_.domain_volumes(discretisations_.empty() ? nullptr : discretisations_.front().get()).first;
+    const double volume = model_.domain_volumes(discretisations_.empty() ? nullptr :
+                                                discretisations_.front().get()).first;
 
     // run.json: what was run, with what, how long, how big.
     rusage usage{};
     getrusage(RUSAGE_SELF, &usage);
-    char host[256] = "unknown";
-    gethostname(host, sizeof host - 1);
-    std::ostringstream json;
-    json << "{\n  \"program\": \"alloyspec\",\n  \"version\": \"" << ALLOYSPEC_VERSION << "\",\n"
-         << "  \"seed\": " << model_.study().seed << ",\n"
-         << "  \"first_realisation\": " << model_.study().first_realisation << ",\n"
-         << "  \"realisations_requested\": " << model_.study().realisations << ",\n"
-         << "  \"realisations_stored\": " << realisations.size() << ",\n"
-         << "  \"mpi_ranks\": " << dealii::Utilities::MPI::n_mpi_processes(MPI_COMM_WORLD) << ",\n"
-         << "  \"ranks_per_realisation\": " << (teams_ ? teams_->size() : 1u) << ",\n"
-         << "  \"host\": \"" << json_escape(host) << "\",\n"
-         << "  \"lattice\": \"" << json_escape(model_.lattice().description()) << "\",\n"
-         << "  \"volume\": " << number(volume) << ",\n"
-         << "  \"units\": {\"system\": \"" << (model_.units().is_physical() ? "physical" : "reduced")
-         << "\", \"energy_unit\": \"" << model_.units().energy_label()
-         << "\", \"length_unit\": \"" << model_.units().length_label()
-         << "\", \"records_energy_unit_in_user_unit\": " << number(model_.units().solver_energy_unit())
-         << ", \"description\": \"" << json_escape(model_.units().description()) << "\"},\n"
-         << "  \"geometry\": \"" << json_escape(model_.geometry().description()) << "\",\n"
-         << "  \"potential\": \"" << json_escape(model_.potential().description()) << "\",\n"
-         << "  \"degrees_of_freedom\": {";
+    const UnitSystem       &units    = model_.units();
+    const SamplingSettings &sampling = model_.sampling();
+    Json manifest = manifest_header("run");
+    manifest["seed"]                   = model_.study().seed;
+    manifest["first_realisation"]      = model_.study().first_realisation;
+    manifest["realisations_requested"] = model_.study().realisations;
+    manifest["realisations_stored"]    = realisations.size();
+    manifest["mpi_ranks"]              = dealii::Utilities::MPI::n_mpi_processes(MPI_COMM_WORLD);
+    manifest["ranks_per_realisation"]  = teams_ ? teams_->size() : 1u;
+    manifest["lattice"]                = model_.lattice().description();
+    manifest["volume"]                 = json_number(volume);
+    manifest["units"] = {{"system", units.is_physical() ? "physical" : "reduced"},
+                         {"energy_unit", units.energy_label()},
+                         {"length_unit", units.length_label()},
+                         {"records_energy_unit_in_user_unit", json_number(units.solver_energy_unit())},
+                         {"description", units.description()}};
+    manifest["geometry"]  = model_.geometry().description();
+    manifest["potential"] = model_.potential().description();
+    manifest["sampling"]  = {
+      {"method", sampling.method_name()},
+      {"tilt", json_number(sampling.is_tilted() ? sampling.tilt : 0.0)},
+      {"tilt_choice", sampling.is_tilted() ? (sampling.automatic ? "auto" : "given") : "none"},
+      {"target_energy", sampling.target_energy ? json_number(*sampling.target_energy) : Json()},
+      {"pilot", tilt_log_}};
+    Json dofs = Json::object();
     for (std::size_t b = 0; b < model_.boundaries().size(); ++b)
-      json << (b ? ", " : "") << '"' << to_string(model_.boundaries()[b])
-           << "\": " << discretisations_[b]->n_dofs();
-    json << "},\n  \"discretisation\": {\"degree\": " << model_.discretisation().degree
-         << ", \"elements_per_cell\": " << model_.discretisation().elements_per_cell
-         << ", \"error_estimate\": \"" << model_.error_estimate().method << "\", \"accuracy_target\": "
-         << (model_.error_estimate().accuracy ? number(*model_.error_estimate().accuracy) : "null")
-         << ", \"accuracy_achieved\": "
-         << (discretisation_choice_ ? number(discretisation_choice_->achieved) : "null");
-    json << "},\n  \"timings_seconds\": {";
-    bool first = true;
+      dofs[to_string(model_.boundaries()[b])] = discretisations_[b]->n_dofs();
+    manifest["degrees_of_freedom"] = dofs;
+    const ErrorEstimateSettings estimate = model_.error_estimate();
+    manifest["discretisation"]           = {
+      {"degree", model_.discretisation().degree},
+      {"elements_per_cell", model_.discretisation().elements_per_cell},
+      {"error_estimate", estimate.method},
+      {"accuracy_target", estimate.accuracy ? json_number(*estimate.accuracy) : Json()},
+      {"accuracy_achieved",
+       discretisation_choice_ ? json_number(discretisation_choice_->achieved) : Json()}};
+    Json phases = Json::object();
     for (const auto &[name, seconds] : timings_)
-      {
-        json << (first ? "" : ", ") << '"' << name << "\": " << number(seconds);
-        first = false;
-      }
-    json << "},\n  \"memory_high_water_mib\": " << number(usage.ru_maxrss / 1024.0) << ",\n"
-         << "  \"note\": \"Model estimates for the stated model and box; not measurements.\",\n"
-         << "  \"parameters\": " << (options.parameters_json.empty() ? "{}" : options.parameters_json)
-         << "\n}\n";
-    store.write_file("run.json", json.str());
+      phases[name] = json_number(seconds);
+    manifest["timings_seconds"]       = phases;
+    manifest["memory_high_water_mib"] = json_number(usage.ru_maxrss / 1024.0);
+    manifest["parameters"] = options.parameters_json.empty() ? Json::object() :
+                                                               Json::parse(options.parameters_json);
+    write_json_file(store.directory(), "run.json", manifest);
   }
 } // namespace alloyspec

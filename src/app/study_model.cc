@@ -2,6 +2,9 @@
 #include <alloyspec/analysis/summary.h>
 #include <alloyspec/app/study_model.h>
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
+#include <alloyspec/io/record_reader.h>
+#include <alloyspec/io/parameter_text.h>
 #include <alloyspec/io/results_store.h>
 #include <alloyspec/model/weyl_law.h>
 #include <alloyspec/solver/landscape.h>
@@ -10,11 +13,54 @@
 
 #include <algorithm>
 #include <cmath>
+#include <filesystem>
+#include <fstream>
+#include <iostream>
+#include <map>
 #include <numeric>
 #include <set>
+#include <sstream>
 
 namespace alloyspec
 {
+  namespace
+  {
+    /**
+     * Largest magnitude of a cell value in solver units. Rounding in the
+     * factorisations of K - sigma M is about 2e-16 max|q| in absolute terms; at
+     * 1e6 that is 2e-10, below the level spacing of any box that fits in
+     * memory. Beyond it the shifted solves lose the spectrum (a potential of
+     * 1e308 overflowed, 1e8 broke the fits), and physically a cell of 1e6
+     * (decay e^-1000 across a unit cell) is already an impenetrable wall.
+     * Common practice, no source.
+     */
+    constexpr double max_potential_magnitude = 1e6;
+
+    /**
+     * N_sc of one realisation drawn from @p potential, in solver units (a
+     * density per unit volume does not depend on the energy unit); each cell
+     * weighs with the volume of the domain that carries its value (all alike
+     * in a box, the mesh's share otherwise).
+     */
+    std::vector<double> phase_space_count(const std::vector<double>                    &q,
+                                          const std::vector<double>                    &energies,
+                                          unsigned int                                  dim,
+                                          const std::pair<double, std::vector<double>> &volumes)
+    {
+      const auto &[volume, cell_volumes] = volumes;
+      std::vector<double> counts(energies.size(), 0.0);
+      for (std::size_t i = 0; i < energies.size(); ++i)
+        {
+          double sum = 0;
+          for (std::size_t n = 0; n < q.size(); ++n)
+            if (cell_volumes[n] > 0)
+              sum += cell_volumes[n] * free_ids_density(dim, energies[i] - q[n]);
+          counts[i] = sum / volume;
+        }
+      return counts;
+    }
+  } // namespace
+
   void StudyModel::declare_parameters(dealii::ParameterHandler &prm)
   {
     Lattice::declare_parameters(prm);
@@ -23,6 +69,7 @@ namespace alloyspec
     DiscretisationSettings::declare_parameters(prm);
     SpectrumSettings::declare_parameters(prm);
     StudySettings::declare_parameters(prm);
+    SamplingSettings::declare_parameters(prm);
   }
 
   void declare_all_parameters(dealii::ParameterHandler &prm)
@@ -48,11 +95,79 @@ namespace alloyspec
     if (solver_.energy_cutoff)
       solver_.energy_cutoff = units_.to_solver_energy(*solver_.energy_cutoff);
     study_.parse_parameters(prm);
+    sampling_.parse_parameters(prm);
+    if (sampling_.is_tilted())
+      {
+        if (!potential_.is_random())
+          throw InputError("sampling/method = tilted needs a random law; potential/law = file "
+                           "gives one fixed potential (use sampling/method = plain)");
+        if (!sampling_.automatic)
+          potential_.set_tilt(sampling_.tilt);
+      }
     if (geometry_.has_mesh())
       for (const Boundary bc : spectrum_.boundaries)
         if (bc == Boundary::periodic)
           throw InputError("parameter 'spectrum/boundary conditions': 'periodic' is not allowed "
                            "with 'lattice/mesh file' (allowed: dirichlet, neumann)");
+    check_potential_scale();
+  }
+
+  void StudyModel::set_tilt(const double theta)
+  {
+    sampling_.tilt = theta;
+    potential_.set_tilt(theta);
+  }
+
+  double StudyModel::stored_tilt(const std::string &directory) const
+  {
+    if (!sampling_.automatic)
+      return sampling_.tilt;
+    const auto    path = std::filesystem::path(directory) / tilt_file;
+    std::ifstream in(path);
+    double        theta = 0;
+    if (!(in >> theta) || !std::isfinite(theta))
+      throw InputError("folder '" + directory + "': sampling/tilt = auto, but " + tilt_file +
+                       " (the tilt the study chose) is missing or unreadable; the weights "
+                       "cannot be reconstructed");
+    return theta;
+  }
+
+  void StudyModel::check_potential_scale() const
+  {
+    double low = 0, high = 0;
+    if (potential_.is_random())
+      {
+        const SingleSiteLaw &law = *potential_.law();
+        low                      = law.support_min();
+        high                     = law.support_max();
+        if (!std::isfinite(low) || !std::isfinite(high))
+          {
+            // An untruncated gaussian: 8 standard deviations hold all but 1e-15.
+            const double spread = 8.0 * std::sqrt(law.variance());
+            low                 = law.mean() - spread;
+            high                = law.mean() + spread;
+          }
+      }
+    else
+      {
+        const std::vector<double> q = potential_.cell_values(study_.seed, 0);
+        const auto [lo, hi]         = std::minmax_element(q.begin(), q.end());
+        low                         = *lo;
+        high                        = *hi;
+      }
+    const double magnitude =
+      std::max(std::abs(units_.to_solver_energy(low)), std::abs(units_.to_solver_energy(high)));
+    if (!(magnitude <= max_potential_magnitude))
+      {
+        std::ostringstream message;
+        message << "subsection 'potential' (" << potential_.description()
+                << "): the cell values reach " << low << " to " << high
+                << ", allowed are magnitudes up to "
+                << units_.to_user_energy(max_potential_magnitude) << " (" << max_potential_magnitude
+                << " solver units); beyond that rounding in the factorisations swamps the level "
+                   "spacings, and a cell that high is already an impenetrable wall";
+        throw InputError(message.str());
+      }
   }
 
   std::unique_ptr<Discretisation> StudyModel::make_discretisation(const Boundary bracketing,
@@ -104,6 +219,8 @@ namespace alloyspec
       in.boundaries.push_back(to_string(bc));
     in.energies        = study_.energies;
     in.band_bottom     = potential_.bottom();
+    in.fixed_potential = !potential_.is_random();
+    in.error_safety_factor = safety_factor;
     in.mean_potential  = potential_.is_random() ? potential_.law()->mean() : 0.0;
     if (!potential_.is_random())
       {
@@ -128,6 +245,11 @@ namespace alloyspec
         in.energy_unit        = "E (" + units_.energy_label() + ")";
         in.energy_column      = "energy_" + units_.energy_label();
         in.solver_energy_unit = units_.solver_energy_unit();
+        // The reduced unit of the tables is the solver's (per nm², not per cell edge²).
+        in.model_summary += " The energy_reduced columns and the stored records use the solver "
+                            "unit hbar^2/(2 m* nm^2) = " +
+                            short_number(units_.solver_energy_unit(), 6) + " " +
+                            units_.energy_label() + ".";
       }
     return in;
   }
@@ -136,22 +258,7 @@ namespace alloyspec
   StudyModel::semiclassical_count(const std::uint64_t                           r,
                                   const std::pair<double, std::vector<double>> &volumes) const
   {
-    // In solver units: a density per unit volume does not depend on the
-    // energy unit. Each cell weighs with the volume of the domain that carries
-    // its value (all alike in a box, the mesh's share otherwise).
-    const auto &[volume, cell_volumes]         = volumes;
-    const std::vector<double> energies_solver = solver_energies();
-    const std::vector<double> q               = solver_cell_values(r);
-    std::vector<double>       counts(energies_solver.size(), 0.0);
-    for (std::size_t i = 0; i < energies_solver.size(); ++i)
-      {
-        double sum = 0;
-        for (std::size_t n = 0; n < q.size(); ++n)
-          if (cell_volumes[n] > 0)
-            sum += cell_volumes[n] * free_ids_density(lattice_.dimension(), energies_solver[i] - q[n]);
-        counts[i] = sum / volume;
-      }
-    return counts;
+    return phase_space_count(solver_cell_values(r), solver_energies(), lattice_.dimension(), volumes);
   }
 
   StoredStudy StudyModel::describe_stored(const std::string &directory,
@@ -164,32 +271,68 @@ namespace alloyspec
     const auto volumes = domain_volumes();
     stored.input       = analysis_input(volumes.first);
     AnalysisInput &in  = stored.input;
-    in.parameters_text = parameters_prm;
+    in.parameters_text  = parameters_prm;
+    in.source_directory = directory;
+    const std::vector<Boundary> &boundaries = spectrum_.boundaries;
 
     std::set<std::uint64_t> realisations;
-    for (auto &r : ResultsStore::read(directory))
-      if (r.realisation >= study_.first_realisation &&
+    StoredRecords read = read_stored_records(directory);
+    for (const auto &warning : read.warnings)
+      std::cerr << "alloyspec: warning: " << warning << '\n';
+    // A realisation counts only with every boundary condition stored: the
+    // last summary lines of a round can be lost to a crash, and averaging
+    // Dirichlet over more realisations than Neumann would skew the bracket.
+    std::map<std::uint64_t, std::size_t> boundaries_stored;
+    for (const auto &r : read.records)
+      ++boundaries_stored[r.realisation];
+    std::size_t incomplete = 0;
+    for (const auto &[r, n] : boundaries_stored)
+      incomplete += n != boundaries.size();
+    if (incomplete > 0)
+      std::cerr << "alloyspec: warning: " << directory << ": " << incomplete
+                << " realisation(s) lack a boundary condition (an interrupted run); they are "
+                   "left out of the tables until the study is resumed\n";
+    for (auto &r : read.records)
+      if (boundaries_stored[r.realisation] == boundaries.size() &&
+          r.realisation >= study_.first_realisation &&
           r.realisation < study_.first_realisation + study_.realisations &&
-          std::find_if(spectrum_.boundaries.begin(), spectrum_.boundaries.end(), [&](Boundary bc) {
+          std::find_if(boundaries.begin(), boundaries.end(), [&](Boundary bc) {
             return to_string(bc) == r.boundary;
-          }) != spectrum_.boundaries.end())
+          }) != boundaries.end())
         {
           realisations.insert(r.realisation);
           r.eigenvalues    = units_.to_user_energies(std::move(r.eigenvalues));
+          // Bounds are differences of energies: the same factor, no offset.
+          for (double &e : r.errors)
+            e = units_.to_user_energy(e) - units_.to_user_energy(0.0);
           r.complete_up_to = units_.to_user_energy(r.complete_up_to);
           r.potential_min  = units_.to_user_energy(r.potential_min);
           r.potential_max  = units_.to_user_energy(r.potential_max);
           in.records.push_back(std::move(r));
         }
+    if (realisations.empty())
+      throw InputError("study folder '" + directory + "' holds no complete record of realisations " +
+                       std::to_string(study_.first_realisation) + " to " +
+                       std::to_string(study_.first_realisation + study_.realisations - 1) +
+                       " (nothing to tabulate; resume the study to compute them)");
 
     // Phase-space (semiclassical) count of the same realisations; the cell
     // values are regenerated from the counter-based stream, not stored.
+    // Tilted sampling: drawn at the stored study's tilt, weighted like every
+    // other average (w = 1 when plain).
     stored.semiclassical_sum.assign(study_.energies.size(), 0.0);
+    PotentialModel potential = potential_;
+    if (sampling_.is_tilted())
+      potential.set_tilt(stored_tilt(directory));
+    const std::vector<double> energies = solver_energies();
     for (const std::uint64_t r : realisations)
       {
-        const std::vector<double> counts = semiclassical_count(r, volumes);
+        const std::vector<double> q_user = potential.cell_values(study_.seed, r);
+        const double              w      = std::exp(potential.log_weight(q_user));
+        const std::vector<double> counts =
+          phase_space_count(units_.to_solver_energies(q_user), energies, lattice_.dimension(), volumes);
         for (std::size_t i = 0; i < counts.size(); ++i)
-          stored.semiclassical_sum[i] += counts[i];
+          stored.semiclassical_sum[i] += w * counts[i];
       }
     return stored;
   }

@@ -1,6 +1,6 @@
 #include <alloyspec/app/study_settings.h>
 #include <alloyspec/core/errors.h>
-#include <alloyspec/analysis/spectrum_statistics.h>
+#include <alloyspec/model/energy_grid.h>
 
 #include <deal.II/base/parameter_handler.h>
 #include <deal.II/base/utilities.h>
@@ -48,9 +48,10 @@ namespace alloyspec
     prm.declare_entry("seed", "1", dealii::Patterns::Anything(),
                       "Seed of the counter-based random stream (0 to 2^64-1). The value of cell n "
                       "in realisation r depends only on (seed, r, n).");
-    prm.declare_entry("energies", "0:0.1:10", dealii::Patterns::Anything(),
-                      "Energy grid of the IDS table: 'start:step:stop' or a list 'E1, E2, ...' "
-                      "(ascending), in the energy unit of the study.");
+    prm.declare_entry("energies", "0 to 10 by 0.1", dealii::Patterns::Anything(),
+                      "Energy grid of the IDS table, in the energy unit of the study: a range "
+                      "'start to stop by step' (the stop is included when it lies on the grid), "
+                      "or an ascending list 'E1, E2, ...'.");
     prm.declare_entry("export eigenfunctions", "",
                       dealii::Patterns::List(dealii::Patterns::Integer(0, 100000), 0, 100),
                       "Indices (0 = lowest) of eigenfunctions to write as VTU files "
@@ -73,10 +74,12 @@ namespace alloyspec
     energies          = parse_energy_grid(energies_text, "study/energies");
     export_eigenfunctions.clear();
     for (const auto &x : dealii::Utilities::split_string_list(prm.get("export eigenfunctions")))
-      export_eigenfunctions.push_back(static_cast<unsigned int>(std::stoul(x)));
+      export_eigenfunctions.push_back(
+        static_cast<unsigned int>(parse_count(x, "study/export eigenfunctions", 0, 100000)));
     export_realisations.clear();
     for (const auto &x : dealii::Utilities::split_string_list(prm.get("export realisations")))
-      export_realisations.push_back(std::stoull(x));
+      export_realisations.push_back(
+        parse_count(x, "study/export realisations", 0, max_realisations - 1));
     prm.leave_subsection();
   }
 } // namespace alloyspec

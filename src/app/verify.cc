@@ -1,5 +1,6 @@
 #include <alloyspec/fe/discretisation.h>
 #include <alloyspec/solver/eigen_solver.h>
+#include <alloyspec/solver/inertia_counter.h>
 #include <alloyspec/solver/error_estimate.h>
 #include <alloyspec/model/exact_1d.h>
 #include <alloyspec/model/lattice.h>
@@ -142,7 +143,7 @@ namespace alloyspec
           {
             const double E = 0.5 * (exact[i] + exact[i - 1]);
             ++tried;
-            if (EigenSolver::count_below(*s.problem, E) == free_box_count(extents, bc, E))
+            if (InertiaCounter::fresh_count_below(*s.problem, E) == free_box_count(extents, bc, E))
               ++agree;
           }
       out.push_back({"free box " + to_string(bc) + ": counts #{lambda < E} by inertia",
@@ -246,7 +247,7 @@ namespace alloyspec
       std::vector<double> ratios;
       for (const double E : energies)
         {
-          const double count = double(EigenSolver::count_below(*problem, E));
+          const double count = double(InertiaCounter::fresh_count_below(*problem, E));
           const double sc    = semiclassical_ids(2, q, E) * lattice.volume();
           ratios.push_back(count / sc);
           value += " " + format("%g", E) + ": " + format("%.4f", ratios.back()) + ";";
@@ -316,7 +317,7 @@ namespace alloyspec
                                                                            Eigen::EigenvaluesOnly);
           std::vector<double> genuine;
           for (Eigen::Index i = 0; i < reference.eigenvalues().size(); ++i)
-            if (reference.eigenvalues()(i) < 0.5 * s.problem->spurious_eigenvalue)
+            if (reference.eigenvalues()(i) < s.problem->spurious_threshold())
               genuine.push_back(reference.eigenvalues()(i));
           for (std::size_t i = 0; i < s.result.eigenvalues.size(); ++i)
             worst = i < genuine.size() ?
@@ -324,7 +325,7 @@ namespace alloyspec
                                         std::max(1.0, std::abs(genuine[i]))) :
                       INFINITY;
           for (const double E : {1.0, 5.0, 12.0, 30.0})
-            if (EigenSolver::count_below(*s.problem, E) !=
+            if (InertiaCounter::fresh_count_below(*s.problem, E) !=
                 std::size_t(std::count_if(genuine.begin(), genuine.end(),
                                           [E](double x) { return x < E; })))
               ++inertia_bad;

@@ -31,16 +31,41 @@ namespace alloyspec
 
   void Progress::update(std::size_t done)
   {
+    done_ = done;
+    phase_.clear();
+    print();
+  }
+
+  void Progress::phase(const std::string &what)
+  {
+    phase_ = what;
+    print();
+  }
+
+  void Progress::print()
+  {
     if (!enabled_)
       return;
     const double elapsed =
       std::chrono::duration<double>(std::chrono::steady_clock::now() - start_).count();
-    const double rate = elapsed > 0 ? done / elapsed : 0.0;
-    std::string  left = "estimating time left";
-    if (done > 0 && rate > 0)
-      left = "about " + format_duration((total_ - done) / rate) + " left";
-    std::fprintf(stderr, "\r%s: %zu/%zu done, %.3g per s, %s   ", label_.c_str(), done, total_,
-                 rate, left.c_str());
+    std::string line = label_ + ": " + std::to_string(done_) + "/" + std::to_string(total_) +
+                       " done, " + format_duration(elapsed) + " elapsed";
+    if (done_ > 0 && elapsed > 0)
+      {
+        // Slow items read better as time per item than as a small rate.
+        const double per_item = elapsed / double(done_);
+        char         rate[64];
+        if (per_item >= 1.0)
+          std::snprintf(rate, sizeof rate, ", %s each", format_duration(per_item).c_str());
+        else
+          std::snprintf(rate, sizeof rate, ", %.3g per s", 1.0 / per_item);
+        line += rate;
+        if (done_ < total_)
+          line += ", about " + format_duration(per_item * double(total_ - done_)) + " left";
+      }
+    if (!phase_.empty())
+      line += "; " + phase_;
+    std::fprintf(stderr, "\r%s\033[K", line.c_str());
     std::fflush(stderr);
     printed_ = true;
   }

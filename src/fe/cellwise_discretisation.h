@@ -30,6 +30,7 @@
 #include <algorithm>
 #include <array>
 #include <cmath>
+#include <filesystem>
 #include <fstream>
 #include <limits>
 
@@ -135,6 +136,7 @@ namespace alloyspec::internal
         q_min = std::min(q_min, cell_values[c]), q_max = std::max(q_max, cell_values[c]);
       problem.lower_bound         = q_min;
       problem.spurious_eigenvalue = spurious_eigenvalue(q_max);
+      problem.upper_bound         = element_bound_ + q_max;
 
       MatCopy(stiffness_, problem.K, SAME_NONZERO_PATTERN);
       const unsigned int         dofs_per_cell = fe_.n_dofs_per_cell();
@@ -327,6 +329,59 @@ namespace alloyspec::internal
         }
     }
 
+    std::vector<std::array<double, 3>> slice_values(const std::vector<double> &u) const override
+    {
+      std::vector<std::array<double, 3>> samples;
+      const dealii::Vector<double>       full = full_vector(u);
+      const unsigned int                 m    = fe_.degree + 2; // points per direction and element
+      double z_low = std::numeric_limits<double>::infinity(), z_high = -z_low;
+      if constexpr (dim == 3)
+        for (const auto &v : triangulation_.get_vertices())
+          z_low = std::min(z_low, v[2]), z_high = std::max(z_high, v[2]);
+      const double z_mid = 0.5 * (z_low + z_high);
+      for (const auto &cell : dof_handler_.active_cell_iterators())
+        {
+          double t = 0; // local z of the plane in this element
+          if constexpr (dim == 3)
+            {
+              double lo = std::numeric_limits<double>::infinity(), hi = -lo;
+              for (unsigned int v = 0; v < cell->n_vertices(); ++v)
+                lo = std::min(lo, cell->vertex(v)[2]), hi = std::max(hi, cell->vertex(v)[2]);
+              // Half-open, so that a plane on a face is sampled once (from above).
+              if (!(z_mid >= lo && z_mid < hi))
+                continue;
+              t = (z_mid - lo) / (hi - lo);
+            }
+          std::vector<dealii::Point<dim>> unit;
+          for (unsigned int i = 0; i < m; ++i)
+            for (unsigned int j = 0; j < (dim > 1 ? m : 1u); ++j)
+              {
+                dealii::Point<dim> p;
+                p[0] = (i + 0.5) / m;
+                if constexpr (dim > 1)
+                  p[1] = (j + 0.5) / m;
+                if constexpr (dim > 2)
+                  p[2] = t;
+                unit.push_back(p);
+              }
+          const dealii::Quadrature<dim> points(unit);
+          dealii::FEValues<dim>         fe_values(fe_, points,
+                                          dealii::update_values | dealii::update_quadrature_points);
+          fe_values.reinit(cell);
+          std::vector<double> values(unit.size());
+          fe_values.get_function_values(full, values);
+          for (unsigned int q = 0; q < unit.size(); ++q)
+            {
+              const auto &x      = fe_values.quadrature_point(q);
+              double      second = 0.0;
+              if constexpr (dim > 1)
+                second = x[1];
+              samples.push_back({x[0], second, values[q]});
+            }
+        }
+      return samples;
+    }
+
     void write_vtu(const std::string &path, const std::vector<double> &cell_values,
                    const std::vector<std::string> &names,
                    const std::vector<std::vector<double>> &fields) const override
@@ -344,9 +399,17 @@ namespace alloyspec::internal
         potential[e] = cell_values[element_cell_[e]];
       data_out.add_data_vector(potential, "potential", dealii::DataOut<dim>::type_cell_data);
       data_out.build_patches(fe_.degree);
-      std::ofstream out(path);
-      AssertThrow(out, dealii::ExcMessage("cannot write " + path));
-      data_out.write_vtu(out);
+      // Written under a temporary name, then renamed: a crash never leaves a
+      // half-written file under the real name.
+      const std::string partial = path + ".partial";
+      {
+        std::ofstream out(partial);
+        AssertThrow(out, dealii::ExcMessage("cannot write " + partial));
+        data_out.write_vtu(out);
+        out.close();
+        AssertThrow(out, dealii::ExcMessage("cannot write " + partial));
+      }
+      std::filesystem::rename(partial, path);
     }
 
   protected:

@@ -1,5 +1,7 @@
 #include <alloyspec/core/errors.h>
+#include <alloyspec/io/record_reader.h>
 #include <alloyspec/io/results_store.h>
+#include <alloyspec/core/format.h>
 
 #include <cerrno>
 #include <cmath>
@@ -19,19 +21,22 @@ namespace alloyspec
 {
   namespace
   {
-    std::string full_precision(double x)
-    {
-      char buffer[40];
-      std::snprintf(buffer, sizeof buffer, "%.17g", x);
-      return buffer;
-    }
+    /**
+     * A failed write into the output folder (a full disk, a folder made
+     * read-only, a file replaced by a folder) is the user's to fix; the stored
+     * records stay readable, so a resume continues from them.
+     */
+    const char *const write_advice =
+      " (make room or fix the folder, then continue with --resume; every complete record "
+      "stored so far is kept)";
 
     /** Appends @p text to @p path and forces it to disk before returning. */
     void append_durably(const std::string &path, const std::string &header, const std::string &text)
     {
       const int fd = ::open(path.c_str(), O_RDWR | O_CREAT | O_APPEND, 0644);
       if (fd < 0)
-        throw std::runtime_error("cannot open " + path + " for appending: " + std::strerror(errno));
+        throw InputError("output folder: cannot open '" + path + "' for appending: " +
+                         std::strerror(errno) + write_advice);
       std::string data;
       const off_t size = ::lseek(fd, 0, SEEK_END);
       if (size == 0)
@@ -53,35 +58,23 @@ namespace alloyspec
             {
               if (errno == EINTR)
                 continue;
+              const int error = errno;
               ::close(fd);
-              throw std::runtime_error("cannot write " + path + ": " + std::strerror(errno));
+              throw InputError("output folder: cannot write '" + path + "': " +
+                               std::strerror(error) + write_advice);
             }
           written += static_cast<std::size_t>(n);
         }
-      ::fsync(fd);
+      if (::fsync(fd) != 0)
+        {
+          const int error = errno;
+          ::close(fd);
+          throw InputError("output folder: cannot write '" + path + "' to disk: " +
+                           std::strerror(error) + write_advice);
+        }
       ::close(fd);
     }
 
-    std::vector<std::string> split(const std::string &line, char separator)
-    {
-      std::vector<std::string> fields;
-      std::string              field;
-      std::istringstream       in(line);
-      while (std::getline(in, field, separator))
-        fields.push_back(field);
-      if (!line.empty() && line.back() == separator)
-        fields.emplace_back();
-      return fields;
-    }
-
-    bool parse_double(const std::string &text, double &value)
-    {
-      if (text.empty())
-        return false;
-      char *end = nullptr;
-      value     = std::strtod(text.c_str(), &end);
-      return end == text.c_str() + text.size();
-    }
   } // namespace
 
   std::string RealisationRecord::eigenvalue_lines() const
@@ -90,10 +83,10 @@ namespace alloyspec
     for (std::size_t i = 0; i < eigenvalues.size(); ++i)
       {
         out += std::to_string(realisation) + "," + boundary + "," + std::to_string(i) + "," +
-               full_precision(eigenvalues[i]) + "," + full_precision(residuals[i]) + "," +
-               (i < errors.size() ? full_precision(errors[i]) : std::string("nan")) + "," +
-               (i < inverse_participation_ratios.size() ? full_precision(inverse_participation_ratios[i]) : std::string("nan")) + "," +
-               (i < central_weights.size() ? full_precision(central_weights[i]) : std::string("nan")) + "\n";
+               csv_number(eigenvalues[i]) + "," + csv_number(residuals[i]) + "," +
+               (i < errors.size() ? csv_number(errors[i]) : std::string("nan")) + "," +
+               (i < inverse_participation_ratios.size() ? csv_number(inverse_participation_ratios[i]) : std::string("nan")) + "," +
+               (i < central_weights.size() ? csv_number(central_weights[i]) : std::string("nan")) + "\n";
       }
     return out;
   }
@@ -101,9 +94,10 @@ namespace alloyspec
   std::string RealisationRecord::summary_line() const
   {
     return std::to_string(realisation) + "," + boundary + "," + std::to_string(eigenvalues.size()) +
-           "," + full_precision(complete_up_to) + "," + std::to_string(inertia_count) + "," +
-           full_precision(potential_min) + "," + full_precision(potential_max) + "," +
-           full_precision(solve_seconds) + "," + std::to_string(attempts) + "\n";
+           "," + csv_number(complete_up_to) + "," + std::to_string(inertia_count) + "," +
+           csv_number(potential_min) + "," + csv_number(potential_max) + "," +
+           csv_number(solve_seconds) + "," + std::to_string(attempts) + "," +
+           csv_number(log_weight) + "\n";
   }
 
   ResultsStore::ResultsStore(std::string directory, bool resume)
@@ -115,17 +109,83 @@ namespace alloyspec
       throw InputError("option '--output': '" + directory_ +
                        "' exists and is not a folder (allowed: a new or empty folder, or an "
                        "earlier study's folder with --resume)");
-    const bool has_results = fs::exists(path("realisations.csv"), error) ||
-                             fs::exists(path("eigenvalues.csv"), error) ||
-                             fs::exists(path("run.json"), error);
-    if (has_results && !resume)
-      throw InputError("option '--output': folder '" + directory_ +
-                       "' already holds the results of an earlier study; nothing was changed. "
-                       "Choose a new folder, or add --resume to continue that study");
+    if (!resume)
+      refuse_earlier_study();
+    created_ = !fs::exists(directory_, error);
     fs::create_directories(directory_, error);
     if (error)
       throw InputError("option '--output': cannot create folder '" + directory_ +
                        "': " + error.message());
+  }
+
+  std::string ResultsStore::stored_parameters_path(const std::string &directory)
+  {
+    std::error_code error;
+    for (const char *name : {parameters_file, legacy_parameters_file})
+      if (const auto file = std::filesystem::path(directory) / name;
+          std::filesystem::is_regular_file(file, error))
+        return file.string();
+    return {};
+  }
+
+  ResultsStore ResultsStore::attach(std::string directory)
+  {
+    ResultsStore store;
+    store.directory_ = std::move(directory);
+    return store;
+  }
+
+  bool ResultsStore::holds_records(const std::string &directory)
+  {
+    std::error_code error;
+    namespace fs = std::filesystem;
+    return fs::exists(fs::path(directory) / "realisations.csv", error) ||
+           fs::exists(fs::path(directory) / "eigenvalues.csv", error);
+  }
+
+  std::string ResultsStore::read_stored_parameters(const std::string &directory)
+  {
+    namespace fs = std::filesystem;
+    // Folders written by earlier versions hold the legacy name.
+    const std::string file = stored_parameters_path(directory);
+    std::error_code   error;
+    if (file.empty())
+      throw InputError("study folder '" + directory + "': the stored parameter file '" +
+                       (fs::path(directory) / parameters_file).string() +
+                       "' is missing, so the model of the stored records is unknown (restore "
+                       "the file, or run the study again into a new folder)");
+    if (!fs::is_regular_file(file, error))
+      throw InputError("study folder '" + directory + "': '" + file + "' is not a file");
+    std::ifstream in(file, std::ios::binary);
+    std::ostringstream text;
+    if (in)
+      text << in.rdbuf();
+    if (!in || in.bad())
+      throw InputError("study folder '" + directory + "': cannot read '" + file + "'");
+    bool any_entry = false;
+    std::istringstream lines(text.str());
+    for (std::string line; std::getline(lines, line);)
+      {
+        const auto first = line.find_first_not_of(" \t\r");
+        any_entry = any_entry || (first != std::string::npos && line.compare(first, 4, "set ") == 0);
+      }
+    if (!any_entry)
+      throw InputError("study folder '" + directory + "': the stored parameter file '" + file +
+                       "' holds no parameters (it is empty or damaged), so the model of the "
+                       "stored records is unknown (restore the file, or run the study again "
+                       "into a new folder)");
+    return text.str();
+  }
+
+  void ResultsStore::refuse_earlier_study() const
+  {
+    std::error_code error;
+    namespace fs = std::filesystem;
+    if (fs::exists(path("realisations.csv"), error) || fs::exists(path("eigenvalues.csv"), error) ||
+        fs::exists(path("run.json"), error))
+      throw InputError("option '--output': folder '" + directory_ +
+                       "' already holds the results of an earlier study; nothing was changed. "
+                       "Choose a new folder, or add --resume to continue that study");
   }
 
   std::string ResultsStore::path(const std::string &file) const
@@ -156,118 +216,60 @@ namespace alloyspec
   {
     const std::string target    = (std::filesystem::path(directory) / file).string();
     const std::string temporary = target + ".partial";
-    {
-      std::ofstream out(temporary, std::ios::binary | std::ios::trunc);
-      if (!out)
-        throw std::runtime_error("cannot write " + temporary);
-      out << content;
-      out.flush();
-      if (!out)
-        throw std::runtime_error("cannot write " + temporary);
-    }
-    const int fd = ::open(temporary.c_str(), O_RDONLY);
-    if (fd >= 0)
+    auto fail = [&](const std::string &what, int error) {
+      ::unlink(temporary.c_str());
+      throw InputError("output folder: cannot write '" + what + "': " + std::strerror(error) +
+                       " (make room or fix the folder's permissions; files written before are "
+                       "unchanged)");
+    };
+    const int fd = ::open(temporary.c_str(), O_WRONLY | O_CREAT | O_TRUNC | O_CLOEXEC, 0644);
+    if (fd < 0)
+      fail(temporary, errno);
+    std::size_t written = 0;
+    while (written < content.size())
       {
-        ::fsync(fd);
-        ::close(fd);
+        const ssize_t n = ::write(fd, content.data() + written, content.size() - written);
+        if (n < 0 && errno == EINTR)
+          continue;
+        if (n < 0)
+          {
+            const int error = errno;
+            ::close(fd);
+            fail(temporary, error);
+          }
+        written += static_cast<std::size_t>(n);
       }
-    std::filesystem::rename(temporary, target);
+    if (::fsync(fd) != 0)
+      {
+        const int error = errno;
+        ::close(fd);
+        fail(temporary, error);
+      }
+    ::close(fd);
+    if (::rename(temporary.c_str(), target.c_str()) != 0)
+      fail(target, errno);
   }
 
-  std::vector<RealisationRecord> ResultsStore::read(const std::string &directory)
+  std::vector<std::string> ResultsStore::prepare_resume() const
   {
-    namespace fs = std::filesystem;
-    using Key    = std::pair<std::uint64_t, std::string>;
-    std::map<Key, RealisationRecord> records;
-    std::map<Key, std::size_t>       expected;
-    std::vector<Key>                 order;
-
-    std::ifstream summary(fs::path(directory) / "realisations.csv");
-    std::string   line;
-    std::getline(summary, line); // header
-    while (std::getline(summary, line))
+    StoredRecords stored = read_stored_records(directory_);
+    // Cut the remains of an interrupted write, so that the next record
+    // follows the last complete one directly (the reader accepts remains only
+    // at the end of a file).
+    for (const auto &[file, bytes] : {std::pair<const char *, std::uint64_t>{"eigenvalues.csv",
+                                                                             stored.eigenvalue_bytes},
+                                      {"realisations.csv", stored.summary_bytes}})
       {
-        if (summary.eof())
-          break; // no newline: a torn last line from a crash
-        const auto f = split(line, ',');
-        if (f.size() != 9)
+        const std::string p = path(file);
+        std::error_code   error;
+        if (!std::filesystem::exists(p, error))
           continue;
-        RealisationRecord r;
-        double            values[7];
-        bool              ok = true;
-        const int         numeric[] = {0, 2, 3, 4, 5, 6, 7};
-        for (int i = 0; i < 7; ++i)
-          ok = ok && parse_double(f[numeric[i]], values[i]);
-        double attempts = 0;
-        // The last field too: a line torn just after its last comma has all fields.
-        if (!ok || !parse_double(f[8], attempts))
+        if (std::filesystem::file_size(p, error) == bytes)
           continue;
-        r.realisation    = static_cast<std::uint64_t>(values[0]);
-        r.boundary       = f[1];
-        r.complete_up_to = values[2];
-        r.inertia_count  = static_cast<std::uint64_t>(values[3]);
-        r.potential_min  = values[4];
-        r.potential_max  = values[5];
-        r.solve_seconds  = values[6];
-        r.attempts       = static_cast<unsigned int>(std::atoi(f[8].c_str()));
-        const Key key{r.realisation, r.boundary};
-        expected[key] = static_cast<std::size_t>(values[1]);
-        if (records.emplace(key, std::move(r)).second)
-          order.push_back(key);
+        if (::truncate(p.c_str(), static_cast<off_t>(bytes)) != 0)
+          throw InputError("option '--resume': cannot cut the remains of an interrupted write "
+                           "from '" + p + "': " + std::strerror(errno));
       }
-
-    std::ifstream eigen(fs::path(directory) / "eigenvalues.csv");
-    std::getline(eigen, line);
-    while (std::getline(eigen, line))
-      {
-        if (eigen.eof())
-          break;
-        const auto f = split(line, ',');
-        // 8 fields; older folders have 7 (no central weight) or 6 (no error either).
-        if (f.size() < 6 || f.size() > 8)
-          continue;
-        const std::size_t ipr_field = f.size() == 8 ? 6 : f.size() - 1;
-        double realisation = 0, index = 0, value = 0, residual = 0, ipr = 0, error = 0, weight = 0;
-        if (!parse_double(f[0], realisation) || !parse_double(f[2], index) ||
-            !parse_double(f[3], value) || !parse_double(f[4], residual))
-          continue;
-        if (!parse_double(f[ipr_field], ipr))
-          ipr = std::nan("");
-        if (f.size() < 7 || !parse_double(f[5], error))
-          error = std::nan("");
-        if (f.size() != 8 || !parse_double(f[7], weight))
-          weight = std::nan("");
-        const auto it = records.find(Key{static_cast<std::uint64_t>(realisation), f[1]});
-        if (it == records.end())
-          continue; // eigenvalues of a realisation whose summary never made it to disk
-        auto &r = it->second;
-        if (static_cast<std::size_t>(index) != r.eigenvalues.size())
-          {
-            // A realisation written twice (an interrupted attempt, then a
-            // resumed one): keep the last complete run of indices.
-            if (index == 0)
-              {
-                r.eigenvalues.clear();
-                r.residuals.clear();
-                r.inverse_participation_ratios.clear();
-                r.errors.clear();
-                r.central_weights.clear();
-              }
-            else
-              continue;
-          }
-        r.eigenvalues.push_back(value);
-        r.residuals.push_back(residual);
-        r.inverse_participation_ratios.push_back(ipr);
-        r.errors.push_back(error);
-        r.central_weights.push_back(weight);
-      }
-
-    std::vector<RealisationRecord> result;
-    result.reserve(order.size());
-    for (const auto &key : order)
-      if (records[key].eigenvalues.size() == expected[key])
-        result.push_back(std::move(records[key]));
-    return result;
+    return stored.warnings;
   }
 } // namespace alloyspec

@@ -51,12 +51,14 @@ namespace alloyspec
               << " (2^31) are allowed";
           throw InputError(msg.str());
         }
-      // Written as !(a > 0) so that NaN is rejected as well.
-      if (!(cell_size > 0.0) || !std::isfinite(cell_size))
+      // Written as !(a >= min) so that NaN is rejected as well.
+      if (!(cell_size >= min_cell_size && cell_size <= max_cell_size))
         {
           std::ostringstream msg;
-          msg << "lattice/cell size: " << cell_size
-              << " is not allowed, it must be a finite number > 0";
+          msg << "lattice/cell size: " << cell_size << " is not allowed (allowed: " << min_cell_size
+              << " to " << max_cell_size
+              << "; the kinetic energy of a cell, 1/a^2 in solver units, must stay within the "
+                 "range the double-precision factorisations resolve)";
           throw InputError(msg.str());
         }
     }
@@ -86,16 +88,19 @@ namespace alloyspec
     prm.declare_entry("cell size",
                       "1",
                       Double(0),
-                      "Edge length a > 0 of one unit cell, in the length unit of the study. "
-                      "In reduced units (hbar^2/2m = 1, lengths in cells) this is 1.");
+                      "Edge length a of one unit cell, in the length unit of the study "
+                      "(0.01 to 1000). In reduced units (hbar^2/2m = 1, lengths in cells) this "
+                      "is 1. The limits keep the cell's kinetic energy 1/a^2 (solver units) "
+                      "between 1e-6 and 1e4, inside the range of potential values.");
     prm.declare_entry("mesh file", "", dealii::Patterns::Anything(),
                       "Gmsh .msh file of the domain (quadrilaterals in 2D, hexahedra in 3D), in "
                       "the length unit of the study (nm in physical units), inside the box of "
                       "'cells' x 'cell size', which then only sets the grid of the cell "
                       "potential. Each element takes the value of the cell containing its "
                       "centre. The boundary conditions apply on the whole boundary of the mesh. "
-                      "Empty: the box itself. A relative path is taken from the parameter "
-                      "file's folder.");
+                      "Empty: the box itself. A relative path written in a parameter file is "
+                      "taken from that file's folder; one given with --set, from the working "
+                      "directory.");
     prm.declare_entry("mesh refinements", "0", dealii::Patterns::Anything(),
                       "Number of global refinements of the mesh read from 'mesh file' (0 to 4); "
                       "each halves the element size.");

@@ -245,7 +245,9 @@ namespace alloyspec
                       "Tabulated law: path of a text file with one point 'q h(q)' per line, q "
                       "strictly increasing, h(q) >= 0 (at least 2 points). The density is "
                       "linear between the points, zero outside, and is normalised to "
-                      "integral 1 here. Text after '#' and blank lines are ignored.");
+                      "integral 1 here. Text after '#' and blank lines are ignored. A relative "
+                      "path written in a parameter file is taken from that file's folder; one "
+                      "given with --set, from the working directory.");
     prm.declare_entry("values",
                       "0, 1",
                       List(Double(), 1, max_discrete_values),
@@ -258,8 +260,9 @@ namespace alloyspec
     prm.declare_entry("file",
                       "",
                       Anything(),
-                      "File law: path of the cell-values file (relative paths are relative "
-                      "to the working directory). One line per cell: the 0-based integer "
+                      "File law: path of the cell-values file. A relative path written in a "
+                      "parameter file is taken from that file's folder; one given with --set, "
+                      "from the working directory. One line per cell: the 0-based integer "
                       "cell indices (as many as the lattice has directions), then the "
                       "value. Text after '#' and blank lines are ignored; every cell must "
                       "appear exactly once.");
@@ -340,6 +343,8 @@ namespace alloyspec
     if (!law)
       throw std::invalid_argument("PotentialModel::set_law: null law");
     law_     = std::move(law);
+    tilted_law_.reset();
+    theta_ = log_moment_ = 0;
     n_cells_ = lattice.n_cells();
     fixed_values_.clear();
     fixed_source_.clear();
@@ -353,6 +358,8 @@ namespace alloyspec
                                   std::to_string(values.size()) + " values for " +
                                   std::to_string(lattice.n_cells()) + " cells");
     law_.reset();
+    tilted_law_.reset();
+    theta_ = log_moment_ = 0;
     fixed_values_ = std::move(values);
     n_cells_      = fixed_values_.size();
     fixed_source_ = "given values";
@@ -368,10 +375,44 @@ namespace alloyspec
           throw std::logic_error("PotentialModel::cell_values: no law and no values set");
         return fixed_values_;
       }
-    std::vector<double> q(n_cells_);
+    const SingleSiteLaw &law = *sampling_law();
+    std::vector<double>  q(n_cells_);
     for (std::size_t n = 0; n < n_cells_; ++n)
-      q[n] = law_->quantile(uniform_open01(seed, realisation, n));
+      q[n] = law.quantile(uniform_open01(seed, realisation, n));
     return q;
+  }
+
+
+  void PotentialModel::set_tilt(const double theta)
+  {
+    if (!law_)
+      throw InputError("sampling/method = tilted needs a random law; potential/law = file gives "
+                       "one fixed potential (use sampling/method = plain)");
+    tilted_law_.reset();
+    theta_ = log_moment_ = 0;
+    if (theta == 0.0)
+      return;
+    TiltedLaw tilted = law_->tilted(theta);
+    tilted_law_      = std::move(tilted.law);
+    theta_           = tilted.theta;
+    log_moment_      = tilted.log_moment;
+  }
+
+
+  double PotentialModel::log_weight(const std::vector<double> &q) const
+  {
+    if (!tilted_law_)
+      return 0.0;
+    // Neumaier's compensated sum of θ q_n + ln M over the cells.
+    double sum = 0, compensation = 0;
+    for (const double value : q)
+      {
+        const double term = theta_ * value + log_moment_;
+        const double t    = sum + term;
+        compensation += std::abs(sum) >= std::abs(term) ? (sum - t) + term : (term - t) + sum;
+        sum = t;
+      }
+    return sum + compensation;
   }
 
 

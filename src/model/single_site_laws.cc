@@ -1,7 +1,11 @@
-/** @file single_site_laws.cc  Laws of one cell value, and the special functions behind their quantiles. */
+/** @file single_site_laws.cc  Laws of one cell value; their special functions come from Boost.Math. */
 #include <alloyspec/core/text_input.h>
 #include <alloyspec/core/errors.h>
 #include <alloyspec/model/single_site_laws.h>
+#include <alloyspec/model/tilted_laws.h>
+
+#include <boost/math/distributions/normal.hpp>
+#include <boost/math/special_functions/beta.hpp>
 
 #include <algorithm>
 #include <cmath>
@@ -41,6 +45,15 @@ namespace alloyspec
         throw InputError(name + " = " + fmt(x) + " is not allowed, it must be a finite number");
     }
 
+    /** θ = 0: the law itself, with ln M = 0 exactly (so log w = 0 exactly). */
+    template <class Law>
+    TiltedLaw untilted_copy(const Law &law)
+    {
+      TiltedLaw result;
+      result.law = std::make_unique<Law>(law);
+      return result;
+    }
+
     /** Parses a whole token as a double; false if anything is left over. */
     bool parse_double(const std::string &token, double &value)
     {
@@ -54,190 +67,57 @@ namespace alloyspec
 
     // ------------------------------------------------------------ special functions
 
+    /**
+     * Boost.Math evaluates in double here rather than in long double (its
+     * default for double arguments): the beta-law sampling test took 5.4 s of
+     * CPU with long double and 1.05 s with double (measured), and double keeps
+     * the accuracy the tests ask for (tests/unit/model/test_special_functions.cc).
+     */
+    using DoublePolicy =
+      boost::math::policies::policy<boost::math::policies::promote_double<false>>;
+
+    /**
+     * x in (0, 1) with I_x(a, b) = p for p in (0, 1/2]. Boost.Math's ibeta_inv
+     * is taken when I_x reproduces p to 1e-10 relative. Boost 1.74 does not
+     * always deliver (measured: for a = 1/2 with b = 2 or 3 it gives up below
+     * p ≈ 1e-5), so otherwise x is found by bisection on t = ln x with Boost's
+     * ibeta: I is increasing in t, so the bracket [ln of the smallest positive
+     * double, 0] always holds the root, and 64 halvings of its width 745 leave
+     * less than 1e-16, a relative error in x at the level of rounding.
+     */
+    double lower_beta_quantile(const double a, const double b, const double p)
+    {
+      constexpr double accept_relative = 1e-10;
+      try
+        {
+          const double x = boost::math::ibeta_inv(a, b, p, DoublePolicy());
+          if (x > 0.0 && x < 1.0 &&
+              std::abs(boost::math::ibeta(a, b, x, DoublePolicy()) - p) <= accept_relative * p)
+            return x;
+        }
+      catch (const std::exception &)
+        {
+          // Boost gave up (evaluation or domain error inside its iteration).
+        }
+      double low = std::log(std::numeric_limits<double>::denorm_min()), high = 0.0;
+      for (int i = 0; i < 64; ++i)
+        {
+          const double middle = 0.5 * (low + high);
+          if (middle == low || middle == high)
+            break;
+          if (boost::math::ibeta(a, b, std::exp(middle), DoublePolicy()) < p)
+            low = middle;
+          else
+            high = middle;
+        }
+      return std::exp(0.5 * (low + high));
+    }
+
     /** Standard normal density. */
     double normal_density(const double x)
     {
       return std::exp(-0.5 * x * x) / std::sqrt(2.0 * pi);
     }
-
-    /**
-     * Φ^{-1}(p) for p in (0, 1/2]. Acklam's coefficients (see the header)
-     * give about nine digits; one Halley step x ← x − t/(1 + x t/2) with
-     * t = (Φ(x) − p)/φ(x) is cubically convergent and brings the error to
-     * rounding level. For p ≤ 1/2, Φ(x) = erfc(|x|/√2)/2 has full relative
-     * precision, so the step works down to the smallest p.
-     */
-    double lower_normal_quantile(const double p)
-    {
-      static constexpr double a[] = {-3.969683028665376e+01, 2.209460984245205e+02,
-                                     -2.759285104469687e+02, 1.383577518672690e+02,
-                                     -3.066479806614716e+01, 2.506628277459239e+00};
-      static constexpr double b[] = {-5.447609879822406e+01, 1.615858368580409e+02,
-                                     -1.556989798598866e+02, 6.680131188771972e+01,
-                                     -1.328068155288572e+01};
-      static constexpr double c[] = {-7.784894002430293e-03, -3.223964580411365e-01,
-                                     -2.400758277161838e+00, -2.549732539343734e+00,
-                                     4.374664141464968e+00,  2.938163982698783e+00};
-      static constexpr double d[] = {7.784695709041462e-03, 3.224671290700398e-01,
-                                     2.445134137142996e+00, 3.754408661907416e+00};
-      // Below this the tail form of the approximation is used (Acklam's split).
-      constexpr double p_tail = 0.02425;
-
-      double x;
-      if (p < p_tail)
-        {
-          const double q = std::sqrt(-2.0 * std::log(p));
-          x = (((((c[0] * q + c[1]) * q + c[2]) * q + c[3]) * q + c[4]) * q + c[5]) /
-              ((((d[0] * q + d[1]) * q + d[2]) * q + d[3]) * q + 1.0);
-        }
-      else
-        {
-          const double q = p - 0.5;
-          const double r = q * q;
-          x = (((((a[0] * r + a[1]) * r + a[2]) * r + a[3]) * r + a[4]) * r + a[5]) * q /
-              (((((b[0] * r + b[1]) * r + b[2]) * r + b[3]) * r + b[4]) * r + 1.0);
-        }
-      const double density = normal_density(x);
-      if (density > 0)
-        {
-          const double t = (standard_normal_cdf(x) - p) / density;
-          if (std::isfinite(t))
-            x -= t / (1.0 + 0.5 * x * t);
-        }
-      return x;
-    }
-
-
-    /**
-     * The continued fraction of I_x(a, b) (Numerical Recipes §6.4, "betacf"),
-     * evaluated with the modified Lentz method; converges fast for
-     * x < (a+1)/(a+b+2), in O(√max(a, b)) terms.
-     */
-    double beta_continued_fraction(const double a, const double b, const double x)
-    {
-      constexpr int    max_terms = 10000;
-      constexpr double eps       = std::numeric_limits<double>::epsilon();
-      // Lentz's guard against a zero denominator.
-      constexpr double tiny = 1e-300;
-      const double     qab = a + b, qap = a + 1.0, qam = a - 1.0;
-      double           c = 1.0;
-      double           d = 1.0 - qab * x / qap;
-      if (std::abs(d) < tiny)
-        d = tiny;
-      d        = 1.0 / d;
-      double h = d;
-      for (int m = 1; m <= max_terms; ++m)
-        {
-          const int m2 = 2 * m;
-          double    aa = m * (b - m) * x / ((qam + m2) * (a + m2));
-          d            = 1.0 + aa * d;
-          if (std::abs(d) < tiny)
-            d = tiny;
-          c = 1.0 + aa / c;
-          if (std::abs(c) < tiny)
-            c = tiny;
-          d = 1.0 / d;
-          h *= d * c;
-          aa = -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2));
-          d  = 1.0 + aa * d;
-          if (std::abs(d) < tiny)
-            d = tiny;
-          c = 1.0 + aa / c;
-          if (std::abs(c) < tiny)
-            c = tiny;
-          d                = 1.0 / d;
-          const double del = d * c;
-          h *= del;
-          if (std::abs(del - 1.0) <= eps)
-            return h;
-        }
-      throw std::runtime_error("incomplete beta function: continued fraction did not converge "
-                               "for a = " + fmt(a) + ", b = " + fmt(b) + ", x = " + fmt(x));
-    }
-
-    /** ln B(a, b); computed once per law because lgamma is not reentrant everywhere. */
-    double log_beta_function(const double a, const double b)
-    {
-      return std::lgamma(a) + std::lgamma(b) - std::lgamma(a + b);
-    }
-
-    /**
-     * ln I_x(a, b) for x in (0, 1). In the lower tail this is ln of the
-     * continued-fraction form itself, so tiny values keep full relative
-     * precision.
-     */
-    double log_incomplete_beta_ratio(const double a, const double b, const double log_beta,
-                                     const double x)
-    {
-      const double log_front = a * std::log(x) + b * std::log1p(-x) - log_beta;
-      if (x < (a + 1.0) / (a + b + 2.0))
-        return log_front + std::log(beta_continued_fraction(a, b, x) / a);
-      return std::log1p(-std::exp(log_front) * beta_continued_fraction(b, a, 1.0 - x) / b);
-    }
-
-    /**
-     * x with I_x(a, b) = p for p in (0, 1/2]. Newton on
-     * g(t) = ln I_{e^t} − ln p, g'(t) = x f(x)/I_x, inside a bracket that each
-     * evaluation shrinks; a step that leaves the bracket is replaced by
-     * bisection, so the iteration cannot fail.
-     */
-    double lower_beta_quantile(const double a, const double b, const double log_beta,
-                               const double p)
-    {
-      // e^{-700} ≈ 1e-304: below every quantile reachable with u ≥ 2^-53 for
-      // shapes ≥ 0.1; smaller p return this floor.
-      constexpr double t_floor = -700.0;
-      // Newton converges quadratically: a step this small leaves an error far
-      // below it, i.e. a relative error in x well under 1e-13.
-      constexpr double step_tolerance = 1e-14;
-      constexpr int    max_iterations = 300;
-
-      const double log_p = std::log(p);
-      double       t_lo = t_floor, t_hi = 0.0;
-      // Lower-tail start: I_x ≈ x^a / (a B(a, b)).
-      double t = (log_p + std::log(a) + log_beta) / a;
-      if (!(t < t_hi))
-        t = std::log(a / (a + b)); // the log of the mean
-      t = std::max(t, t_lo);
-      for (int iteration = 0; iteration < max_iterations; ++iteration)
-        {
-          const double x     = std::exp(t);
-          const double log_i = log_incomplete_beta_ratio(a, b, log_beta, x);
-          const double g     = log_i - log_p;
-          if (g == 0.0)
-            return x;
-          if (g < 0.0)
-            t_lo = t;
-          else
-            t_hi = t;
-          const double slope =
-            std::exp(a * t + (b - 1.0) * std::log1p(-x) - log_beta - log_i);
-          double t_new = t - g / slope;
-          // Written so that a NaN step also falls back to bisection.
-          if (!(t_new > t_lo && t_new < t_hi))
-            t_new = 0.5 * (t_lo + t_hi);
-          if (std::abs(t_new - t) < step_tolerance || t_hi - t_lo < step_tolerance)
-            return std::exp(t_new);
-          t = t_new;
-        }
-      throw std::runtime_error("beta quantile did not converge for a = " + fmt(a) +
-                               ", b = " + fmt(b) + ", p = " + fmt(p));
-    }
-
-    /** beta_quantile() with ln B(a, b) precomputed. */
-    double beta_quantile_with(const double a, const double b, const double log_beta,
-                              const double u)
-    {
-      if (!(u > 0.0))
-        return 0.0;
-      if (!(u < 1.0))
-        return 1.0;
-      if (u <= 0.5)
-        return lower_beta_quantile(a, b, log_beta, u);
-      // 1 − u is exact for u ≥ 1/2 (Sterbenz).
-      return 1.0 - lower_beta_quantile(b, a, log_beta, 1.0 - u);
-    }
-
 
     // --------------------------------------------------------------------- laws
 
@@ -257,6 +137,10 @@ namespace alloyspec
       std::string description() const override
       {
         return "uniform on [" + fmt(a_) + ", " + fmt(b_) + "]";
+      }
+      TiltedLaw tilted(const double theta) const override
+      {
+        return make_tilted_uniform_law(a_, b_, theta);
       }
 
     private:
@@ -326,6 +210,37 @@ namespace alloyspec
       double      support_min() const override { return support_min_; }
       double      support_max() const override { return support_max_; }
       std::string description() const override { return description_; }
+
+      /**
+       * Closed form: @f$p_i^\theta = p_i e^{-\theta v_i}/M@f$,
+       * @f$\ln M = \ln\sum_i e^{\ln p_i - \theta v_i}@f$ (summed in log form,
+       * so no term overflows).
+       */
+      TiltedLaw tilted(const double theta) const override
+      {
+        if (theta == 0.0)
+          return untilted_copy(*this);
+        std::vector<double> log_terms(values_.size());
+        double              log_moment = -infinity;
+        for (std::size_t i = 0; i < values_.size(); ++i)
+          {
+            log_terms[i] = probabilities_[i] > 0 ? std::log(probabilities_[i]) - theta * values_[i]
+                                                 : -infinity;
+            log_moment   = log_add_exp(log_moment, log_terms[i]);
+          }
+        if (!std::isfinite(log_moment))
+          throw InputError("sampling/tilt = " + fmt(theta) + " is too strong for the law " +
+                           description_ + "; choose a smaller |tilt|");
+        std::vector<std::pair<double, double>> tilted_pairs;
+        for (std::size_t i = 0; i < values_.size(); ++i)
+          tilted_pairs.emplace_back(values_[i], std::exp(log_terms[i] - log_moment));
+        TiltedLaw result;
+        result.theta      = theta;
+        result.log_moment = log_moment;
+        result.law        = std::make_unique<DiscreteLaw>(std::move(tilted_pairs),
+                                                   description_ + ", tilted by " + fmt(theta));
+        return result;
+      }
 
     private:
       std::vector<double> values_, probabilities_, cumulative_;
@@ -400,6 +315,41 @@ namespace alloyspec
         return text;
       }
 
+      /**
+       * Closed form: @f$e^{-\theta q}\varphi((q-\mu)/\sigma)@f$ is a normal
+       * density with mean @f$\mu - \theta\sigma^2@f$, so the tilted law is the
+       * shifted normal (cut to the same [a, b] if truncated), and
+       * @f$\ln M = -\theta\mu + \theta^2\sigma^2/2 + \ln(Z_\theta/Z)@f$ with Z,
+       * Z_θ the masses of [a, b] under the two normals (1 untruncated).
+       */
+      TiltedLaw tilted(const double theta) const override
+      {
+        if (theta == 0.0)
+          return untilted_copy(*this);
+        const double shifted = mu_ - theta * sigma_ * sigma_;
+        TiltedLaw    result;
+        result.theta      = theta;
+        result.log_moment = -theta * mu_ + 0.5 * theta * theta * sigma_ * sigma_;
+        if (!std::isfinite(shifted) || !std::isfinite(result.log_moment))
+          throw InputError("sampling/tilt = " + fmt(theta) + " is too strong for the law " +
+                           description());
+        if (!truncated_)
+          {
+            result.law = std::make_unique<GaussianLaw>(shifted, sigma_);
+            return result;
+          }
+        const double reach = max_truncation_distance * sigma_;
+        if (!(a_ < shifted + reach) || !(b_ > shifted - reach))
+          throw InputError("sampling/tilt = " + fmt(theta) + " moves the mean of the " +
+                           "truncated gaussian law to " + fmt(shifted) + ", more than " +
+                           fmt(max_truncation_distance) + " standard deviations from [" +
+                           fmt(a_) + ", " + fmt(b_) + "]; choose a smaller |tilt|");
+        auto law = std::make_unique<GaussianLaw>(shifted, sigma_, a_, b_);
+        result.log_moment += std::log(law->mass_) - std::log(mass_);
+        result.law = std::move(law);
+        return result;
+      }
+
     private:
       double mu_, sigma_, a_, b_;
       bool   truncated_ = false;
@@ -419,16 +369,15 @@ namespace alloyspec
         , beta_(beta)
         , a_(a)
         , b_(b)
-        , log_beta_(log_beta_function(alpha, beta))
       {}
       double quantile(const double u) const override
       {
         // Measured from the nearer end, so that values close to either end
         // keep their distance to it to full relative precision.
         if (!(u > 0.5))
-          return std::clamp(a_ + (b_ - a_) * beta_quantile_with(alpha_, beta_, log_beta_, u),
-                            a_, b_);
-        const double y = beta_quantile_with(beta_, alpha_, log_beta_, 1.0 - u);
+          return std::clamp(a_ + (b_ - a_) * beta_quantile(alpha_, beta_, u), a_, b_);
+        // 1 − u is exact for u ≥ 1/2 (Sterbenz).
+        const double y = beta_quantile(beta_, alpha_, 1.0 - u);
         return std::clamp(b_ - (b_ - a_) * y, a_, b_);
       }
       double mean() const override { return a_ + (b_ - a_) * alpha_ / (alpha_ + beta_); }
@@ -444,9 +393,17 @@ namespace alloyspec
         return "beta: shapes " + fmt(alpha_) + " (at minimum) and " + fmt(beta_) +
                " (at maximum) on [" + fmt(a_) + ", " + fmt(b_) + "]";
       }
+      /** No closed-form quantile: tilted through its own quantile by quadrature. */
+      TiltedLaw tilted(const double theta) const override
+      {
+        if (theta == 0.0)
+          return untilted_copy(*this);
+        return make_tilted_law_by_quadrature([law = *this](const double s) { return law.quantile(s); },
+                                             a_, b_, theta, description());
+      }
 
     private:
-      double alpha_, beta_, a_, b_, log_beta_;
+      double alpha_, beta_, a_, b_;
     };
 
 
@@ -519,6 +476,15 @@ namespace alloyspec
       {
         return "tabulated density from " + source_ + " (" + std::to_string(q_.size()) +
                " points, support [" + fmt(support_min()) + ", " + fmt(support_max()) + "])";
+      }
+      /** Tilted through its own (exact) quantile by quadrature. */
+      TiltedLaw tilted(const double theta) const override
+      {
+        if (theta == 0.0)
+          return untilted_copy(*this);
+        return make_tilted_law_by_quadrature([law = *this](const double s) { return law.quantile(s); },
+                                             support_min(), support_max(), theta, description(),
+                                             cumulative_);
       }
 
     private:
@@ -613,6 +579,30 @@ namespace alloyspec
       {
         return "binomial alloy: " + std::to_string(n_) + " atoms per cell, fraction " +
                fmt(x_) + " of A (value " + fmt(q_a_) + "), B value " + fmt(q_b_);
+      }
+
+      /**
+       * Closed form: with d = (q_A − q_B)/n, @f$e^{-\theta q} \propto e^{-\theta d K}@f$
+       * for K ~ Binomial(n, x), which is again binomial with
+       * @f$x_\theta = x e^{-\theta d}/(1 - x + x e^{-\theta d})@f$, and
+       * @f$\ln M = -\theta q_B + n\ln(1 - x + x e^{-\theta d})@f$.
+       */
+      TiltedLaw tilted(const double theta) const override
+      {
+        if (theta == 0.0)
+          return untilted_copy(*this);
+        const double d = (q_a_ - q_b_) / n_;
+        const double log_a = x_ > 0 ? std::log(x_) - theta * d : -infinity;
+        const double log_b = x_ < 1 ? std::log1p(-x_) : -infinity;
+        const double log_sum = log_add_exp(log_a, log_b);
+        TiltedLaw    result;
+        result.theta      = theta;
+        result.log_moment = -theta * q_b_ + n_ * log_sum;
+        if (!std::isfinite(result.log_moment))
+          throw InputError("sampling/tilt = " + fmt(theta) + " is too strong for the law " +
+                           description());
+        result.law = std::make_unique<BinomialAlloyLaw>(n_, std::exp(log_a - log_sum), q_a_, q_b_);
+        return result;
       }
 
     private:
@@ -841,9 +831,12 @@ namespace alloyspec
       return -infinity;
     if (u == 1.0)
       return infinity;
+    const boost::math::normal_distribution<double, DoublePolicy> standard_normal(0.0, 1.0);
+    // Evaluated in the lower half and mirrored, so both tails have the same
+    // relative accuracy; 1 − u is exact for u ≥ 1/2 (Sterbenz).
     if (u > 0.5)
-      return -lower_normal_quantile(1.0 - u); // 1 − u exact for u ≥ 1/2 (Sterbenz)
-    return lower_normal_quantile(u);
+      return -boost::math::quantile(standard_normal, 1.0 - u);
+    return boost::math::quantile(standard_normal, u);
   }
 
 
@@ -853,16 +846,19 @@ namespace alloyspec
       return 0.0;
     if (!(x < 1.0))
       return 1.0;
-    const double log_beta  = log_beta_function(a, b);
-    const double log_front = a * std::log(x) + b * std::log1p(-x) - log_beta;
-    if (x < (a + 1.0) / (a + b + 2.0))
-      return std::exp(log_front) * beta_continued_fraction(a, b, x) / a;
-    return 1.0 - std::exp(log_front) * beta_continued_fraction(b, a, 1.0 - x) / b;
+    return boost::math::ibeta(a, b, x, DoublePolicy());
   }
 
 
   double beta_quantile(const double a, const double b, const double u)
   {
-    return beta_quantile_with(a, b, log_beta_function(a, b), u);
+    if (!(u > 0.0))
+      return 0.0;
+    if (!(u < 1.0))
+      return 1.0;
+    if (u <= 0.5)
+      return lower_beta_quantile(a, b, u);
+    // 1 − u is exact for u ≥ 1/2 (Sterbenz).
+    return 1.0 - lower_beta_quantile(b, a, 1.0 - u);
   }
 } // namespace alloyspec

@@ -1,4 +1,4 @@
-#include "petsc_check.h"
+#include "petsc_handle.h"
 #include <alloyspec/solver/block_krylov.h>
 #include <alloyspec/solver/eigen_solver.h>
 #include <alloyspec/core/errors.h>
@@ -33,41 +33,10 @@ namespace alloyspec
       return comm;
     }
 
-    /** Owns a PETSc object handle; destroys it with the matching *Destroy. */
-    template <typename T, PetscErrorCode (*destroy)(T *)>
-    struct Owned
-    {
-      T handle = nullptr;
-      Owned() = default;
-      Owned(const Owned &) = delete;
-      Owned &operator=(const Owned &) = delete;
-      Owned(Owned &&other) noexcept
-        : handle(other.handle)
-      {
-        other.handle = nullptr;
-      }
-      Owned &operator=(Owned &&other) noexcept
-      {
-        if (this != std::addressof(other))
-          {
-            if (handle)
-              destroy(&handle);
-            handle       = other.handle;
-            other.handle = nullptr;
-          }
-        return *this;
-      }
-      ~Owned()
-      {
-        if (handle)
-          destroy(&handle);
-      }
-      operator T() const { return handle; }
-      T *operator&() { return &handle; }
-    };
-    using OwnedMat = Owned<Mat, MatDestroy>;
-    using OwnedVec = Owned<Vec, VecDestroy>;
-    using OwnedEPS = Owned<EPS, EPSDestroy>;
+    using internal::OwnedMat;
+    using internal::OwnedVec;
+    using OwnedEPS = internal::PetscHandle<EPS, EPSDestroy>;
+
 
     /** Relative gap below which two eigenvalues count as one cluster (common practice, no source). */
     constexpr double cluster_gap = 1e-8;
@@ -113,11 +82,6 @@ namespace alloyspec
     const SpectralProblem *problem = nullptr;
   };
 
-  namespace
-  {
-    /** Negative pivots of K − E M from a fresh factorisation (ordering and analysis included). */
-    std::size_t fresh_negative_pivots(Mat K, Mat M, double energy);
-  } // namespace
 
   void EigenSolver::use_teams(RealisationTeams *teams) { teams_ = teams; }
 
@@ -126,7 +90,10 @@ namespace alloyspec
     // baseline: a fresh ordering and symbolic factorisation every time.
     std::size_t negative = 0;
     if (settings_.method != "tuned")
-      negative = fresh_negative_pivots(pencil.K, pencil.M, energy);
+      {
+        InertiaCounter fresh;
+        negative = fresh.negative_pivots(backend::MatrixPair{pencil.K, pencil.M}, energy);
+      }
     else
       {
         auto &counter = counters_[pencil.problem];
@@ -137,35 +104,6 @@ namespace alloyspec
     // Above μ the constrained rows count too; every genuine eigenvalue is below μ.
     return std::min(negative, pencil.problem->n_genuine());
   }
-
-  std::size_t EigenSolver::count_below(const SpectralProblem &problem, double energy)
-  {
-    return std::min(fresh_negative_pivots(problem.K, problem.M, energy), problem.n_genuine());
-  }
-
-  namespace
-  {
-  std::size_t fresh_negative_pivots(const Mat K, const Mat M, const double energy)
-  {
-    OwnedMat  shifted;
-    ALLOYSPEC_CHECK(MatDuplicate(K, MAT_COPY_VALUES, &shifted));
-    ALLOYSPEC_CHECK(MatAXPY(shifted, -energy, M, SAME_NONZERO_PATTERN));
-    ALLOYSPEC_CHECK(MatSetOption(shifted, MAT_SYMMETRIC, PETSC_TRUE));
-    OwnedMat factor;
-    ALLOYSPEC_CHECK(MatGetFactor(shifted, MATSOLVERMUMPS, MAT_FACTOR_CHOLESKY, &factor));
-    // MUMPS reports the inertia only with null-pivot detection on and the root
-    // node factorised without ScaLAPACK (ICNTL(24) = 1, ICNTL(13) = 1).
-    ALLOYSPEC_CHECK(MatMumpsSetIcntl(factor, 13, 1));
-    ALLOYSPEC_CHECK(MatMumpsSetIcntl(factor, 24, 1));
-    MatFactorInfo info;
-    ALLOYSPEC_CHECK(MatFactorInfoInitialize(&info));
-    ALLOYSPEC_CHECK(MatCholeskyFactorSymbolic(factor, shifted, nullptr, &info));
-    ALLOYSPEC_CHECK(MatCholeskyFactorNumeric(factor, shifted, &info));
-    PetscInt n_negative = 0, n_zero = 0, n_positive = 0;
-    ALLOYSPEC_CHECK(MatGetInertia(factor, &n_negative, &n_zero, &n_positive));
-    return static_cast<std::size_t>(n_negative);
-  }
-  } // namespace
 
   namespace
   {
@@ -187,7 +125,7 @@ namespace alloyspec
       std::vector<double> operator()(Vec x)
       {
         Vec source = x;
-        if (to_all_.handle)
+        if (to_all_)
           {
             ALLOYSPEC_CHECK(VecScatterBegin(to_all_, x, whole_, INSERT_VALUES, SCATTER_FORWARD));
             ALLOYSPEC_CHECK(VecScatterEnd(to_all_, x, whole_, INSERT_VALUES, SCATTER_FORWARD));
@@ -202,7 +140,7 @@ namespace alloyspec
 
     private:
       PetscInt                             n_ = 0;
-      Owned<VecScatter, VecScatterDestroy> to_all_;
+      internal::OwnedScatter                to_all_;
       OwnedVec                             whole_;
     };
 
@@ -311,7 +249,7 @@ namespace alloyspec
         {
           PetscScalar lambda = 0;
           ALLOYSPEC_CHECK(EPSGetEigenpair(eps, i, &lambda, nullptr, x, nullptr));
-          if (!(lambda < 0.5 * problem.spurious_eigenvalue))
+          if (!(lambda < problem.spurious_threshold()))
             continue; // an eigenvalue of the constrained rows, not of H
           ALLOYSPEC_CHECK(MatMult(K, x, kx));
           ALLOYSPEC_CHECK(MatMult(M, x, mx));
@@ -360,12 +298,10 @@ namespace alloyspec
    * keep their pattern across realisations, so MUMPS's ordering and symbolic
    * analysis are done once and each realisation only refactorises numerically.
    */
+  /** The shift-and-invert factor of one problem, its analysis kept across realisations. */
   struct EigenSolver::BlockFactor
   {
-    OwnedMat         shifted;
-    OwnedMat         factor;
-    PetscInt64       k_id    = -1;
-    PetscObjectState pattern = 0;
+    internal::ShiftedFactor shifted{internal::ShiftedFactor::Inertia::not_needed};
   };
 
   namespace
@@ -378,26 +314,9 @@ namespace alloyspec
     RawPairs block_pairs(Mat K, Mat M, const SpectralProblem &problem, EigenSolver::BlockFactor &f,
                          unsigned int nev, double sigma, const EigenSolverSettings &settings)
     {
-      const MPI_Comm   comm    = communicator(K);
-      PetscInt64       k_id    = -1;
-      PetscObjectState pattern = 0;
-      ALLOYSPEC_CHECK(PetscObjectGetId(reinterpret_cast<PetscObject>(K), &k_id));
-      ALLOYSPEC_CHECK(MatGetNonzeroState(K, &pattern));
-      MatFactorInfo info;
-      ALLOYSPEC_CHECK(MatFactorInfoInitialize(&info));
-      if (!f.factor.handle || f.k_id != k_id || f.pattern != pattern)
-        {
-          f = EigenSolver::BlockFactor();
-          f.k_id    = k_id;
-          f.pattern = pattern;
-          ALLOYSPEC_CHECK(MatDuplicate(K, MAT_COPY_VALUES, &f.shifted));
-          ALLOYSPEC_CHECK(MatSetOption(f.shifted, MAT_SYMMETRIC, PETSC_TRUE));
-          ALLOYSPEC_CHECK(MatGetFactor(f.shifted, MATSOLVERMUMPS, MAT_FACTOR_CHOLESKY, &f.factor));
-          ALLOYSPEC_CHECK(MatCholeskyFactorSymbolic(f.factor, f.shifted, nullptr, &info));
-        }
-      ALLOYSPEC_CHECK(MatCopy(K, f.shifted, SAME_NONZERO_PATTERN));
-      ALLOYSPEC_CHECK(MatAXPY(f.shifted, -sigma, M, SAME_NONZERO_PATTERN));
-      ALLOYSPEC_CHECK(MatCholeskyFactorNumeric(f.factor, f.shifted, &info));
+      const MPI_Comm comm = communicator(K);
+      f.shifted.factorise(K, M, sigma);
+
 
       const auto [n_local, n_global] = local_and_global_rows(K);
       PetscInt first_row = 0;
@@ -408,7 +327,7 @@ namespace alloyspec
       BlockOperator op;
       op.n_local    = static_cast<std::size_t>(n_local);
       op.row_offset = static_cast<std::size_t>(first_row);
-      const Mat factor = f.factor;
+      const Mat factor = f.shifted.factor();
       op.solve = [&](const double *in, double *out, unsigned int b) {
         OwnedMat rhs = dense_view(comm, K, in, b), solution = dense_view(comm, K, out, b);
         ALLOYSPEC_CHECK(MatMatSolve(factor, rhs, solution));
@@ -473,7 +392,7 @@ namespace alloyspec
           ALLOYSPEC_CHECK(VecScale(kx, scale));
           ALLOYSPEC_CHECK(VecScale(mx, scale));
           const double lambda = xkx / xmx;
-          if (!(lambda < 0.5 * problem.spurious_eigenvalue))
+          if (!(lambda < problem.spurious_threshold()))
             continue;
           unsorted.values.push_back(lambda);
           unsorted.residuals.push_back(relative_residual(kx, mx, lambda));

@@ -2,6 +2,8 @@
 #include <alloyspec/fe/discretisation.h>
 #include <alloyspec/core/errors.h>
 #include <alloyspec/solver/landscape.h>
+#include "petsc_handle.h"
+#include <alloyspec/core/format.h>
 #include <alloyspec/fe/spectral_problem.h>
 #include <alloyspec/model/weyl_law.h>
 
@@ -24,43 +26,8 @@ namespace alloyspec
 {
   namespace
   {
-    void check(const PetscErrorCode code, const char *what)
-    {
-      if (code != 0)
-        throw std::runtime_error(std::string("landscape solve: PETSc error in ") + what +
-                                 " (code " + std::to_string(code) + ")");
-    }
-
-    /** Owns a PETSc object (Vec, KSP) and destroys it at scope exit. */
-    template <typename T, PetscErrorCode (*destroy)(T *)>
-    class PetscOwner
-    {
-    public:
-      PetscOwner() = default;
-      ~PetscOwner()
-      {
-        if (object_)
-          destroy(&object_);
-      }
-      PetscOwner(const PetscOwner &) = delete;
-      PetscOwner &operator=(const PetscOwner &) = delete;
-      T          *out() { return &object_; }
-      operator T() const { return object_; }
-
-    private:
-      T object_ = nullptr;
-    };
-    using OwnedVec = PetscOwner<Vec, VecDestroy>;
-    using OwnedKsp = PetscOwner<KSP, KSPDestroy>;
-
-    std::string number(const double x)
-    {
-      if (!std::isfinite(x))
-        return "nan";
-      char buffer[40];
-      std::snprintf(buffer, sizeof buffer, "%.12g", x);
-      return buffer;
-    }
+    using internal::OwnedVec;
+    using OwnedKsp = internal::PetscHandle<KSP, KSPDestroy>;
 
     constexpr double shift_fraction = 1e-2; // see default_landscape_shift()
     constexpr unsigned int max_cg_iterations = 10000;
@@ -121,41 +88,40 @@ namespace alloyspec
     const PetscInt            n    = static_cast<PetscInt>(load.size());
 
     OwnedVec b, x, r;
-    check(VecCreateSeq(PETSC_COMM_SELF, n, b.out()), "VecCreateSeq");
-    check(VecDuplicate(b, x.out()), "VecDuplicate");
-    check(VecDuplicate(b, r.out()), "VecDuplicate");
+    ALLOYSPEC_CHECK(VecCreateSeq(PETSC_COMM_SELF, n, &b));
+    ALLOYSPEC_CHECK(VecDuplicate(b, &x));
+    ALLOYSPEC_CHECK(VecDuplicate(b, &r));
     std::vector<PetscInt> rows(load.size());
     std::iota(rows.begin(), rows.end(), PetscInt(0));
-    check(VecSetValues(b, n, rows.data(), load.data(), INSERT_VALUES), "VecSetValues");
-    check(VecAssemblyBegin(b), "VecAssemblyBegin");
-    check(VecAssemblyEnd(b), "VecAssemblyEnd");
+    ALLOYSPEC_CHECK(VecSetValues(b, n, rows.data(), load.data(), INSERT_VALUES));
+    ALLOYSPEC_CHECK(VecAssemblyBegin(b));
+    ALLOYSPEC_CHECK(VecAssemblyEnd(b));
 
     // K + σM is symmetric positive definite (V + σ ≥ 0 and > 0 somewhere, or
     // Dirichlet faces); algebraic multigrid makes CG's iteration count nearly
     // independent of the mesh size.
     const Mat matrix = problem.K;
     OwnedKsp  ksp;
-    check(KSPCreate(PETSC_COMM_SELF, ksp.out()), "KSPCreate");
-    check(KSPSetOperators(ksp, matrix, matrix), "KSPSetOperators");
-    check(KSPSetType(ksp, KSPCG), "KSPSetType");
+    ALLOYSPEC_CHECK(KSPCreate(PETSC_COMM_SELF, &ksp));
+    ALLOYSPEC_CHECK(KSPSetOperators(ksp, matrix, matrix));
+    ALLOYSPEC_CHECK(KSPSetType(ksp, KSPCG));
     PC pc;
-    check(KSPGetPC(ksp, &pc), "KSPGetPC");
-    check(PCSetType(pc, PCGAMG), "PCSetType");
-    check(KSPSetNormType(ksp, KSP_NORM_UNPRECONDITIONED), "KSPSetNormType");
-    check(KSPSetTolerances(ksp, tolerance, 0.0, PETSC_DEFAULT, max_cg_iterations),
-          "KSPSetTolerances");
-    check(KSPSolve(ksp, b, x), "KSPSolve");
+    ALLOYSPEC_CHECK(KSPGetPC(ksp, &pc));
+    ALLOYSPEC_CHECK(PCSetType(pc, PCGAMG));
+    ALLOYSPEC_CHECK(KSPSetNormType(ksp, KSP_NORM_UNPRECONDITIONED));
+    ALLOYSPEC_CHECK(KSPSetTolerances(ksp, tolerance, 0.0, PETSC_DEFAULT, max_cg_iterations));
+    ALLOYSPEC_CHECK(KSPSolve(ksp, b, x));
     KSPConvergedReason reason;
-    check(KSPGetConvergedReason(ksp, &reason), "KSPGetConvergedReason");
+    ALLOYSPEC_CHECK(KSPGetConvergedReason(ksp, &reason));
     PetscInt iterations = 0;
-    check(KSPGetIterationNumber(ksp, &iterations), "KSPGetIterationNumber");
+    ALLOYSPEC_CHECK(KSPGetIterationNumber(ksp, &iterations));
 
     // The true residual, not the iteration's estimate.
     PetscReal b_norm = 0, r_norm = 0;
-    check(MatMult(matrix, x, r), "MatMult");
-    check(VecAYPX(r, -1.0, b), "VecAYPX");
-    check(VecNorm(r, NORM_2, &r_norm), "VecNorm");
-    check(VecNorm(b, NORM_2, &b_norm), "VecNorm");
+    ALLOYSPEC_CHECK(MatMult(matrix, x, r));
+    ALLOYSPEC_CHECK(VecAYPX(r, -1.0, b));
+    ALLOYSPEC_CHECK(VecNorm(r, NORM_2, &r_norm));
+    ALLOYSPEC_CHECK(VecNorm(b, NORM_2, &b_norm));
 
     LandscapeField field;
     field.shift             = shift;
@@ -164,13 +130,13 @@ namespace alloyspec
     if (reason < 0 && !(field.relative_residual <= 10 * tolerance))
       throw std::runtime_error("landscape solve: conjugate gradients stopped (PETSc reason " +
                                std::to_string(int(reason)) + ") at relative residual " +
-                               number(field.relative_residual) + " after " +
+                               short_number(field.relative_residual) + " after " +
                                std::to_string(iterations) + " iterations");
     std::vector<double> u(load.size());
     const PetscScalar  *values = nullptr;
-    check(VecGetArrayRead(x, &values), "VecGetArrayRead");
+    ALLOYSPEC_CHECK(VecGetArrayRead(x, &values));
     std::copy(values, values + n, u.begin());
-    check(VecRestoreArrayRead(x, &values), "VecRestoreArrayRead");
+    ALLOYSPEC_CHECK(VecRestoreArrayRead(x, &values));
     field.u = discretisation.complete(u);
 
     // Local maxima of u over the DoF couplings (the element patches) are the
@@ -181,7 +147,7 @@ namespace alloyspec
           continue;
         PetscInt        ncols = 0;
         const PetscInt *cols  = nullptr;
-        check(MatGetRow(matrix, i, &ncols, &cols, nullptr), "MatGetRow");
+        ALLOYSPEC_CHECK(MatGetRow(matrix, i, &ncols, &cols, nullptr));
         bool maximum = true;
         for (PetscInt k = 0; k < ncols && maximum; ++k)
           {
@@ -190,7 +156,7 @@ namespace alloyspec
               continue;
             maximum = field.u[j] < field.u[i] || (field.u[j] == field.u[i] && j > i);
           }
-        check(MatRestoreRow(matrix, i, &ncols, &cols, nullptr), "MatRestoreRow");
+        ALLOYSPEC_CHECK(MatRestoreRow(matrix, i, &ncols, &cols, nullptr));
         if (maximum)
           field.minima.push_back(1.0 / field.u[i] - shift);
       }

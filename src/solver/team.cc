@@ -1,4 +1,4 @@
-#include "petsc_check.h"
+#include "petsc_handle.h"
 #include <alloyspec/core/errors.h>
 #include <alloyspec/fe/spectral_problem.h>
 #include <alloyspec/solver/team.h>
@@ -18,20 +18,6 @@ namespace alloyspec
 {
   namespace
   {
-
-    /** A distributed matrix that frees itself. */
-    struct OwnedMatrix
-    {
-      Mat handle = nullptr;
-      OwnedMatrix() = default;
-      OwnedMatrix(const OwnedMatrix &) = delete;
-      OwnedMatrix &operator=(const OwnedMatrix &) = delete;
-      ~OwnedMatrix()
-      {
-        if (handle)
-          MatDestroy(&handle);
-      }
-    };
 
     /** Rows [first, last) of the serial @p source into the distributed @p target. */
     void copy_rows(Mat source, Mat target, PetscInt first, PetscInt last)
@@ -56,7 +42,7 @@ namespace alloyspec
     unsigned int size = 1, count = 1, index = 0, rank = 0;
     struct Copy
     {
-      OwnedMatrix K, M;
+      internal::OwnedMat K, M;
       PetscInt    first = 0, last = 0;
     };
     /**
@@ -132,19 +118,19 @@ namespace alloyspec
             ALLOYSPEC_CHECK(MatRestoreRow(K, i, &nc, &cols, nullptr));
           }
         // K and M share their pattern (SpectralProblem), so one preallocation serves both.
-        for (OwnedMatrix *target : {&copy.K, &copy.M})
+        for (internal::OwnedMat *target : {std::addressof(copy.K), std::addressof(copy.M)})
           {
             ALLOYSPEC_CHECK(MatCreateAIJ(impl_->comm, copy.last - copy.first,
                                          copy.last - copy.first, n, n, 0, diagonal.data(), 0,
-                                         off_diagonal.data(), &target->handle));
-            ALLOYSPEC_CHECK(MatSetOption(target->handle, MAT_NEW_NONZERO_ALLOCATION_ERR, PETSC_TRUE));
-            ALLOYSPEC_CHECK(MatSetOption(target->handle, MAT_SYMMETRIC, PETSC_TRUE));
+                                         off_diagonal.data(), &*target));
+            ALLOYSPEC_CHECK(MatSetOption(*target, MAT_NEW_NONZERO_ALLOCATION_ERR, PETSC_TRUE));
+            ALLOYSPEC_CHECK(MatSetOption(*target, MAT_SYMMETRIC, PETSC_TRUE));
           }
-        copy_rows(M, copy.M.handle, copy.first, copy.last);
+        copy_rows(M, copy.M, copy.first, copy.last);
         found = impl_->copies.end() - 1;
       }
     Impl::Copy &copy = *found->second;
-    copy_rows(K, copy.K.handle, copy.first, copy.last);
-    return {copy.K.handle, copy.M.handle};
+    copy_rows(K, copy.K, copy.first, copy.last);
+    return {copy.K, copy.M};
   }
 } // namespace alloyspec

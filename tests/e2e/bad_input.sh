@@ -30,7 +30,11 @@ expect_error "degree"             run "${tiny[@]}" --set "discretisation/degree=
 expect_error "energy cutoff"      run "${tiny[@]}" --set "spectrum/energy cutoff=abc" --output "$work/a"
 expect_error "boundary conditions" run "${tiny[@]}" --set "spectrum/boundary conditions=robin" --output "$work/a"
 expect_error "study/realisations" run "${tiny[@]}" --set "study/realisations=0" --output "$work/a"
-expect_error "study/energies"     run "${tiny[@]}" --set "study/energies=3:0.1:1" --output "$work/a"
+expect_error "study/energies"     run "${tiny[@]}" --set "study/energies=3 to 1 by 0.1" --output "$work/a"
+# The colon form of earlier versions: refused, with the same grid in words.
+printf 'subsection study\n  set energies = 0:0.05:3\nend\n' > "$work/colon_grid.prm"
+expect_error "'0 to 3 by 0.05'"   run "$work/colon_grid.prm" "${tiny[@]}" --output "$work/a"
+expect_error "'-1 to 2 by 0.5'"   run "${tiny[@]}" --set "study/energies=-1:0.5:2" --output "$work/a"
 expect_error "study/seed"         run "${tiny[@]}" --seed=-4 --output "$work/a"
 expect_error "no such entry 'colour'"      run "${tiny[@]}" --set "lattice/colour=red" --output "$work/a"
 expect_error "section/entry=value" run "${tiny[@]}" --set "lattice" --output "$work/a"

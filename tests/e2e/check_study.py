@@ -14,6 +14,26 @@ import sys
 RESIDUAL_LIMIT = 1e-8  # the solver's default tolerance is 1e-12; common practice, no source
 
 
+def check_weighted(folder, summary):
+    """Tilted sampling: one log weight per realisation (the same for every boundary
+    condition, drawn from the same cell values), and tail.csv with its columns."""
+    weights = {}
+    for s in summary:
+        w = float(s["log_weight"])
+        assert math.isfinite(w), s
+        weights.setdefault(int(s["realisation"]), set()).add(w)
+    assert all(len(v) == 1 for v in weights.values()), "log weights differ between boundaries"
+    with open(f"{folder}/tail.csv") as f:
+        tail = list(csv.DictReader(f))
+    assert tail, "tail.csv is empty"
+    for row in tail:
+        for bc in ("dirichlet", "neumann"):
+            if f"ids_{bc}" in row:
+                ids, lo, hi = (float(row[f"{c}_{bc}"]) for c in ("ids", "lower", "upper"))
+                assert 0 <= lo <= ids <= hi, row
+                assert float(row[f"ess_{bc}"]) >= 0, row
+
+
 def main(folder):
     with open(f"{folder}/run.json") as f:
         run = json.load(f)
@@ -53,6 +73,8 @@ def main(folder):
         if "ids_dirichlet" in row and "ids_neumann" in row:
             if row["complete_dirichlet"] == "1" and row["complete_neumann"] == "1":
                 assert float(row["ids_dirichlet"]) <= float(row["ids_neumann"]) + 1e-15, row
+    if "log_weight" in summary[0]:
+        check_weighted(folder, summary)
     print(f"{folder}: {len(rows)} eigenvalues, {len(summary)} solves, {len(ids)} IDS rows: ok")
 
 

@@ -7,6 +7,7 @@ eigenvalue, the count must equal #{lambda_j <= E} exactly, and ids.csv must
 agree there. Usage: count_vs_run.py RUN_FOLDER COUNT_FOLDER
 """
 import csv
+import json
 import math
 import sys
 
@@ -16,29 +17,42 @@ NEAR_EIGENVALUE = 1e-8
 IDS_TOLERANCE = 1e-12  # same integers averaged in the same order; common practice, no source
 
 
+def energy_column(columns):
+    """The grid's column: 'energy', or 'energy_<unit>' in physical units."""
+    return next(c for c in columns if c.startswith("energy") and c != "energy_reduced")
+
+
 def main(run, count):
+    # The stored records are in the solver's unit; the tables in the user's.
+    with open(f"{run}/run.json") as f:
+        to_user = json.load(f)["units"]["records_energy_unit_in_user_unit"]
     spectra, complete = {}, {}
     with open(f"{run}/eigenvalues.csv") as f:
         for r in csv.DictReader(f):
-            spectra.setdefault((int(r["realisation"]), r["boundary"]), []).append(float(r["eigenvalue"]))
+            spectra.setdefault((int(r["realisation"]), r["boundary"]), []).append(
+                to_user * float(r["eigenvalue"]))
     with open(f"{run}/realisations.csv") as f:
         for r in csv.DictReader(f):
-            complete[(int(r["realisation"]), r["boundary"])] = float(r["complete_up_to"])
-    checked = skipped = 0
+            complete[(int(r["realisation"]), r["boundary"])] = to_user * float(r["complete_up_to"])
+    checked = skipped = largest = 0
     failures = []
     with open(f"{count}/counts.csv") as f:
-        for r in csv.DictReader(f):
+        reader = csv.DictReader(f)
+        column = energy_column(reader.fieldnames)
+        for r in reader:
             key = (int(r["realisation"]), r["boundary"])
-            e, n = float(r["energy"]), int(r["count"])
+            e, n = float(r[column]), int(r["count"])
             values = spectra[key]
             if e > complete[key] or any(abs(v - e) <= NEAR_EIGENVALUE * max(1.0, abs(e)) for v in values):
                 skipped += 1
                 continue
             expected = sum(1 for v in values if v <= e)
             checked += 1
+            largest = max(largest, expected)
             if n != expected:
                 failures.append(f"{key} at E={e}: count {n}, eigenvalues below: {expected}")
     assert checked >= 20, f"only {checked} energies could be checked"
+    assert largest >= 5, f"at most {largest} eigenvalues lie below the grid: nothing was compared"
     with open(f"{run}/ids.csv") as f:
         ids_run = list(csv.DictReader(f))
     with open(f"{count}/ids.csv") as f:
@@ -51,7 +65,7 @@ def main(run, count):
         for column in a:
             x, y = float(a[column]), float(b[column])
             if not (x == y or abs(x - y) <= IDS_TOLERANCE * max(abs(x), abs(y))):
-                failures.append(f"ids.csv at E={a['energy']}, {column}: run {x}, count {y}")
+                failures.append(f"ids.csv at E={a[energy_column(a)]}, {column}: run {x}, count {y}")
     for line in failures[:20]:
         print("MISMATCH:", line)
     if failures:

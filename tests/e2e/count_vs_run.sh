@@ -1,12 +1,15 @@
 #!/usr/bin/env bash
 # `alloyspec count` against `alloyspec run` on the same small study, also with
-# 2 MPI ranks when mpirun is given. Usage: count_vs_run.sh EXE WORKDIR [MPIRUN]
+# 2 MPI ranks when mpirun is given; then on studies in physical units (eV, nm,
+# effective mass), on a slab with periodic directions and on a mesh file, the
+# settings `count` once ignored. Usage: count_vs_run.sh EXE WORKDIR [MPIRUN]
 set -euo pipefail
 exe=$1 work=$2 mpirun=${3:-}
 here=$(dirname "$0")
+configs=$here/../../configs
 rm -rf "$work"; mkdir -p "$work"
 args=(--set "lattice/cells=3,3,3" --set study/realisations=3 --set spectrum/eigenvalues=30
-      --set "study/energies=0:0.13:4" --set "spectrum/boundary conditions=dirichlet,neumann,periodic")
+      --set "study/energies=0 to 4 by 0.13" --set "spectrum/boundary conditions=dirichlet,neumann,periodic")
 "$exe" run "${args[@]}" --no-progress --output "$work/run" > "$work/run.log"
 "$exe" count "${args[@]}" --no-progress --output "$work/count" > "$work/count.log"
 python3 "$here/count_vs_run.py" "$work/run" "$work/count"
@@ -16,3 +19,17 @@ if [ -n "$mpirun" ]; then
     "$exe" count "${args[@]}" --no-progress --output "$work/count2" > "$work/count2.log"
   python3 "$here/count_vs_run.py" "$work/run" "$work/count2"
 fi
+
+small=(--set study/realisations=2 --set spectrum/eigenvalues=30 --set discretisation/degree=1
+       --set "discretisation/elements per cell=1" --no-progress)
+compare() { # compare NAME CONFIG args...
+  local name=$1 config=$2; shift 2
+  "$exe" run "$config" "${small[@]}" "$@" --output "$work/run_$name" > "$work/run_$name.log"
+  "$exe" count "$config" "${small[@]}" "$@" --output "$work/count_$name" > "$work/count_$name.log"
+  echo "$name:"
+  python3 "$here/count_vs_run.py" "$work/run_$name" "$work/count_$name"
+}
+compare physical_units "$configs/alloy_physical_units.prm" --set "lattice/cells=3,3,3" \
+  --set "study/energies=0.2 to 4 by 0.05"
+compare slab "$configs/thin_film_slab.prm" --set "lattice/cells=4,4,2"
+compare mesh "$configs/rounded_wire_mesh.prm"

@@ -10,7 +10,7 @@ rm -rf "$work"; mkdir -p "$work"
 # Small but not instant: each realisation takes a noticeable fraction of a second,
 # so the kills land inside solves as well as between them.
 args=(--set "lattice/cells=3,3,3" --set study/realisations=14 --set spectrum/eigenvalues=20
-      --set "study/energies=0:0.1:4" --no-progress)
+      --set "study/energies=0 to 4 by 0.1" --no-progress)
 fail() { echo "FAIL: $*"; exit 1; }
 
 "$exe" run "${args[@]}" --output "$work/straight" > "$work/straight.log" 2>&1 \
@@ -24,7 +24,7 @@ for kill in 1 2 3 4; do
   "$exe" run "${args[@]}" --output "$out" "${resume[@]}" > "$work/kill$kill.log" 2>&1 &
   pid=$!
   # Count from the end of start-up (parameters echoed), which varies with load.
-  for i in $(seq 200); do grep -q "Effective parameters" "$work/kill$kill.log" && break; sleep 0.05; done
+  for i in $(seq 200); do grep -q "differ from the defaults" "$work/kill$kill.log" && break; sleep 0.05; done
   delay=$(printf '%d.%03d' $((RANDOM % 2)) $((RANDOM % 1000)))
   sleep "$delay"
   kill -KILL "$pid" 2>/dev/null
@@ -39,7 +39,7 @@ done
 "$exe" run "${args[@]}" --output "$out" --resume > "$work/term.log" 2>&1 &
 pid=$!
 # Signal only once the signal handlers are in place (after the parameters are echoed).
-for i in $(seq 100); do grep -q "Effective parameters" "$work/term.log" && break; sleep 0.05; done
+for i in $(seq 100); do grep -q "differ from the defaults" "$work/term.log" && break; sleep 0.05; done
 sleep 0.3
 kill -TERM "$pid" 2>/dev/null
 wait "$pid"; status=$?

@@ -14,6 +14,8 @@
 
 namespace alloyspec
 {
+  struct ReportContent;
+
   /** Plain data describing one study, as the driver has it after a run or from a folder. */
   struct AnalysisInput
   {
@@ -36,8 +38,17 @@ namespace alloyspec
      * (the unit of the stored records) in the user's unit; 0 in reduced units.
      */
     double                    solver_energy_unit = 0;
+    /**
+     * The potential is fixed (the `file` law): the report lists eigenvalues
+     * instead of ensemble statistics (as it also does for one realisation).
+     */
+    bool                      fixed_potential = false;
+    /** Factor between the stored error bounds and the Richardson estimate (solver layer's). */
+    double                    error_safety_factor = 3.0;
     std::string               model_summary;   ///< one paragraph: model, law, box
     std::string               parameters_text; ///< effective parameters, shown verbatim
+    /** The study folder (eigenfunction_slice_<bc>.csv of a fixed potential is read from it). */
+    std::string               source_directory;
     std::vector<RealisationRecord> records;
     /**
      * ids.csv of the study (columns energy, ids_<bc>, stderr_<bc>, complete_<bc>,
@@ -75,17 +86,16 @@ namespace alloyspec
                                           const AnalysisSettings &settings);
 
   /**
-   * Several studies of the same model on boxes of different sizes: fits
-   * @f$N_L(E) = N_\infty(E) + c(E)/L@f$ per energy and boundary (L =
-   * @f$(|\Lambda|/a^d)^{1/d}@f$, cells per direction), writes
-   * `extrapolation.csv` (energy, then per boundary n_infinity_<bc>, stderr_<bc>,
-   * c_<bc>, c_stderr_<bc>, chi_squared_<bc>, dof_<bc>; then agree, 1 when the
-   * Dirichlet and Neumann limits agree within the confidence level), and then
-   * everything write_analysis() writes for the largest box, with the
-   * extrapolation added to the report. Needs at least two studies with the
-   * same energy grid and dimension (InputError otherwise).
+   * Same, with @p report already holding content to show first (a box-size
+   * series puts its own figures, tables and checks there).
    */
-  std::vector<std::string> write_summary(const std::string                &output_dir,
-                                         const std::vector<AnalysisInput> &studies,
-                                         const AnalysisSettings           &settings);
+  std::vector<std::string> write_analysis(const std::string &output_dir, const AnalysisInput &input,
+                                          const AnalysisSettings &settings, ReportContent report);
+
+  /**
+   * The unit of a density in the study's units, for axis labels and tables:
+   * "nm⁻³" (IDS) or "eV⁻¹·nm⁻³" (DOS) in physical units, ℓ⁻ᵈ and ε⁻¹·ℓ⁻ᵈ with
+   * ℓ the cell edge in reduced units.
+   */
+  std::string density_unit(const AnalysisInput &input, bool per_energy);
 } // namespace alloyspec

@@ -33,6 +33,8 @@ namespace alloyspec
     std::string              title;
     std::string              caption; ///< what is drawn and how to read it
     std::vector<std::string> files;   ///< images written (absolute paths)
+    /** No data to draw (fewer than two points with a value): omitted from the report. */
+    bool empty = false;
   };
 
   /** Writes data and scripts, runs gnuplot, and collects warnings. */
@@ -49,6 +51,13 @@ namespace alloyspec
     /** Whether the gnuplot executable exists and is executable. */
     bool available() const { return available_; }
     const std::string &energy_label() const { return energy_label_; }
+    /** Units of densities on axes: the IDS (e.g. "nm⁻³") and the DOS (e.g. "eV⁻¹·nm⁻³"). */
+    void set_density_units(std::string ids, std::string dos)
+    {
+      ids_unit_ = std::move(ids), dos_unit_ = std::move(dos);
+    }
+    const std::string &ids_unit() const { return ids_unit_; }
+    const std::string &dos_unit() const { return dos_unit_; }
     const std::vector<std::string> &warnings() const { return warnings_; }
 
     /**
@@ -63,6 +72,8 @@ namespace alloyspec
     std::string              directory_;
     std::vector<std::string> formats_;
     std::string              energy_label_;
+    std::string              ids_unit_ = "per unit volume";
+    std::string              dos_unit_ = "per unit volume per unit energy";
     std::string              gnuplot_;
     bool                     available_ = false;
     std::vector<std::string> warnings_;
@@ -70,6 +81,12 @@ namespace alloyspec
 
   /** Quotes @p text as a gnuplot single-quoted string (' doubled). */
   std::string gnuplot_string(const std::string &text);
+
+  /**
+   * A boundary condition ("dirichlet", "neumann", "periodic") as legends and
+   * captions name it: Dirichlet and Neumann capitalised, "periodic" as it is.
+   */
+  std::string legend_name(const std::string &boundary);
 
   /**
    * IDS per boundary with its band, and the semiclassical count, from an ids.csv

@@ -40,9 +40,33 @@ namespace alloyspec
     std::vector<double>      urbach_window;
     double                   bin_width = 0.5; ///< energy bins of IPR and level statistics
     std::vector<std::string> figure_formats{"png", "svg"};
+    /**
+     * Widths still to be chosen from the computed spectrum (the entry was
+     * `auto`, the default); resolved_for() fills them in and clears the flags.
+     */
+    bool lorentzian_automatic = false, gaussian_automatic = false, bin_automatic = false;
+
+    /**
+     * These settings with every automatic width chosen from @p records: with Δ
+     * the median over records of the mean level spacing below complete_up_to,
+     * divided by the number R of realisations (the spacing of the pooled levels,
+     * which the averaged curves see), η = Δ and σ = 2Δ (a kernel about a spacing wide merges single levels
+     * into a curve once averaged over realisations, and keeps structure wider
+     * than that; common practice, no source), and the bin width a tenth of the
+     * range of the trusted levels. The Lorentzian is the narrower because its
+     * heavy tails need 30η of computed spectrum beyond an energy
+     * (incomplete_margin()), the Gaussian only 6σ.
+     * A width set by the user is kept. @p notes receives one line per width
+     * chosen.
+     */
+    AnalysisSettings resolved_for(const std::vector<RealisationRecord> &records,
+                                  std::vector<std::string>             &notes) const;
 
     static void declare_parameters(dealii::ParameterHandler &prm);
-    /** Reads subsection `analysis`; throws InputError naming `analysis/<entry>` on a bad value. */
+    /**
+     * Reads subsection `analysis`; throws InputError naming `analysis/<entry>`
+     * on a bad value. The widths accept `auto` (see resolved_for()).
+     */
     void parse_parameters(dealii::ParameterHandler &prm);
   };
 

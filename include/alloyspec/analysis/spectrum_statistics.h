@@ -8,15 +8,6 @@
 namespace alloyspec
 {
   /**
-   * Parses an energy grid: "a:h:b" (a, a+h, ..., up to b inclusive within
-   * 1e-9 h; h > 0, b ≥ a) or a comma-separated ascending list "0, 0.5, 2".
-   * Throws InputError naming @p parameter_name on a malformed grid or one with
-   * more than 1e6 points.
-   */
-  std::vector<double> parse_energy_grid(const std::string &text,
-                                        const std::string &parameter_name = "study/energies");
-
-  /**
    * Finite-volume counting function @f$N_L(E) = \#\{\lambda_j \le E\}/|\Lambda|@f$
    * of one realisation, on @p energies. @p eigenvalues need not be sorted.
    */
@@ -45,24 +36,46 @@ namespace alloyspec
       double      standard_error;
       std::size_t n_realisations;
       bool        complete;
+      /**
+       * Effective number of realisations behind the mean at this energy:
+       * @f$(\sum_r y_r)^2/\sum_r y_r^2@f$ with @f$y_r = w_r N_r(E)@f$ (Kong's
+       * effective sample size applied to the summands; equal to the number of
+       * realisations with a non-zero count when all weights are 1 and the counts
+       * equal). 0 when every summand is 0.
+       */
+      double      effective_sample_size = 0;
     };
 
     IdsAccumulator(std::vector<double> energies, double volume);
 
-    /** Adds one realisation. */
-    void add(const std::vector<double> &eigenvalues, double complete_up_to);
+    /**
+     * Adds one realisation with likelihood ratio @f$w = e^{\texttt{log\_weight}}@f$
+     * (0 for plain sampling). The mean is the unbiased importance-sampling
+     * estimator @f$\hat N = \frac1R\sum_r w_r N_r@f$ (@f$E_\theta[w N] = E_p[N]@f$),
+     * its standard error the sample standard deviation of @f$w_r N_r@f$ over √R.
+     */
+    void add(const std::vector<double> &eigenvalues, double complete_up_to,
+             double log_weight = 0.0);
     /**
      * Adds one realisation given by its eigenvalue counts @f$\#\{\lambda_j \le E_i\}@f$
      * at the grid energies (from inertia counts; complete at every energy).
      */
-    void add_counts(const std::vector<std::size_t> &counts);
+    void add_counts(const std::vector<std::size_t> &counts, double log_weight = 0.0);
 
     std::size_t      n_realisations() const { return n_; }
+    /**
+     * Kong's effective sample size of the weights, @f$(\sum w)^2/\sum w^2@f$
+     * (Kong 1992): R for plain sampling, small when a few weights dominate.
+     */
+    double           weight_effective_sample_size() const;
+    /** Mean of the weights: 1 in expectation (E_θ[w] = 1); far from 1 signals degenerate weights. */
+    double           mean_weight() const { return n_ ? weight_sum_ / double(n_) : 0.0; }
     std::vector<Row> rows() const;
 
   private:
     /** @p counts already divided by the volume. */
-    void add_normalised(const std::vector<double> &counts, double complete_up_to);
+    void add_normalised(const std::vector<double> &counts, double complete_up_to,
+                        double log_weight);
 
     std::vector<double> energies_;
     double              volume_;
@@ -71,6 +84,9 @@ namespace alloyspec
      *  from them (shifted sums keep the variance free of cancellation). */
     std::vector<double> shift_;
     std::vector<double> sum_, sum_sq_;
+    /** Σ w N and Σ (w N)² per energy (for the effective sample size). */
+    std::vector<double> raw_sum_, raw_sum_sq_;
+    double              weight_sum_ = 0, weight_sum_sq_ = 0;
     std::vector<bool>   complete_;
   };
 } // namespace alloyspec

@@ -26,9 +26,6 @@ namespace alloyspec
     std::uint64_t                      seed = 0;
   };
 
-  /** "section/entry" → value from a parameter text in deal.II's short format. */
-  std::map<std::string, std::string> flatten_parameters(const std::string &short_prm_text);
-
   /**
    * The text of ids.csv: per energy, the mean counting function and its
    * standard error for each boundary condition (columns in the order

@@ -12,7 +12,10 @@ namespace alloyspec
   {
     std::string output_directory;
     bool        progress = false;
-    /** Effective parameters as JSON (copied into run.json) and in short format (parameters.prm). */
+    /**
+     * Effective parameters as JSON (copied into run.json) and in short format
+     * (stored as ResultsStore::parameters_file).
+     */
     std::string parameters_json;
     std::string parameters_prm;
   };

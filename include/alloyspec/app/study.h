@@ -39,7 +39,7 @@ namespace alloyspec
     unsigned int ranks_per_realisation = 1;
     /** Effective parameters as JSON, copied into run.json. */
     std::string parameters_json;
-    /** Effective parameters in deal.II's short format, stored as parameters.prm. */
+    /** Effective parameters in deal.II's short format, stored as ResultsStore::parameters_file. */
     std::string parameters_prm;
   };
 
@@ -68,14 +68,27 @@ namespace alloyspec
     static void declare_parameters(dealii::ParameterHandler &prm);
     void        parse_parameters(dealii::ParameterHandler &prm);
 
-    /** make_grid, setup_system, assemble, solve, postprocess — each timed. */
+    /**
+     * make_grid, setup_system, assemble, solve, postprocess — each timed, and
+     * reported under the labels of phase_timings().
+     */
     void run(const RunOptions &options);
 
-    const std::map<std::string, double> &timings() const { return timings_; }
+    /** Seconds per phase in the order run: (label, seconds). */
+    using PhaseTimings = std::vector<std::pair<std::string, double>>;
+    /**
+     * Labels: pilot_choice (degree and mesh for an accuracy target), mesh,
+     * unknowns (degrees of freedom and sparsity), matrices (the fixed K and M),
+     * tilt_search (the automatic tilt of tilted sampling),
+     * eigen_solves (all realisations), tables (tables, figures, report).
+     */
+    const PhaseTimings &phase_timings() const { return timings_; }
     const AnalysisSettings              &analysis_settings() const { return analysis_; }
-
+    /** True when realisations are drawn from a tilted law (sampling.h). */
+    bool                                 tilted() const { return model_.tilted(); }
     /** The parsed model (for commands that reuse a study's set-up). */
-    const StudyModel &model() const { return model_; }
+    const StudyModel                    &model() const { return model_; }
+
 
   private:
     void make_grid();
@@ -83,8 +96,24 @@ namespace alloyspec
     void assemble();
     void solve(const ResultsStore &store, const RunOptions &options);
     void postprocess(const ResultsStore &store, const RunOptions &options);
-    /** Stores parameters.prm; on resume, refuses other model parameters than stored. */
-    void check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const;
+    /**
+     * Stores ResultsStore::parameters_file (read under either name); on resume, refuses other model parameters than
+     * stored, and a folder whose records have lost their parameter file.
+     * Returns true if the file did not exist before.
+     */
+    bool check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const;
+
+    /** InputError, with the estimate, if the study certainly cannot fit in this machine's memory. */
+    void check_memory() const;
+    /**
+     * `sampling/tilt = auto`: the cross-entropy method (tilt_choice.h) on
+     * pilot realisations of the first boundary condition, scored by their
+     * lowest eigenvalue, with the level lowered towards `sampling/target
+     * energy` step by step (multilevel CE). The pilot's realisations are
+     * numbered from 2^48 on, so they are never part of the sample. The choice
+     * is stored in `tilt.txt`, which a resumed run reuses.
+     */
+    void choose_tilt(const ResultsStore &store, const RunOptions &options, bool root);
 
     /** Pilot solve for `discretisation/accuracy`: sets degree and elements per cell. */
     void choose_for_accuracy(bool root);
@@ -93,6 +122,12 @@ namespace alloyspec
     void export_eigenfunctions(std::uint64_t realisation, std::size_t boundary_index,
                                const std::vector<double> &cell_values, const EigenResult &result) const;
     RealisationRecord solve_one(std::uint64_t realisation, std::size_t boundary_index);
+    /**
+     * For a fixed potential: the lowest four eigenfunctions on a line (1D), the
+     * domain (2D) or the mid-plane (3D), as eigenfunction_slice_<bc>.csv.
+     */
+    void write_eigenfunction_slices(std::uint64_t realisation, std::size_t boundary_index,
+                                    const EigenResult &result) const;
 
     StudyModel             model_;
     /** Set when `discretisation/accuracy` chose degree and elements per cell. */
@@ -105,8 +140,12 @@ namespace alloyspec
     std::unique_ptr<RealisationTeams>             teams_;
     std::unique_ptr<EigenSolver>                  solver_;
     std::vector<std::unique_ptr<ErrorEstimator>>  estimators_; ///< per boundary, if estimating
-    std::map<std::string, double>                 timings_;
+    PhaseTimings                                  timings_;
     std::size_t                                   solved_here_ = 0;
+    /** Rank 0: a record of this run reached the folder (a failure then keeps the folder). */
+    bool                                          stored_any_ = false;
     std::string                                   output_directory_;
+    /** What the automatic tilt choice did, for run.json. */
+    std::string                                   tilt_log_;
   };
 } // namespace alloyspec

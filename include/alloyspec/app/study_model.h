@@ -11,6 +11,7 @@
 #include <alloyspec/fe/geometry.h>
 #include <alloyspec/model/lattice.h>
 #include <alloyspec/model/potential_model.h>
+#include <alloyspec/model/sampling.h>
 #include <alloyspec/model/units.h>
 #include <alloyspec/solver/eigen_solver.h>
 #include <alloyspec/solver/error_estimate.h>
@@ -40,7 +41,8 @@ namespace alloyspec
    * Subsections and their one owner each:
    * `lattice` (Lattice), `units` (UnitSystem), `potential` (PotentialModel),
    * `discretisation` (DiscretisationSettings), `spectrum` (SpectrumSettings),
-   * `study` (StudySettings). `analysis` and `landscape` belong to the
+   * `study` (StudySettings), `sampling` (SamplingSettings). `analysis` and
+   * `landscape` belong to the
    * commands that use them (declare_all_parameters()).
    *
    * Two unit systems meet here: the user's (the parameter file, every table
@@ -70,6 +72,19 @@ namespace alloyspec
     const EigenSolverSettings    &solver() const { return solver_; }
     const std::vector<Boundary>  &boundaries() const { return spectrum_.boundaries; }
     const StudySettings          &study() const { return study_; }
+    const SamplingSettings       &sampling() const { return sampling_; }
+    /** True when realisations are drawn from a tilted law (sampling.h). */
+    bool                          tilted() const { return sampling_.is_tilted(); }
+    /** Draws from now on with tilt @p theta (the automatic choice, or a stored study's). */
+    void                          set_tilt(double theta);
+    /**
+     * The tilt the study stored in @p directory was run at: the parameter, or
+     * for `sampling/tilt = auto` the choice kept in tilt_file; InputError when
+     * that file is missing (the weights could not be reconstructed).
+     */
+    double                        stored_tilt(const std::string &directory) const;
+    /** Where a run with `sampling/tilt = auto` keeps its choice (read on resume and by summarise). */
+    static constexpr const char  *tilt_file = "tilt.txt";
 
     /** Cell values @f$q_n(\omega_r)@f$ of realisation @p r in solver units. */
     std::vector<double> solver_cell_values(std::uint64_t r) const;
@@ -92,10 +107,13 @@ namespace alloyspec
     std::pair<double, std::vector<double>> domain_volumes(const Discretisation *made = nullptr) const;
 
     /**
-     * The records of this study's realisations stored in @p directory, in the
-     * user's unit, with everything needed to tabulate them (summary.h), and the
-     * phase-space count @f$N_{sc}(E)@f$ of the same realisations regenerated
-     * from the counter-based stream. @p parameters_prm: the stored parameter text.
+     * The complete records of this study's realisations stored in @p directory
+     * (every boundary condition present; the strict reader's warnings printed),
+     * in the user's unit, with everything needed to tabulate them (summary.h),
+     * and the phase-space count @f$N_{sc}(E)@f$ of the same realisations
+     * regenerated from the counter-based stream, weighted by @f$w_r@f$ when
+     * tilted. @p parameters_prm: the stored parameter text. InputError when
+     * no complete realisation is stored.
      */
     StoredStudy describe_stored(const std::string &directory, const std::string &parameters_prm) const;
 
@@ -115,6 +133,12 @@ namespace alloyspec
     std::vector<double> semiclassical_count(std::uint64_t r,
                                             const std::pair<double, std::vector<double>> &volumes) const;
 
+    /**
+     * InputError unless every cell value stays within the magnitude the
+     * solver resolves (max_potential_magnitude solver units).
+     */
+    void check_potential_scale() const;
+
   private:
     Lattice                lattice_;
     UnitSystem             units_;
@@ -124,6 +148,7 @@ namespace alloyspec
     SpectrumSettings       spectrum_;
     EigenSolverSettings    solver_;
     StudySettings          study_;
+    SamplingSettings       sampling_;
   };
 
   /** Every subsection of every command: StudyModel's, `analysis` and `landscape`. */

@@ -19,7 +19,7 @@ namespace alloyspec
     std::uint64_t         first_realisation = 0;
     std::uint64_t         seed              = 1;
     std::vector<double>   energies;
-    std::string           energies_text = "0:0.1:10";
+    std::string           energies_text = "0 to 10 by 0.1";
     /** Eigenfunction indices written as VTU for the realisations below. */
     std::vector<unsigned int>  export_eigenfunctions;
     std::vector<std::uint64_t> export_realisations{0};

@@ -8,7 +8,7 @@
 namespace alloyspec
 {
   /**
-   * Prints "label: done/total, rate/s, about T left" on one rewritten line of
+   * Prints "label: done/total, T elapsed, rate, about T left, phase" on one rewritten line of
    * standard error when that is a terminal; prints nothing otherwise, so that
    * log files stay clean.
    */
@@ -18,6 +18,12 @@ namespace alloyspec
     Progress(std::string label, std::size_t total, bool enabled);
     /** Reports that @p done items (in total) are finished. */
     void update(std::size_t done);
+    /**
+     * Names what is being done now ("solving realisation 0, dirichlet"), shown
+     * with the elapsed time, so that the line says something before the first
+     * item is finished.
+     */
+    void phase(const std::string &what);
     /** Ends the line. */
     void finish();
 
@@ -31,6 +37,10 @@ namespace alloyspec
     std::size_t                           total_;
     bool                                  enabled_;
     bool                                  printed_ = false;
+    std::size_t                           done_    = 0;
+    std::string                           phase_;
+
+    void print();
     std::chrono::steady_clock::time_point start_;
   };
 } // namespace alloyspec

@@ -4,6 +4,7 @@
 #include <alloyspec/model/boundary.h>
 
 #include <cstddef>
+#include <array>
 #include <memory>
 #include <optional>
 #include <string>
@@ -24,8 +25,14 @@ namespace alloyspec
    */
   struct DiscretisationSettings
   {
-    unsigned int degree            = 2; ///< p of FE_Q(p), 1..4
-    unsigned int elements_per_cell = 2; ///< r elements per cell edge, 1..8
+    /** The space FE_Q(@p p) with @p r elements per cell edge, no error estimate. */
+    DiscretisationSettings(unsigned int p = 2, unsigned int r = 2)
+      : degree(p)
+      , elements_per_cell(r)
+    {}
+
+    unsigned int degree;            ///< p of FE_Q(p), 1..4
+    unsigned int elements_per_cell; ///< r elements per cell edge, 1..8
     /** `error estimate`: "none" or "richardson". */
     std::string           error_estimate = "none";
     /** `accuracy`: relative target in [1e-12, 0.1]; empty: keep degree and r. */
@@ -150,6 +157,14 @@ namespace alloyspec
     virtual void localisation_measures(const std::vector<std::vector<double>> &vectors,
                                        std::size_t lattice_cell, std::vector<double> &ipr,
                                        std::vector<double> &weight) const = 0;
+
+    /**
+     * Values of the discrete function @p u (DoF values) on a grid of (p+2)^d
+     * points per element, as (x, y, u) triples: along the line in 1D (y = 0),
+     * over the domain in 2D, and on the plane z = mid-height of the domain in
+     * 3D (elements are taken as straight along z, true on boxes), for maps.
+     */
+    virtual std::vector<std::array<double, 3>> slice_values(const std::vector<double> &u) const = 0;
 
     /**
      * Writes @p fields (DoF vectors with names) and the cell potential as a cell

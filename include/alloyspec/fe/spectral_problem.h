@@ -22,6 +22,26 @@ namespace alloyspec
     std::vector<bool>     constrained;        ///< per DoF
     double                spurious_eigenvalue = 0;
     double                lower_bound = 0;    ///< every eigenvalue is ≥ this (min of the potential)
+    /**
+     * Every genuine eigenvalue is ≤ this: @f$\lambda_{\max}(A, M) + \max q@f$,
+     * with the element-by-element bound on @f$\lambda_{\max}(A, M)@f$; 0 if unknown.
+     */
+    double                upper_bound = 0;
+
+    /**
+     * Eigenvalues at or above this belong to the constrained rows: the midpoint
+     * between the genuine spectrum's bound and the constrained rows' value.
+     * Half the constrained value alone (the rule used before) lies below the
+     * genuine spectrum once the potential is large: with q ≡ 1000 on a Q1 mesh
+     * every genuine eigenvalue (≥ 1000) was above it and the list came back
+     * empty, so the inertia check could never agree.
+     */
+    double spurious_threshold() const
+    {
+      return upper_bound > 0 && upper_bound < spurious_eigenvalue ?
+               0.5 * (upper_bound + spurious_eigenvalue) :
+               0.5 * spurious_eigenvalue;
+    }
 
     /** Number of genuine eigenvalues: the DoFs that are not constrained (all lie below μ). */
     std::size_t n_genuine() const

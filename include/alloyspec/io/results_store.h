@@ -30,6 +30,11 @@ namespace alloyspec
     double              potential_max  = 0;
     double              solve_seconds  = 0;
     unsigned int        attempts       = 0;
+    /**
+     * @f$\ln w = \sum_n \ln p(q_n)/p_\theta(q_n)@f$, the log-likelihood ratio of
+     * the realisation's cell values (sampling.h); 0 for plain sampling.
+     */
+    double              log_weight     = 0;
 
     /** Lines for eigenvalues.csv (one per eigenvalue, no header). */
     std::string eigenvalue_lines() const;
@@ -40,8 +45,11 @@ namespace alloyspec
   /**
    * An output folder. Records are appended to `eigenvalues.csv` and then
    * `realisations.csv`, each write flushed and fsync'ed, so a crash leaves at
-   * most a partial last record, which the reader ignores: a realisation counts
-   * as stored only once its line in realisations.csv is complete.
+   * most the remains of the last write at the ends of the files: a realisation
+   * counts as stored only once its line in realisations.csv is complete. The
+   * records are read back by read_stored_records() (record_reader.h). Write
+   * failures (full disk, permissions) are InputError: the user can fix them
+   * and resume.
    */
   class ResultsStore
   {
@@ -50,7 +58,21 @@ namespace alloyspec
       "realisation,boundary,index,eigenvalue,residual,error,ipr,central_weight";
     static constexpr const char *summary_header =
       "realisation,boundary,n_eigenvalues,complete_up_to,inertia_count,potential_min,"
-      "potential_max,solve_seconds,attempts";
+      "potential_max,solve_seconds,attempts,log_weight";
+
+    /**
+     * The effective parameters of a study, in deal.II's short format, written
+     * into its folder when it starts; `--resume` and `summarise` read them.
+     */
+    static constexpr const char *parameters_file = "as_run.prm";
+    /** The name of that file in folders written by earlier versions; still read. */
+    static constexpr const char *legacy_parameters_file = "parameters.prm";
+
+    /**
+     * Path of the stored parameter file in @p directory: parameters_file if it
+     * exists, else legacy_parameters_file if that exists, else an empty string.
+     */
+    static std::string stored_parameters_path(const std::string &directory);
 
     /**
      * Opens @p directory for a new study: creates it if needed; throws
@@ -61,6 +83,26 @@ namespace alloyspec
     ResultsStore(std::string directory, bool resume);
 
     const std::string &directory() const { return directory_; }
+    /**
+     * The text of the stored parameter file of study folder @p directory.
+     * InputError (naming the file) if it is missing, not a file, unreadable,
+     * or holds no parameter at all: an empty file would otherwise be read as
+     * the defaults, a different model than the one stored.
+     */
+    static std::string read_stored_parameters(const std::string &directory);
+    /** True if @p directory holds stored records (either CSV file). */
+    static bool holds_records(const std::string &directory);
+    /** A store for a folder that rank 0 has already checked and opened. */
+    static ResultsStore attach(std::string directory);
+
+    /**
+     * InputError if the folder holds an earlier study's records or run.json.
+     * Checked again once the folder is locked: another run may have filled it
+     * between the constructor's check and the lock.
+     */
+    void refuse_earlier_study() const;
+    /** True if the constructor created the folder (it did not exist before). */
+    bool created_folder() const { return created_; }
     std::string        path(const std::string &file) const;
 
     /** Appends one record durably (write, flush, fsync). */
@@ -68,8 +110,13 @@ namespace alloyspec
     /** Same, from already formatted lines (records gathered from other ranks). */
     void append_text(const std::string &eigenvalue_lines, const std::string &summary_lines) const;
 
-    /** Reads all complete records of @p directory, ignoring a torn last record. */
-    static std::vector<RealisationRecord> read(const std::string &directory);
+    /**
+     * Before a resume appends to the folder: reads the stored records strictly
+     * (read_stored_records(), InputError if the folder is damaged) and cuts the
+     * remains of an interrupted write from the ends of both files. Returns the
+     * reader's warnings.
+     */
+    std::vector<std::string> prepare_resume() const;
 
     /** Writes @p content to @p file in the folder atomically (temporary file, fsync, rename). */
     void write_file(const std::string &file, const std::string &content) const;
@@ -78,6 +125,8 @@ namespace alloyspec
                               const std::string &content);
 
   private:
+    ResultsStore() = default;
     std::string directory_;
+    bool        created_ = false;
   };
 } // namespace alloyspec

@@ -14,6 +14,17 @@ namespace dealii
 namespace alloyspec
 {
   /**
+   * Range of `lattice/cell size`. The eigenvalues scale like 1/a², so a cell
+   * of 1e-300 or 1e300 makes the stiffness matrix overflow or vanish next to
+   * the mass matrix; within [0.01, 1000] the kinetic scale 1/a² lies in
+   * [1e-6, 1e4], the same band as the potential values (max_potential_magnitude
+   * in app/study.cc), where the factorisations keep full relative accuracy.
+   * Physically: from a tenth of an ångström to a micrometre per cell in nm.
+   */
+  inline constexpr double min_cell_size = 1e-2;
+  inline constexpr double max_cell_size = 1e3;
+
+  /**
    * A box made of unit cells of edge length @f$a@f$ (the "cell size"), with
    * @f$L_1 \times \dots \times L_d@f$ cells, @f$d \in \{1,2,3\}@f$ given by the
    * number of entries of `set cells`. Cells are numbered lexicographically with

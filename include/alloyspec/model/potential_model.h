@@ -58,8 +58,32 @@ namespace alloyspec
     /** Build directly (tests): fixed cell values (size must be lattice.n_cells()). */
     void set_fixed_values(std::vector<double> values, const Lattice &lattice);
 
-    /** Values of all cells for realisation @p r: q_n = F^{-1}(uniform_open01(seed, r, n)). */
+    /**
+     * Values of all cells for realisation @p r: q_n = F^{-1}(uniform_open01(seed, r, n)),
+     * with F the sampling law: the model law, or its tilt after set_tilt().
+     * A pure function of (seed, realisation, cell, tilt).
+     */
     std::vector<double> cell_values(std::uint64_t seed, std::uint64_t realisation) const;
+
+    /**
+     * Draw cell values from the law tilted by θ (SingleSiteLaw::tilted(); θ in
+     * the law's units). θ = 0 is plain sampling. Refused (InputError naming
+     * `sampling/method`) for fixed cell values.
+     */
+    void   set_tilt(double theta);
+    double tilt() const { return theta_; }
+    /**
+     * @f$\ln w = \ln\prod_n p(q_n)/p_\theta(q_n) = \theta\sum_n q_n + N\ln M(\theta)@f$
+     * of values @p q drawn by cell_values() (the law's units); exactly 0 for
+     * plain sampling. The sum is compensated (Neumaier), so that ln w keeps
+     * full precision when θΣq and N ln M nearly cancel.
+     */
+    double log_weight(const std::vector<double> &q) const;
+    /** The law cell values are drawn from (the tilted one after set_tilt()). */
+    const SingleSiteLaw *sampling_law() const
+    {
+      return tilted_law_ ? tilted_law_.get() : law_.get();
+    }
 
     bool                 is_random() const { return law_ != nullptr; }
     const SingleSiteLaw *law() const { return law_.get(); }
@@ -76,6 +100,10 @@ namespace alloyspec
 
   private:
     std::shared_ptr<const SingleSiteLaw> law_;
+    /** Set by set_tilt() with θ ≠ 0, with θ and ln M(θ). */
+    std::shared_ptr<const SingleSiteLaw> tilted_law_;
+    double                               theta_      = 0;
+    double                               log_moment_ = 0;
     std::vector<double>                  fixed_values_;
     std::size_t                          n_cells_ = 0;
     /** Where fixed values came from (for description()). */

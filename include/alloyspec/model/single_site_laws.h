@@ -7,6 +7,8 @@
 
 namespace alloyspec
 {
+  struct TiltedLaw;
+
   /**
    * The law of one cell value @f$q_n@f$, sampled by inversion: sample(u) is the
    * quantile function @f$F^{-1}(u) = \inf\{q : F(q) \ge u\}@f$ for
@@ -30,6 +32,26 @@ namespace alloyspec
     /** Supremum of the support; +∞ for the untruncated Gaussian law. */
     virtual double      support_max() const = 0;
     virtual std::string description() const = 0;
+
+    /**
+     * The exponentially tilted law @f$p_\theta(q) = e^{-\theta q} p(q)/M(\theta)@f$,
+     * @f$M(\theta) = \mathbb{E}_p[e^{-\theta q}]@f$, with @f$\ln M(\theta)@f$,
+     * so that one draw q from it carries the log-likelihood ratio
+     * @f$\ln\frac{p(q)}{p_\theta(q)} = \theta q + \ln M(\theta)@f$
+     * (tilted_laws.h). θ > 0 favours low values. θ = 0 returns a copy with
+     * @f$\ln M = 0@f$ exactly. Throws InputError naming `sampling/tilt` when
+     * the tilt is too strong for the law to be represented in double
+     * precision.
+     */
+    virtual TiltedLaw tilted(double theta) const = 0;
+  };
+
+  /** A law tilted by θ (SingleSiteLaw::tilted()) and @f$\ln M(\theta)@f$. */
+  struct TiltedLaw
+  {
+    std::unique_ptr<SingleSiteLaw> law;
+    double                         theta      = 0;
+    double                         log_moment = 0;
   };
 
   // The factories throw InputError, naming the matching `potential/...`
@@ -127,33 +149,27 @@ namespace alloyspec
   double standard_normal_cdf(double x);
 
   /**
-   * @f$\Phi^{-1}(u)@f$ for u in (0, 1) (±∞ at 1 and 0): the rational
-   * approximation of P. J. Acklam ("An algorithm for computing the inverse
-   * normal cumulative distribution function", 2003; relative error below
-   * 1.2e-9), refined by one Halley step on @f$\Phi(x) - u@f$ with
-   * Φ from std::erfc, which brings it to rounding level. Evaluated for
-   * u ≤ 1/2 and mirrored (@f$\Phi^{-1}(u) = -\Phi^{-1}(1-u)@f$; 1 − u is exact
-   * there) so the upper tail is as accurate as the lower one.
+   * @f$\Phi^{-1}(u)@f$ for u in (0, 1), −∞ at 0, +∞ at 1, NaN outside [0, 1]:
+   * Boost.Math's normal quantile (@f$-\sqrt2\,\operatorname{erfc}^{-1}(2u)@f$),
+   * evaluated for u ≤ 1/2 and mirrored (@f$\Phi^{-1}(u) = -\Phi^{-1}(1-u)@f$;
+   * 1 − u is exact there) so the upper tail is as accurate as the lower one.
    */
   double standard_normal_quantile(double u);
 
   /**
    * Regularised incomplete beta function
-   * @f$I_x(a,b) = \frac{1}{B(a,b)}\int_0^x t^{a-1}(1-t)^{b-1}\,dt@f$, by its
-   * continued fraction evaluated with the modified Lentz method (Press,
-   * Teukolsky, Vetterling, Flannery, Numerical Recipes, 3rd ed., 2007, §6.4;
-   * Lentz, Appl. Opt. 15 (1976) 668), used for x < (a+1)/(a+b+2) and
-   * through @f$I_x(a,b) = 1 - I_{1-x}(b,a)@f$ otherwise.
+   * @f$I_x(a,b) = \frac{1}{B(a,b)}\int_0^x t^{a-1}(1-t)^{b-1}\,dt@f$
+   * (DLMF §8.17.2), from Boost.Math (`boost::math::ibeta`); 0 for x ≤ 0 and 1
+   * for x ≥ 1.
    */
   double incomplete_beta_ratio(double a, double b, double x);
 
   /**
-   * x in [0, 1] with @f$I_x(a,b) = u@f$: safeguarded Newton iteration on
-   * @f$\ln I_{e^t}(a,b) = \ln u@f$ in @f$t = \ln x@f$ (nearly linear in the
-   * lower tail, where @f$I_x \approx x^a/(aB)@f$), with bisection when a step
-   * leaves the bracket, to a relative accuracy of about 1e-13 in x. For
+   * x in [0, 1] with @f$I_x(a,b) = u@f$, from Boost.Math
+   * (`boost::math::ibeta_inv`, checked by `ibeta` and replaced by bisection
+   * on ln x where Boost 1.74 fails); 0 for u ≤ 0 and 1 for u ≥ 1. For
    * u > 1/2 it solves the mirrored problem
-   * @f$1 - x = \text{beta\_quantile}(1-u; b, a)@f$.
+   * @f$1 - x = \text{beta\_quantile}(b, a, 1-u)@f$.
    */
   double beta_quantile(double a, double b, double u);
 } // namespace alloyspec

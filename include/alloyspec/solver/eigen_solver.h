@@ -89,8 +89,6 @@ namespace alloyspec
      */
     void use_teams(RealisationTeams *teams);
 
-    /** Number of eigenvalues of the pencil strictly below @p energy (inertia count). */
-    static std::size_t count_below(const SpectralProblem &problem, double energy);
 
     const EigenSolverSettings &settings() const { return settings_; }
 

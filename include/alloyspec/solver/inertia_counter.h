@@ -48,6 +48,12 @@ namespace alloyspec
      */
     std::size_t negative_pivots(backend::MatrixPair pencil, double energy);
 
+    /**
+     * count_below() from a counter of its own: ordering and symbolic analysis
+     * included (verification, and the baseline solver's fresh objects).
+     */
+    static std::size_t fresh_count_below(const SpectralProblem &problem, double energy);
+
     /** Numeric factorisations done so far (symbolic ones: at most 1). */
     std::size_t n_factorisations() const { return n_factorisations_; }
 

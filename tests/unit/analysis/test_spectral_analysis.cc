@@ -259,6 +259,7 @@ TEST(AnalysisSettings, DefaultsAndErrorsNameTheEntry)
   EXPECT_DOUBLE_EQ(s.confidence_level, 0.95);
   EXPECT_TRUE(s.lifshitz_window.empty());
   EXPECT_EQ(s.figure_formats, (std::vector<std::string>{"png", "svg"}));
+  EXPECT_TRUE(s.lorentzian_automatic && s.gaussian_automatic && s.bin_automatic);
 
   prm.enter_subsection("analysis");
   prm.set("lifshitz window", "0.5, 1.5");
@@ -284,4 +285,36 @@ TEST(AnalysisSettings, DefaultsAndErrorsNameTheEntry)
           EXPECT_NE(std::string(e.what()).find("E_low < E_high"), std::string::npos);
         }
     }
+}
+
+// Automatic widths follow the spectrum: for levels spaced exactly h apart the
+// mean spacing is h, h/R for the levels of R realisations pooled (arithmetic,
+// no source needed), so η = h/R, σ = 2h/R and the bin width is a tenth of the
+// trusted range; a width the user set is kept.
+TEST(AnalysisSettings, AutomaticWidthsFollowTheLevelSpacing)
+{
+  constexpr double h = 0.02, bottom = 0.5;
+  std::vector<RealisationRecord> records(3);
+  for (std::size_t k = 0; k < records.size(); ++k)
+    {
+      records[k].boundary    = "dirichlet";
+      records[k].realisation = k;
+      for (int j = 0; j < 41; ++j)
+        records[k].eigenvalues.push_back(bottom + h * j + 1e-3 * double(k));
+      records[k].complete_up_to = bottom + 40 * h;
+    }
+  AnalysisSettings s;
+  s.lorentzian_automatic = s.gaussian_automatic = s.bin_automatic = true;
+  s.gaussian_automatic = false;
+  s.gaussian_width     = 0.7;
+  std::vector<std::string> notes;
+  const AnalysisSettings   r = s.resolved_for(records, notes);
+  constexpr double rounding = 1e-12; // sums of 40 spacings of size 1e-2 in doubles
+  // Three realisations pool to a spacing h/3.
+  EXPECT_NEAR(r.lorentzian_width, h / 3, rounding);
+  EXPECT_DOUBLE_EQ(r.gaussian_width, 0.7);
+  // Levels trusted up to complete_up_to = bottom + 40h; the lowest is bottom.
+  EXPECT_NEAR(r.bin_width, (40 * h) / 10, rounding);
+  EXPECT_EQ(notes.size(), 2u);
+  EXPECT_FALSE(r.lorentzian_automatic || r.bin_automatic);
 }

@@ -1,5 +1,4 @@
-// Tests of energy grids, counting functions and the IDS accumulator.
-#include <alloyspec/core/errors.h>
+// Tests of counting functions and the IDS accumulator.
 #include <alloyspec/analysis/spectrum_statistics.h>
 
 #include <gtest/gtest.h>
@@ -13,64 +12,10 @@ namespace
 {
   using alloyspec::counting_function;
   using alloyspec::IdsAccumulator;
-  using alloyspec::InputError;
-  using alloyspec::parse_energy_grid;
 
   // Hand-checkable values are exact up to the rounding of one division.
   constexpr double kExact = 1e-14;
-
-  /** The message of the InputError thrown for @p text, or "" if none is thrown. */
-  std::string grid_error(const std::string &text, const std::string &name = "study/energies")
-  {
-    try
-      {
-        parse_energy_grid(text, name);
-      }
-    catch (const InputError &e)
-      {
-        return e.what();
-      }
-    return {};
-  }
 } // namespace
-
-TEST(EnergyGrid, Ranges)
-{
-  EXPECT_EQ(parse_energy_grid("0:0.5:2"), (std::vector<double>{0.0, 0.5, 1.0, 1.5, 2.0}));
-  EXPECT_EQ(parse_energy_grid(" 1 : 1 : 1 "), (std::vector<double>{1.0}));
-  // b not on the grid: stop below it.
-  EXPECT_EQ(parse_energy_grid("-1:0.75:1"), (std::vector<double>{-1.0, -0.25, 0.5}));
-
-  // 0.1 is not representable; 0 + 30·0.1 must still reach 3 and end exactly there.
-  const auto decimal = parse_energy_grid("0:0.1:3");
-  ASSERT_EQ(decimal.size(), 31u);
-  EXPECT_EQ(decimal.back(), 3.0);
-  EXPECT_NEAR(decimal[7], 0.7, kExact);
-
-  EXPECT_EQ(parse_energy_grid("0:1:999999").size(), 1000000u);
-}
-
-TEST(EnergyGrid, Lists)
-{
-  EXPECT_EQ(parse_energy_grid("0, 0.5, 2"), (std::vector<double>{0.0, 0.5, 2.0}));
-  EXPECT_EQ(parse_energy_grid("3.25"), (std::vector<double>{3.25}));
-  EXPECT_EQ(parse_energy_grid("-2,1e1"), (std::vector<double>{-2.0, 10.0}));
-}
-
-TEST(EnergyGrid, ErrorsNameParameterAndForm)
-{
-  for (const std::string bad : {"", "  ", "0:1", "0:0:1", "0:-1:2", "2:1:1", "0:1:2:3", "a:1:2",
-                                "1, 2, 2", "3, 1", "1,,2", "1, x", "nan", "inf, 5", "1e400",
-                                "0:1:1000000", "0:1e-7:1", "1 2"})
-    {
-      const std::string message = grid_error(bad, "study/energies");
-      ASSERT_FALSE(message.empty()) << "accepted '" << bad << "'";
-      EXPECT_NE(message.find("study/energies"), std::string::npos) << message;
-      EXPECT_NE(message.find("start:step:stop"), std::string::npos) << message;
-      EXPECT_NE(message.find("comma-separated"), std::string::npos) << message;
-    }
-  EXPECT_NE(grid_error("0:-1:1", "output/energies").find("output/energies"), std::string::npos);
-}
 
 TEST(CountingFunction, HandChecked)
 {

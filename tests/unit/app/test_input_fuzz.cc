@@ -10,7 +10,7 @@
 #include <alloyspec/core/errors.h>
 #include <alloyspec/model/lattice.h>
 #include <alloyspec/model/potential_model.h>
-#include <alloyspec/analysis/spectrum_statistics.h>
+#include <alloyspec/model/energy_grid.h>
 
 #include <deal.II/base/parameter_handler.h>
 
@@ -101,7 +101,7 @@ end
 subsection study
   set realisations = 2
   set seed = 1
-  set energies = 0:0.1:3
+  set energies = 0 to 3 by 0.1
 end
 )";
 
@@ -151,8 +151,9 @@ TEST(InputFuzz, OutOfRangeAndMalformedValues)
     {"tolerance", {"0", "1", "-1e-10", "nan", ""}},
     {"realisations", {"0", "-1", "4294967296", "1.5", "", "1e3"}},
     {"seed", {"-1", "18446744073709551616", "0x10", "", "1 2"}},
-    {"energies", {"", "3:0.1:0", "0:0:1", "0:-0.1:1", "0:1e-300:1", "1, 0.5", "0, 0, 1", "nan:1:2",
-                  "0:0.1", "0:0.1:1:2", "a:b:c", "0:inf:1"}},
+    {"energies", {"", "3 to 0 by 0.1", "0 to 1 by 0", "0 to 1 by -0.1", "0 to 1 by 1e-300",
+                  "1, 0.5", "0, 0, 1", "nan to 2 by 1", "0 to 0.1", "0 to 1 by 0.1 by 2",
+                  "a to b by c", "0 to 1 by inf", "0:0.1:1"}},
   };
   std::size_t n = 0;
   for (const auto &[name, values] : bad)
@@ -216,8 +217,10 @@ TEST(InputFuzz, EnergyGridParser)
   // In-process: junk and adversarial grids (a step so small the grid would
   // not fit in memory must be refused, not attempted).
   std::mt19937 rng(3);
-  const std::vector<std::string> fixed = {"0:1e-300:1", "0:5e-7:1", "-1e308:1e300:1e308", "1e400:1:2",
-                                          ":", "::", ",", "1,", ",1", "1,,2", "0:1:nan"};
+  const std::vector<std::string> fixed = {"0 to 1 by 1e-300", "0 to 1 by 5e-7",
+                                          "-1e308 to 1e308 by 1e300", "1e400 to 2 by 1",
+                                          "to", "to by", ":", "::", ",", "1,", ",1", "1,,2",
+                                          "0 to nan by 1", "0:1:2"};
   for (const auto &text : fixed)
     EXPECT_THROW(alloyspec::parse_energy_grid(text, "study/energies"), alloyspec::InputError)
       << text;
@@ -226,7 +229,7 @@ TEST(InputFuzz, EnergyGridParser)
       std::string text = junk(rng);
       // Splice a separator into the junk sometimes, to reach the range/list branches.
       if (i % 3 == 0)
-        text = "0:" + text + ":1";
+        text = "0 to " + text + " by 1";
       else if (i % 3 == 1)
         text = "0, " + text;
       EXPECT_THROW(alloyspec::parse_energy_grid(text, "study/energies"), alloyspec::InputError)

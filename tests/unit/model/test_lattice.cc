@@ -6,6 +6,8 @@
 
 #include <gtest/gtest.h>
 
+#include <cmath>
+
 #include <sstream>
 #include <string>
 
@@ -152,12 +154,19 @@ TEST(Lattice, PatternRejectsOutOfRangeCellCounts)
 }
 
 
-TEST(Lattice, NonPositiveCellSizeIsAnInputError)
+TEST(Lattice, CellSizeOutsideItsRangeIsAnInputError)
 {
   const std::string message = input_error_message([] { parse("set cell size = 0"); });
   EXPECT_NE(message.find("lattice/cell size"), std::string::npos) << message;
-  EXPECT_NE(message.find("> 0"), std::string::npos) << message;
+  EXPECT_NE(message.find("0.01 to 1000"), std::string::npos) << message;
   EXPECT_THROW(Lattice({4}, -1.0), InputError);
+  // Inside the pattern (> 0) but outside what the numerics take (issue: 1e-300
+  // and 1e300 ended in a solver dump with exit status 1).
+  EXPECT_THROW(Lattice({4}, 1e-300), InputError);
+  EXPECT_THROW(Lattice({4}, 1e300), InputError);
+  EXPECT_THROW(Lattice({4}, std::nan("")), InputError);
+  EXPECT_NO_THROW(Lattice({4}, alloyspec::min_cell_size));
+  EXPECT_NO_THROW(Lattice({4}, alloyspec::max_cell_size));
 }
 
 

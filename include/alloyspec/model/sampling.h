@@ -1,0 +1,58 @@
+/** @file sampling.h  Subsection `sampling`: plain or tilted (importance) sampling of realisations. */
+#pragma once
+
+#include <optional>
+#include <string>
+
+namespace dealii
+{
+  class ParameterHandler;
+}
+
+namespace alloyspec
+{
+  /** How the cell values of a realisation are drawn. */
+  enum class SamplingMethod
+  {
+    /** From the model law p: every realisation has weight 1. */
+    plain,
+    /**
+     * From the exponentially tilted law @f$p_\theta(q) \propto e^{-\theta q}p(q)@f$
+     * (SingleSiteLaw::tilted()); each realisation carries the log-likelihood
+     * ratio @f$\ln w = \sum_n \ln\frac{p(q_n)}{p_\theta(q_n)} = \theta\sum_n q_n + N\ln M(\theta)@f$,
+     * and averages are weighted by w (importance sampling; Rubinstein &
+     * Kroese, Simulation and the Monte Carlo Method, ch. 5).
+     */
+    tilted
+  };
+
+  /**
+   * Subsection `sampling`, owned here:
+   * - `method` = plain | tilted (plain: exactly the untilted study);
+   * - `tilt` = auto | θ, a number in inverse units of the study's energy unit
+   *   (θ > 0 favours low cell values, i.e. the band bottom);
+   * - `target energy` = E in the study's energy unit, for `tilt = auto`: the
+   *   tilt is chosen by a short pilot to estimate N(E) best (tilt_choice.h);
+   * - `pilot realisations`: size of that pilot.
+   */
+  struct SamplingSettings
+  {
+    SamplingMethod        method    = SamplingMethod::plain;
+    bool                  automatic = false;
+    /** θ when given (or once chosen), in inverse units of the study's energy unit. */
+    double                tilt      = 0.0;
+    std::optional<double> target_energy;
+    unsigned int          pilot_realisations = 40;
+
+    static void declare_parameters(dealii::ParameterHandler &prm);
+    /** Reads subsection `sampling`; InputError naming the entry on bad input. */
+    void        parse_parameters(dealii::ParameterHandler &prm);
+
+    bool        is_tilted() const { return method == SamplingMethod::tilted; }
+    /** "plain", "tilted" */
+    std::string method_name() const;
+  };
+
+  /** Largest |θ| accepted by `sampling/tilt` (per energy unit). */
+  constexpr double max_tilt = 1e6;
+} // namespace alloyspec

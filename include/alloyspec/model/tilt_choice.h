@@ -1,0 +1,32 @@
+/** @file tilt_choice.h  Choosing the tilt θ by the cross-entropy method from a short pilot. */
+#pragma once
+
+#include <alloyspec/model/single_site_laws.h>
+
+#include <vector>
+
+namespace alloyspec
+{
+  /** One pilot realisation, as the cross-entropy update needs it. */
+  struct PilotSample
+  {
+    /** Mean cell value @f$\bar q = \frac1N\sum_n q_n@f$ (the law's units). */
+    double mean_cell_value = 0;
+    /** ln w of the realisation relative to the model law (PotentialModel::log_weight()). */
+    double log_weight = 0;
+  };
+
+  /**
+   * The cross-entropy update of an exponential tilt (de Boer, Kroese, Mannor &
+   * Rubinstein, Ann. Oper. Res. 134 (2005) 19): among the tilts of the model
+   * law p, the one closest in cross entropy to p conditioned on the elite
+   * event maximises @f$\sum_{r\in\text{elite}} w_r \ln p_\theta(q_r)@f$. For
+   * i.i.d. cells in a natural exponential family this is moment matching,
+   * @f$\mathbb{E}_\theta[q] = \sum_r w_r \bar q_r / \sum_r w_r@f$, solved here
+   * for θ by bisection (the tilted mean falls strictly with θ), within
+   * |θ| ≤ @p max_abs_tilt and the tilts the law can represent. @p elite must
+   * not be empty.
+   */
+  double cross_entropy_tilt(const SingleSiteLaw &law, const std::vector<PilotSample> &elite,
+                            double max_abs_tilt);
+} // namespace alloyspec

@@ -1,0 +1,99 @@
+/** @file sampling.cc  Parameters of subsection "sampling". */
+#include <alloyspec/core/errors.h>
+#include <alloyspec/model/sampling.h>
+
+#include <deal.II/base/parameter_handler.h>
+
+#include <cmath>
+#include <cstdlib>
+#include <sstream>
+
+namespace alloyspec
+{
+  namespace
+  {
+    bool parse_number(const std::string &text, double &value)
+    {
+      if (text.empty())
+        return false;
+      char *end = nullptr;
+      value     = std::strtod(text.c_str(), &end);
+      return end == text.c_str() + text.size() && std::isfinite(value);
+    }
+
+    std::string trimmed(const std::string &text)
+    {
+      const auto first = text.find_first_not_of(" \t");
+      if (first == std::string::npos)
+        return "";
+      const auto last = text.find_last_not_of(" \t");
+      return text.substr(first, last - first + 1);
+    }
+  } // namespace
+
+  void SamplingSettings::declare_parameters(dealii::ParameterHandler &prm)
+  {
+    prm.enter_subsection("sampling");
+    prm.declare_entry("method", "plain", dealii::Patterns::Selection("plain|tilted"),
+                      "plain: cell values from the model law, every realisation counts "
+                      "equally. tilted: cell values from the exponentially tilted law "
+                      "p_θ(q) ∝ exp(−θ q) p(q), which makes the rare low-potential "
+                      "configurations of the band tail common; each realisation carries its "
+                      "log-likelihood ratio log w = θ Σ q_n + N log M(θ) (column log_weight of "
+                      "realisations.csv) and every average is weighted by w, so the "
+                      "estimates stay unbiased.");
+    prm.declare_entry("tilt", "auto", dealii::Patterns::Anything(),
+                      "θ for method = tilted, in inverse units of the energy unit "
+                      "(|θ| ≤ 1e6; θ > 0 favours low cell values), or auto: chosen by a short "
+                      "pilot to minimise the estimated relative variance of N(target energy).");
+    prm.declare_entry("target energy", "", dealii::Patterns::Anything(),
+                      "Energy (in the study's energy unit) whose IDS the automatic tilt "
+                      "should estimate best; needed with tilt = auto. Empty: not set.");
+    prm.declare_entry("pilot realisations", "40", dealii::Patterns::Integer(8, 10000),
+                      "Realisations of the pilot that chooses tilt = auto (8 to 10000). "
+                      "They are solved at trial tilts and not kept in the sample.");
+    prm.leave_subsection();
+  }
+
+  void SamplingSettings::parse_parameters(dealii::ParameterHandler &prm)
+  {
+    prm.enter_subsection("sampling");
+    method                    = prm.get("method") == "tilted" ? SamplingMethod::tilted
+                                                              : SamplingMethod::plain;
+    const std::string tilt_text   = trimmed(prm.get("tilt"));
+    const std::string target_text = trimmed(prm.get("target energy"));
+    pilot_realisations        = static_cast<unsigned int>(prm.get_integer("pilot realisations"));
+    prm.leave_subsection();
+
+    automatic = false;
+    tilt      = 0.0;
+    target_energy.reset();
+    if (!target_text.empty())
+      {
+        double value = 0;
+        if (!parse_number(target_text, value))
+          throw InputError("sampling/target energy: '" + target_text +
+                           "' is not a finite number (allowed: empty or a number in the "
+                           "study's energy unit)");
+        target_energy = value;
+      }
+    if (tilt_text == "auto")
+      automatic = true;
+    else
+      {
+        double value = 0;
+        if (!parse_number(tilt_text, value) || std::abs(value) > max_tilt)
+          throw InputError("sampling/tilt: '" + tilt_text +
+                           "' is not allowed; allowed are auto or a number in [-1e6, 1e6]");
+        tilt = value;
+      }
+    if (method == SamplingMethod::tilted && automatic && !target_energy)
+      throw InputError("sampling/target energy: must be set when sampling/method = tilted and "
+                       "sampling/tilt = auto (or give sampling/tilt as a number)");
+  }
+
+  std::string SamplingSettings::method_name() const
+  {
+    return method == SamplingMethod::tilted ? "tilted" : "plain";
+  }
+} // namespace alloyspec

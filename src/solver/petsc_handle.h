@@ -1,0 +1,125 @@
+/**
+ * @file petsc_handle.h  The one place that owns PETSc/SLEPc objects and turns
+ * their error codes into exceptions (solver sources only; nothing above the
+ * solver layer sees a PETSc handle except through fe/backend.h).
+ */
+#pragma once
+
+#include <petscmat.h>
+#include <petscsys.h>
+#include <petscvec.h>
+
+#include <cstddef>
+#include <memory>
+#include <stdexcept>
+#include <string>
+
+namespace alloyspec::internal
+{
+  /** Throws for a non-zero PETSc/SLEPc error code, naming the call. */
+  inline void petsc_check(PetscErrorCode code, const char *call)
+  {
+    if (code != 0)
+      throw std::runtime_error(std::string("PETSc/SLEPc call failed: ") + call + " (error code " +
+                               std::to_string(code) + ")");
+  }
+
+  /**
+   * Owns one PETSc object handle (Mat, Vec, KSP, EPS, VecScatter) and
+   * destroys it with the matching @p destroy when it goes out of scope or is
+   * replaced. Movable, not copyable. `&handle` gives the address a PETSc
+   * creation routine writes into (any object held before is destroyed first).
+   */
+  template <typename T, PetscErrorCode (*destroy)(T *)>
+  class PetscHandle
+  {
+  public:
+    PetscHandle() = default;
+    PetscHandle(const PetscHandle &)            = delete;
+    PetscHandle &operator=(const PetscHandle &) = delete;
+    PetscHandle(PetscHandle &&other) noexcept
+      : handle_(other.handle_)
+    {
+      other.handle_ = nullptr;
+    }
+    PetscHandle &operator=(PetscHandle &&other) noexcept
+    {
+      if (this != std::addressof(other))
+        {
+          reset();
+          handle_       = other.handle_;
+          other.handle_ = nullptr;
+        }
+      return *this;
+    }
+    ~PetscHandle() { reset(); }
+
+    /** Destroys the object held, if any. Collective for a distributed object. */
+    void reset()
+    {
+      if (handle_)
+        destroy(&handle_);
+      handle_ = nullptr;
+    }
+    T        get() const { return handle_; }
+    explicit operator bool() const { return handle_ != nullptr; }
+    operator T() const { return handle_; }
+    T *operator&()
+    {
+      reset();
+      return &handle_;
+    }
+
+  private:
+    T handle_ = nullptr;
+  };
+
+  using OwnedMat     = PetscHandle<Mat, MatDestroy>;
+  using OwnedVec     = PetscHandle<Vec, VecDestroy>;
+  using OwnedScatter = PetscHandle<VecScatter, VecScatterDestroy>;
+
+  /**
+   * A sparse Cholesky (LDLᵀ) factor of @f$K - \sigma M@f$ by MUMPS, the one
+   * place this set-up is written. The ordering and symbolic analysis are kept
+   * while K (PETSc's object id) and its nonzero pattern stay the same, so a
+   * new σ or new potential values cost only a numeric factorisation.
+   *
+   * With Inertia::counted, MUMPS is set up to report the inertia (null-pivot
+   * detection on, ICNTL(24) = 1, and the root node without ScaLAPACK,
+   * ICNTL(13) = 1); then negative_pivots() is, by Sylvester's law of inertia,
+   * the number of eigenvalues of the pencil (K, M) below σ.
+   */
+  class ShiftedFactor
+  {
+  public:
+    enum class Inertia
+    {
+      counted,
+      not_needed
+    };
+    explicit ShiftedFactor(Inertia inertia)
+      : inertia_(inertia)
+    {}
+
+    /** Factorises K − σM (symbolic analysis only when K or its pattern changed). */
+    void factorise(Mat K, Mat M, double sigma);
+    /** Negative pivots of the last factorisation (Inertia::counted only). */
+    std::size_t negative_pivots() const;
+    /** The factor, for triangular solves. */
+    Mat factor() const { return factor_; }
+    /** Numeric factorisations so far. */
+    std::size_t numeric_factorisations() const { return n_numeric_; }
+    /** Symbolic analyses so far. */
+    std::size_t symbolic_analyses() const { return n_symbolic_; }
+
+  private:
+    Inertia          inertia_;
+    OwnedMat         shifted_;
+    OwnedMat         factor_;
+    PetscInt64       k_id_      = -1;
+    PetscObjectState pattern_   = 0;
+    std::size_t      n_numeric_ = 0, n_symbolic_ = 0;
+  };
+} // namespace alloyspec::internal
+
+#define ALLOYSPEC_CHECK(call) ::alloyspec::internal::petsc_check((call), #call)
