@@ -149,7 +149,7 @@ namespace alloyspec
       bool                                            have_weights = false;
       for (std::size_t b = 0; b < merged.boundaries.size(); ++b)
         {
-          sums[b].assign(merged.energies.size(), {0, 0, 0, 0});
+          sums[b].assign(merged.energies.size(), {{0, 0, 0, 0}});
           for (const auto &r : merged.records)
             {
               if (r.boundary != merged.boundaries[b] || r.central_weights.size() != r.eigenvalues.size())

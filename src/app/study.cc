@@ -324,7 +324,7 @@ namespace alloyspec
     record.attempts       = result.attempts;
     record.log_weight     = model_.potential().log_weight(model_.potential().cell_values(model_.study().seed, realisation));
     // The central cell (floor(L_i/2)) for the local-trace estimator.
-    std::array<unsigned int, 3> centre{0, 0, 0};
+    std::array<unsigned int, 3> centre{{0, 0, 0}};
     for (unsigned int d = 0; d < model_.lattice().dimension(); ++d)
       centre[d] = model_.lattice().cells()[d] / 2;
     const std::size_t central_cell = model_.lattice().cell_index(centre);

@@ -376,7 +376,7 @@ namespace alloyspec::internal
               double      second = 0.0;
               if constexpr (dim > 1)
                 second = x[1];
-              samples.push_back({x[0], second, values[q]});
+              samples.push_back({{x[0], second, values[q]}});
             }
         }
       return samples;
@@ -425,7 +425,7 @@ namespace alloyspec::internal
     /** Lattice cell containing @p p (clamped into the box, for points on its far faces). */
     std::size_t lattice_cell_of(const dealii::Point<dim> &p) const
     {
-      std::array<unsigned int, 3> c{0, 0, 0};
+      std::array<unsigned int, 3> c{{0, 0, 0}};
       for (unsigned int d = 0; d < dim; ++d)
         {
           const double x = std::floor(p[d] / lattice_.cell_size());
