@@ -21,8 +21,11 @@ namespace alloyspec
 
   std::string short_number(const double x, const int digits)
   {
-    if (!std::isfinite(x))
+    // People read "inf" in a message about a value they typed; only NaN is missing.
+    if (std::isnan(x))
       return missing_marker;
+    if (std::isinf(x))
+      return x > 0 ? "inf" : "-inf";
     char buffer[40];
     std::snprintf(buffer, sizeof buffer, "%.*g", digits, x);
     return buffer;

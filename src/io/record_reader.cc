@@ -1,4 +1,5 @@
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
 #include <alloyspec/io/record_reader.h>
 
 #include <algorithm>
@@ -195,12 +196,7 @@ namespace alloyspec
       std::string   boundary;
       double        value = 0, residual = 0, error = 0, ipr = 0, weight = 0;
     };
-    std::string format_number(double x)
-    {
-      char buffer[40];
-      std::snprintf(buffer, sizeof buffer, "%.6g", x);
-      return buffer;
-    }
+    std::string format_number(double x) { return short_number(x, 6); }
   } // namespace
 
   StoredRecords read_stored_records(const std::string &directory)

@@ -1,5 +1,6 @@
 /** @file potential_model.cc  The cell-values file, the parameters of subsection "potential", the random cell potential. */
 #include <alloyspec/core/text_input.h>
+#include <alloyspec/core/format.h>
 #include <alloyspec/core/errors.h>
 #include <alloyspec/model/lattice.h>
 #include <alloyspec/model/potential_model.h>
@@ -26,13 +27,7 @@ namespace alloyspec
     constexpr unsigned int max_discrete_values = 64;
 
     /** Numbers in messages: enough digits to tell 1 from 1.0000001. */
-    std::string fmt(const double x)
-    {
-      std::ostringstream out;
-      out.precision(12);
-      out << x;
-      return out.str();
-    }
+    std::string fmt(const double x) { return short_number(x, 12); }
 
     /**
      * Parses a whole token as a double; false if anything is left over.

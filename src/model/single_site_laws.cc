@@ -1,5 +1,6 @@
 /** @file single_site_laws.cc  Laws of one cell value; their special functions come from Boost.Math. */
 #include <alloyspec/core/text_input.h>
+#include <alloyspec/core/format.h>
 #include <alloyspec/core/errors.h>
 #include <alloyspec/model/single_site_laws.h>
 #include <alloyspec/model/tilted_laws.h>
@@ -31,13 +32,7 @@ namespace alloyspec
     constexpr double pi                        = 3.141592653589793238462643383279502884;
 
     /** Numbers in messages: enough digits to tell 1 from 1.0000001. */
-    std::string fmt(const double x)
-    {
-      std::ostringstream out;
-      out.precision(12);
-      out << x;
-      return out.str();
-    }
+    std::string fmt(const double x) { return short_number(x, 12); }
 
     void require_finite(const double x, const std::string &name)
     {

@@ -1,5 +1,6 @@
 /** @file tilted_laws.cc  The tilted uniform law in closed form, and tilting by quadrature in the probability variable. */
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
 #include <alloyspec/model/tilted_laws.h>
 
 #include <boost/math/quadrature/gauss_kronrod.hpp>
@@ -16,13 +17,7 @@ namespace alloyspec
 {
   namespace
   {
-    std::string fmt(const double x)
-    {
-      std::ostringstream out;
-      out.precision(12);
-      out << x;
-      return out.str();
-    }
+    std::string fmt(const double x) { return short_number(x, 12); }
 
     /**
      * Mean and variance of the exponential law of rate λ > 0 cut to [0, Δ],

@@ -1,5 +1,6 @@
 /** @file units.cc  Reduced or physical units: parameters and energy conversions. */
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
 #include <alloyspec/model/lattice.h>
 #include <alloyspec/model/units.h>
 
@@ -22,13 +23,7 @@ namespace alloyspec
       return unit == UnitSystem::EnergyUnit::millielectronvolt ? 1e-3 : 1.0;
     }
 
-    std::string fmt(const double x)
-    {
-      std::ostringstream out;
-      out.precision(6);
-      out << x;
-      return out.str();
-    }
+    std::string fmt(const double x) { return short_number(x, 6); }
   } // namespace
 
 

@@ -22,7 +22,10 @@ namespace alloyspec
   /** csv_number(*x), or missing_marker when @p x is empty. */
   std::string csv_number(const std::optional<double> &x);
 
-  /** A short number for people (console, labels): @p digits significant digits, "–" never used. */
+  /**
+   * A number for people (console, messages, labels): @p digits significant
+   * digits; `inf`/`-inf` for infinities, missing_marker for NaN.
+   */
   std::string short_number(double x, int digits = 4);
 
   /** Seconds for people: "0.42 s", "12.3 s", "4 min 05 s", "2 h 07 min". */
