@@ -81,6 +81,36 @@ namespace alloyspec
       return buffer;
     }
 
+    /** run.json's "factor_work": the rows of Study::factor_work_ as named numbers. */
+    Json factor_work_json(const std::vector<double> &factor_work, const std::size_t stride,
+                          const std::vector<Boundary> &boundaries)
+    {
+      Json rows = Json::array();
+      for (std::size_t i = 0; i + stride <= factor_work.size(); i += stride)
+        {
+          const double *row = factor_work.data() + i;
+          const auto    entries = static_cast<std::uint64_t>(row[2]);
+          rows.push_back({{"boundary", to_string(boundaries[std::size_t(row[0])])},
+                          {"realisation", static_cast<std::uint64_t>(row[1])},
+                          {"factor_entries", entries},
+                          {"factor_bytes", entries * sizeof(double)},
+                          {"solve_calls", static_cast<std::uint64_t>(row[3])},
+                          {"solved_columns", static_cast<std::uint64_t>(row[4])},
+                          {"factor_passes", static_cast<std::uint64_t>(row[5])},
+                          {"numeric_factorisations", static_cast<std::uint64_t>(row[6])},
+                          {"factorisation_flops", json_number(row[7])},
+                          {"eigen_solver_seconds", json_number(row[8])},
+                          {"realisation_seconds", json_number(row[9])}});
+        }
+      return {{"description",
+               "per realisation solved by this run: entries of the shift-and-invert factor "
+               "(MUMPS INFOG(29)) and their bytes as doubles; solve calls with it, right-hand "
+               "sides, and passes over the factor (each a forward and a backward sweep; a call "
+               "with b right-hand sides counts ceil(b / the most MUMPS treats at once)); numeric "
+               "factorisations including the inertia checks, and their operations (MUMPS "
+               "RINFOG(3)); seconds in the eigen-solver, and for the whole realisation"},
+              {"per_realisation", rows}};
+    }
   } // namespace
 
   Study::Study()  = default;
@@ -337,6 +367,16 @@ namespace alloyspec
     write_eigenfunction_slices(realisation, b, result);
     record.solve_seconds =
       std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+    // On a team the factor is shared: its leader alone reports the work.
+    if (!teams_ || teams_->leader())
+      {
+        const SolveWork &w = result.work;
+        factor_work_.insert(factor_work_.end(),
+                            {double(b), double(realisation), double(w.factor_entries),
+                             double(w.solve_calls), double(w.solved_columns), double(w.factor_passes),
+                             double(w.numeric_factorisations), w.factorisation_flops, w.seconds,
+                             record.solve_seconds});
+      }
     return record;
   }
 
@@ -480,6 +520,14 @@ namespace alloyspec
           throw_if_any_failed(comm, error, input_error);
       }
     progress.finish();
+    // Rank 0 writes run.json: it collects every leader's factor work.
+    const auto gathered = dealii::Utilities::MPI::gather(comm, factor_work_, 0);
+    if (rank == 0)
+      {
+        factor_work_.clear();
+        for (const auto &rows : gathered)
+          factor_work_.insert(factor_work_.end(), rows.begin(), rows.end());
+      }
   }
 
   bool Study::check_and_record_parameters(const ResultsStore &store, const RunOptions &options) const
@@ -573,6 +621,7 @@ namespace alloyspec
       phases[name] = json_number(seconds);
     manifest["timings_seconds"]       = phases;
     manifest["memory_high_water_mib"] = json_number(usage.ru_maxrss / 1024.0);
+    manifest["factor_work"] = factor_work_json(factor_work_, factor_work_stride, model_.boundaries());
     manifest["parameters"] = options.parameters_json.empty() ? Json::object() :
                                                                Json::parse(options.parameters_json);
     write_json_file(store.directory(), "run.json", manifest);

@@ -12,6 +12,7 @@
 #include <slepceps.h>
 
 #include <algorithm>
+#include <chrono>
 #include <cmath>
 #include <cstring>
 #include <memory>
@@ -93,6 +94,7 @@ namespace alloyspec
       {
         InertiaCounter fresh;
         negative = fresh.negative_pivots(backend::MatrixPair{pencil.K, pencil.M}, energy);
+        work_.factorisation_flops += fresh.last_factorisation_flops();
       }
     else
       {
@@ -100,7 +102,9 @@ namespace alloyspec
         if (!counter)
           counter = std::make_unique<InertiaCounter>();
         negative = counter->negative_pivots(backend::MatrixPair{pencil.K, pencil.M}, energy);
+        work_.factorisation_flops += counter->last_factorisation_flops();
       }
+    ++work_.numeric_factorisations;
     // Above μ the constrained rows count too; every genuine eigenvalue is below μ.
     return std::min(negative, pencil.problem->n_genuine());
   }
@@ -206,7 +210,7 @@ namespace alloyspec
      * one keeps its ST, KSP and MUMPS analysis from the previous call).
      */
     RawPairs krylov_schur(EPS eps, Mat K, Mat M, const SpectralProblem &problem, unsigned int nev,
-                          double sigma, const EigenSolverSettings &settings)
+                          double sigma, const EigenSolverSettings &settings, SolveWork &work)
     {
       PetscInt  n = 0;
       ALLOYSPEC_CHECK(MatGetSize(K, &n, nullptr));
@@ -233,6 +237,14 @@ namespace alloyspec
         ALLOYSPEC_CHECK(EPSSetDimensions(eps, nev, PETSC_DEFAULT, PETSC_DEFAULT));
       // Expert tuning through PETSC_OPTIONS (-eps_ncv, -eps_mpd, ...).
       ALLOYSPEC_CHECK(EPSSetFromOptions(eps));
+      // The ST's KSP (preonly: one solve with the factor per application)
+      // counts its solves over its lifetime; the difference is this call's.
+      ST  st  = nullptr;
+      KSP ksp = nullptr;
+      ALLOYSPEC_CHECK(EPSGetST(eps, &st));
+      ALLOYSPEC_CHECK(STGetKSP(st, &ksp));
+      PetscInt solves_before = 0;
+      ALLOYSPEC_CHECK(KSPGetTotalIterations(ksp, &solves_before));
       ALLOYSPEC_CHECK(EPSSolve(eps));
 
       PetscInt n_converged = 0, iterations = 0;
@@ -257,6 +269,27 @@ namespace alloyspec
           pairs.residuals.push_back(relative_residual(kx, mx, lambda));
           pairs.vectors.push_back(whole(x));
         }
+      // After the eigenvectors: SLEPc's purification applies the factor once more per vector.
+      PetscInt solves_after = 0;
+      ALLOYSPEC_CHECK(KSPGetTotalIterations(ksp, &solves_after));
+      const auto single_solves = static_cast<std::size_t>(solves_after - solves_before);
+      work.solve_calls += single_solves;
+      work.solved_columns += single_solves;
+      work.factor_passes += single_solves;
+      // EPSSetOperators above marks the ST for a new set-up: one numeric factorisation per call.
+      PC  pc     = nullptr;
+      Mat factor = nullptr;
+      ALLOYSPEC_CHECK(KSPGetPC(ksp, &pc));
+      ALLOYSPEC_CHECK(PCFactorGetMatrix(pc, &factor));
+      PetscInt  entries = 0;
+      PetscReal flops   = 0;
+      ALLOYSPEC_CHECK(MatMumpsGetInfog(factor, 29, &entries));
+      ALLOYSPEC_CHECK(MatMumpsGetRinfog(factor, 3, &flops));
+      // MUMPS reports a count beyond the integer range as minus the millions.
+      work.factor_entries = entries >= 0 ? static_cast<std::size_t>(entries) :
+                                           static_cast<std::size_t>(-entries) * std::size_t(1000000);
+      ++work.numeric_factorisations;
+      work.factorisation_flops += flops;
       return sorted(std::move(pairs));
     }
 
@@ -312,10 +345,17 @@ namespace alloyspec
      * for the SLEPc path, so both are judged alike.
      */
     RawPairs block_pairs(Mat K, Mat M, const SpectralProblem &problem, EigenSolver::BlockFactor &f,
-                         unsigned int nev, double sigma, const EigenSolverSettings &settings)
+                         unsigned int nev, double sigma, const EigenSolverSettings &settings,
+                         SolveWork &work)
     {
       const MPI_Comm comm = communicator(K);
       f.shifted.factorise(K, M, sigma);
+      ++work.numeric_factorisations;
+      work.factorisation_flops += f.shifted.last_factorisation_flops();
+      work.factor_entries = f.shifted.factor_entries();
+      const std::size_t calls_before   = f.shifted.solve_calls();
+      const std::size_t columns_before = f.shifted.solved_columns();
+      const std::size_t passes_before  = f.shifted.factor_passes();
 
 
       const auto [n_local, n_global] = local_and_global_rows(K);
@@ -327,10 +367,9 @@ namespace alloyspec
       BlockOperator op;
       op.n_local    = static_cast<std::size_t>(n_local);
       op.row_offset = static_cast<std::size_t>(first_row);
-      const Mat factor = f.shifted.factor();
       op.solve = [&](const double *in, double *out, unsigned int b) {
         OwnedMat rhs = dense_view(comm, K, in, b), solution = dense_view(comm, K, out, b);
-        ALLOYSPEC_CHECK(MatMatSolve(factor, rhs, solution));
+        f.shifted.solve(rhs, solution, b);
       };
       op.mass = [&](const double *in, double *out, unsigned int b) {
         OwnedMat block = dense_view(comm, K, in, b), image;
@@ -368,6 +407,9 @@ namespace alloyspec
             op.solve(image.data(), columns, b);
           }
       }
+      work.solve_calls += f.shifted.solve_calls() - calls_before;
+      work.solved_columns += f.shifted.solved_columns() - columns_before;
+      work.factor_passes += f.shifted.factor_passes() - passes_before;
 
       OwnedVec x, kx, mx;
       ALLOYSPEC_CHECK(MatCreateVecs(K, &x, &kx));
@@ -426,7 +468,12 @@ namespace alloyspec
         pencil.K = copy.K;
         pencil.M = copy.M;
       }
-    return solve_pencil(pencil);
+    const auto start = std::chrono::steady_clock::now();
+    work_            = SolveWork{};
+    EigenResult result = solve_pencil(pencil);
+    result.work         = work_;
+    result.work.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+    return result;
   }
 
   EigenResult EigenSolver::solve_pencil(const Pencil &pencil)
@@ -450,7 +497,8 @@ namespace alloyspec
             factor = std::make_unique<BlockFactor>();
           try
             {
-              return block_pairs(pencil.K, pencil.M, problem, *factor, nev, safe_sigma, settings_);
+              return block_pairs(pencil.K, pencil.M, problem, *factor, nev, safe_sigma, settings_,
+                                 work_);
             }
           catch (const std::invalid_argument &)
             {
@@ -463,7 +511,7 @@ namespace alloyspec
           OwnedEPS eps;
           ALLOYSPEC_CHECK(EPSCreate(communicator(pencil.K), &eps));
           configure(eps);
-          return krylov_schur(eps, pencil.K, pencil.M, problem, nev, sigma, settings_);
+          return krylov_schur(eps, pencil.K, pencil.M, problem, nev, sigma, settings_, work_);
         }
       PetscInt64       k_id    = -1;
       PetscObjectState pattern = 0;
@@ -488,7 +536,7 @@ namespace alloyspec
           ALLOYSPEC_CHECK(STSetMatStructure(st, SAME_NONZERO_PATTERN));
         }
       workspace = ws.get();
-      return krylov_schur(ws->eps, pencil.K, pencil.M, problem, nev, sigma, settings_);
+      return krylov_schur(ws->eps, pencil.K, pencil.M, problem, nev, sigma, settings_, work_);
     };
 
     // "tuned" (single-vector path): the first attempt shifts to just below the first verified

@@ -38,6 +38,11 @@ namespace alloyspec
     return factor_->shifted.negative_pivots();
   }
 
+  double InertiaCounter::last_factorisation_flops() const
+  {
+    return factor_ ? factor_->shifted.last_factorisation_flops() : 0.0;
+  }
+
   std::size_t InertiaCounter::fresh_count_below(const SpectralProblem &problem, const double energy)
   {
     // A new factor: its own ordering and symbolic analysis.

@@ -107,6 +107,39 @@ namespace alloyspec::internal
     std::size_t negative_pivots() const;
     /** The factor, for triangular solves. */
     Mat factor() const { return factor_; }
+    /**
+     * X = (K − σM)⁻¹ B for the @p columns columns of the dense B: one
+     * multi-right-hand-side forward and backward solve, counted (solve_calls(),
+     * solved_columns(), factor_passes()).
+     */
+    void solve(Mat rhs, Mat solution, unsigned int columns);
+    /**
+     * Entries in the factor of the last factorisation, MUMPS INFOG(29)
+     * ("after factorization: number of entries in the factors", summed over
+     * the processes; a negative value counts millions), MUMPS 5.5 user guide,
+     * §6 (the INFOG list; the wording from memory, the index as MUMPS's own
+     * diagnostic output prints it: "INFOG(29) NUMBER OF ENTRIES IN FACTORS").
+     */
+    std::size_t factor_entries() const;
+    /**
+     * Floating-point operations of the last numeric factorisation, MUMPS
+     * RINFOG(3) ("operations in node elimination", summed over the processes).
+     */
+    double last_factorisation_flops() const;
+    /**
+     * Right-hand sides MUMPS treats in one pass over the factor, at most:
+     * |ICNTL(27)| (a negative value asks MUMPS to choose the block itself, up
+     * to that size; MUMPS 5.5 user guide, ICNTL(27), from memory). A block
+     * solve of b columns therefore passes over the factor at least
+     * ⌈b / this⌉ times.
+     */
+    unsigned int rhs_block() const;
+    /** Multi-right-hand-side solve calls so far. */
+    std::size_t solve_calls() const { return n_solve_calls_; }
+    /** Right-hand sides solved so far. */
+    std::size_t solved_columns() const { return n_solved_columns_; }
+    /** Σ over solve calls of ⌈b / rhs_block()⌉: lower bound on the passes over the factor. */
+    std::size_t factor_passes() const { return n_factor_passes_; }
     /** Numeric factorisations so far. */
     std::size_t numeric_factorisations() const { return n_numeric_; }
     /** Symbolic analyses so far. */
@@ -119,6 +152,9 @@ namespace alloyspec::internal
     PetscInt64       k_id_      = -1;
     PetscObjectState pattern_   = 0;
     std::size_t      n_numeric_ = 0, n_symbolic_ = 0;
+    std::size_t      n_solve_calls_ = 0, n_solved_columns_ = 0, n_factor_passes_ = 0;
+    /** Read once per factor object from MUMPS (0 until then): reading it changes nothing. */
+    mutable unsigned int rhs_block_ = 0;
   };
 } // namespace alloyspec::internal
 

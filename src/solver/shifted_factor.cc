@@ -1,5 +1,7 @@
 #include "petsc_handle.h"
 
+#include <algorithm>
+
 namespace alloyspec::internal
 {
   void ShiftedFactor::factorise(const Mat K, const Mat M, const double sigma)
@@ -15,6 +17,7 @@ namespace alloyspec::internal
       {
         factor_.reset();
         shifted_.reset();
+        rhs_block_ = 0;
         k_id_    = k_id;
         pattern_ = pattern;
         ALLOYSPEC_CHECK(MatDuplicate(K, MAT_COPY_VALUES, &shifted_));
@@ -33,6 +36,47 @@ namespace alloyspec::internal
     ALLOYSPEC_CHECK(MatAXPY(shifted_, -sigma, M, SAME_NONZERO_PATTERN));
     ALLOYSPEC_CHECK(MatCholeskyFactorNumeric(factor_, shifted_, &info));
     ++n_numeric_;
+  }
+
+  void ShiftedFactor::solve(const Mat rhs, const Mat solution, const unsigned int columns)
+  {
+    ALLOYSPEC_CHECK(MatMatSolve(factor_, rhs, solution));
+    const unsigned int block = rhs_block();
+    ++n_solve_calls_;
+    n_solved_columns_ += columns;
+    n_factor_passes_ += (columns + block - 1) / block;
+  }
+
+  std::size_t ShiftedFactor::factor_entries() const
+  {
+    if (!factor_ || n_numeric_ == 0)
+      return 0;
+    PetscInt entries = 0;
+    ALLOYSPEC_CHECK(MatMumpsGetInfog(factor_, 29, &entries));
+    // MUMPS reports a count beyond the integer range as minus the millions.
+    return entries >= 0 ? static_cast<std::size_t>(entries) :
+                          static_cast<std::size_t>(-entries) * std::size_t(1000000);
+  }
+
+  double ShiftedFactor::last_factorisation_flops() const
+  {
+    if (!factor_ || n_numeric_ == 0)
+      return 0;
+    PetscReal flops = 0;
+    ALLOYSPEC_CHECK(MatMumpsGetRinfog(factor_, 3, &flops));
+    return flops;
+  }
+
+  unsigned int ShiftedFactor::rhs_block() const
+  {
+    if (rhs_block_ == 0)
+      {
+        PetscInt block = 0;
+        ALLOYSPEC_CHECK(MatMumpsGetIcntl(factor_, 27, &block));
+        rhs_block_ =
+          static_cast<unsigned int>(std::max<PetscInt>(1, block < 0 ? -block : block));
+      }
+    return rhs_block_;
   }
 
   std::size_t ShiftedFactor::negative_pivots() const

@@ -9,9 +9,13 @@
   4. accuracy per cost against a do-it-yourself route: second-order finite
      differences on a cell-centred grid of the same model, solved with SciPy's
      ARPACK shift-invert, lowest 50 Dirichlet eigenvalues of one fixed
-     realisation against a high-order finite-element reference.
+     realisation against a high-order finite-element reference;
+  5. the roofline of the eigen-solve: the factor's size, the machine's
+     bandwidth and matrix-product rate (roofline_probe), the passes over the
+     factor the solve made, the lower bound on its time that follows, and the
+     measured time as a ratio to it.
 
-Usage: bench.py ALLOYSPEC_EXE [--quick] [--work DIR]
+Usage: bench.py ALLOYSPEC_EXE [--quick] [--work DIR] [--probe ROOFLINE_PROBE_EXE]
 """
 import argparse
 import csv
@@ -49,7 +53,8 @@ def run_study(exe, work, name, sets, ranks=1, cli=()):
     seconds = [float(r["solve_seconds"]) for r in rows]
     return {"per_solve": sum(seconds) / len(seconds), "n": [int(r["n_eigenvalues"]) for r in rows],
             "solve_phase": manifest["timings_seconds"]["eigen_solves"], "wall": wall, "eigenvalues": eig,
-            "dofs": manifest["degrees_of_freedom"], "memory_mib": manifest.get("memory_high_water_mib", float("nan"))}
+            "dofs": manifest["degrees_of_freedom"], "memory_mib": manifest.get("memory_high_water_mib", float("nan")),
+            "factor_work": manifest.get("factor_work", {}).get("per_realisation", [])}
 
 
 def box(L, k, realisations, extra=()):
@@ -340,18 +345,118 @@ def accuracy_per_cost(exe, work, quick):
           "    somewhat better result than required on both sides; timings are single runs.")
 
 
+# ---------------------------------------------------------------------------
+# 5. Roofline of the eigen-solve.
+
+def separable_cells(L):
+    """Invented separable pattern q(i, j, k) = a_i + b_j + c_k, deterministic."""
+    a = [0.3 * ((7 * i) % 5) / 4 for i in range(L)]
+    b = [0.2 * ((3 * j + 1) % 4) / 3 for j in range(L)]
+    c = [0.4 * ((5 * k + 2) % 6) / 5 for k in range(L)]
+    return [a[i] + b[j] + c[k] for k in range(L) for j in range(L) for i in range(L)]
+
+
+def machine_ceilings(probe):
+    env = dict(os.environ, OPENBLAS_NUM_THREADS="1", OMP_NUM_THREADS="1")
+    out = subprocess.run([probe], check=True, capture_output=True, text=True, env=env).stdout
+    return json.loads(out)
+
+
+def median(values):
+    ordered = sorted(values)
+    mid = len(ordered) // 2
+    return ordered[mid] if len(ordered) % 2 else 0.5 * (ordered[mid - 1] + ordered[mid])
+
+
+def roofline(exe, work, quick, probe):
+    section("5. roofline of the eigen-solve (one BLAS thread; median of 3 realisations per case)")
+    if not probe:
+        print("no roofline probe given (--probe, built as the target roofline_probe); skipped")
+        return
+    print(f"load average before: {' '.join(f'{x:.2f}' for x in os.getloadavg())} "
+          f"(the machine is shared: read ratios within this run)")
+    ceilings = [machine_ceilings(probe) for _ in range(3)]
+    triad = median([c["triad_bytes_per_second"] for c in ceilings])
+    read = median([c["read_bytes_per_second"] for c in ceilings])
+    gemm = median([c["dgemm_flops_per_second"] for c in ceilings])
+    # The larger of the two bandwidths keeps the bound a lower bound: the solves mostly read.
+    bandwidth = max(triad, read)
+    print(f"memory bandwidth: triad {triad / 1e9:.2f} GB/s, read-only sum {read / 1e9:.2f} GB/s "
+          f"(arrays of {ceilings[0]['array_mib']:.0f} MiB; median of 3 probes, each the best of 10); "
+          f"matrix product {gemm / 1e9:.2f} GFlop/s")
+
+    L8 = 4 if quick else 8
+    cells = os.path.join(work, "bench_separable_cells.txt")
+    with open(cells, "w") as f:
+        f.write("# invented separable pattern a_i + b_j + c_k for the benchmark\n")
+        values = separable_cells(L8)
+        for k in range(L8):
+            for j in range(L8):
+                for i in range(L8):
+                    f.write(f"{i} {j} {k} {values[i + L8 * (j + L8 * k)]}\n")
+    separable = ["potential/law=file", f"potential/file={cells}"]
+    L12 = 6 if quick else 12
+    k8, k12 = (20, 50) if quick else (50, 200)
+    cases = [(f"separable {L8}^3, Q2 r=2, k={k8}", L8, k8, separable),
+             (f"separable {L8}^3, Q4 r=1, k={k8}", L8, k8, separable +
+              ["discretisation/degree=4", "discretisation/elements per cell=1"]),
+             (f"random {L12}^3, Q2 r=2, k={k12}", L12, k12, [])]
+    rows = []
+    for name, L, k, extra in cases:
+        res = run_study(exe, work, f"roofline_{len(rows)}", box(L, k, 3, extra))
+        fw = [r for r in res["factor_work"] if r["boundary"] == "dirichlet"]
+        assert len(fw) == 3, "run.json holds no factor work for three realisations"
+        factor_bytes = fw[0]["factor_bytes"]
+        entries = fw[0]["factor_entries"]
+        per = []
+        for r in fw:
+            # Forward and backward sweep per pass, each reading every stored entry once.
+            t_read = 2 * r["factor_passes"] * factor_bytes / bandwidth
+            # Each entry is a multiply-add per right-hand side and sweep.
+            t_solve_flops = 2 * 2 * r["solved_columns"] * entries / gemm
+            t_factor = r["factorisation_flops"] / gemm
+            bound = max(t_read, t_solve_flops) + t_factor
+            per.append({"bound": bound, "t_read": t_read, "t_solve_flops": t_solve_flops, "t_factor": t_factor,
+                        "measured": r["eigen_solver_seconds"], "realisation": r["realisation_seconds"],
+                        "ratio": r["eigen_solver_seconds"] / bound, "passes": r["factor_passes"],
+                        "calls": r["solve_calls"], "columns": r["solved_columns"],
+                        "factorisations": r["numeric_factorisations"]})
+        mid = sorted(per, key=lambda x: x["ratio"])[1]
+        rows.append((name, res["dofs"]["dirichlet"], factor_bytes, mid, per))
+
+    print(f"{'case':<28} {'DoFs':>7} {'factor MiB':>10} {'calls':>6} {'columns':>8} {'passes':>7} "
+          f"{'factoris.':>9} {'reads s':>8} {'flops s':>8} {'factor s':>8} {'bound s':>8} {'solver s':>8} "
+          f"{'ratio':>7} {'realis. s':>9}")
+    for name, dofs, factor_bytes, m, per in rows:
+        print(f"{name:<28} {dofs:>7} {factor_bytes / 2 ** 20:>10.1f} {m['calls']:>6} {m['columns']:>8} "
+              f"{m['passes']:>7} {m['factorisations']:>9} {m['t_read']:>8.3f} {m['t_solve_flops']:>8.3f} "
+              f"{m['t_factor']:>8.3f} {m['bound']:>8.3f} {m['measured']:>8.3f} {m['ratio']:>6.2f}x "
+              f"{m['realisation']:>9.3f}")
+        print(f"{'':<28} ratios of the 3 realisations: " + ", ".join(f"{p['ratio']:.2f}x" for p in per))
+    print("bound = max(reads, flops) of the solves + factorisations: reads = passes x 2 sweeps x factor bytes /\n"
+          "  bandwidth (the larger of triad and read-only); flops = 4 x columns x factor entries / matrix-product\n"
+          "  rate; factorisations = MUMPS's operation count / matrix-product rate. Not in the bound: the\n"
+          "  orthogonalisation and Rayleigh-Ritz work of the Krylov method, the mass-matrix products, residuals.")
+    for name, _, _, m, _ in rows:
+        print(f"GOAL (eigen-solve within 2x of its roofline bound), {name}: {m['ratio']:.2f}x: "
+              f"{'MET' if m['ratio'] <= 2 else 'NOT met'}")
+    print(f"load average after: {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
+
+
 def main():
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("exe")
     parser.add_argument("--quick", action="store_true", help="small sizes, about a minute")
     parser.add_argument("--work", default="bench-work")
-    parser.add_argument("--only", default="1234", help="which parts to run, e.g. 14")
+    parser.add_argument("--only", default="12345", help="which parts to run, e.g. 14")
+    parser.add_argument("--probe", default=None, help="the roofline_probe executable (part 5)")
     args = parser.parse_args()
     os.makedirs(args.work, exist_ok=True)
     start = time.perf_counter()
     print(f"alloyspec benchmark ({'quick' if args.quick else 'full'}), host {os.uname().nodename}, "
           f"{os.cpu_count()} CPUs; one BLAS thread per process")
-    parts = {"1": tuned_vs_baseline, "2": mpi_throughput, "3": growth, "4": accuracy_per_cost}
+    parts = {"1": tuned_vs_baseline, "2": mpi_throughput, "3": growth, "4": accuracy_per_cost,
+             "5": lambda exe, work, quick: roofline(exe, work, quick, args.probe)}
     for key in args.only:
         parts[key](args.exe, args.work, args.quick)
     print(f"\nbenchmark wall time {time.perf_counter() - start:.0f} s")

@@ -147,5 +147,14 @@ namespace alloyspec
     std::string                                   output_directory_;
     /** What the automatic tilt choice did, for run.json. */
     std::string                                   tilt_log_;
+    /**
+     * Factor work per realisation solved here (EigenResult::work), flattened
+     * in rows of factor_work_stride: boundary index, realisation, factor
+     * entries, solve calls, columns, factor passes, numeric factorisations,
+     * their operations, eigen-solver seconds, realisation seconds. After
+     * solve(), rank 0 holds every rank's rows.
+     */
+    std::vector<double>                           factor_work_;
+    static constexpr std::size_t                  factor_work_stride = 10;
   };
 } // namespace alloyspec

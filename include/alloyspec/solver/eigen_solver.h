@@ -35,6 +35,38 @@ namespace alloyspec
 
   };
 
+  /**
+   * What one eigen-solve cost in work on sparse factors, for the roofline of
+   * the benchmark (tests/benchmarks/bench.py): the shift-and-invert solves
+   * read the factor of @f$K - \sigma M@f$, at least @f$8\,n_L@f$ bytes
+   * (@f$n_L@f$ = factor_entries, doubles) per forward sweep and again per
+   * backward sweep, so with bandwidth β the solves take at least
+   * @f$2 \cdot 8\,n_L \cdot \text{factor\_passes} / \beta@f$. Counted on
+   * every solve: a few integer additions per block solve.
+   */
+  struct SolveWork
+  {
+    /** Entries in the shift-and-invert factor (MUMPS INFOG(29); 0 if none was made). */
+    std::size_t factor_entries = 0;
+    /** Forward-and-backward solve calls with that factor (one call may carry b right-hand sides). */
+    std::size_t solve_calls = 0;
+    /** Right-hand sides solved in all. */
+    std::size_t solved_columns = 0;
+    /**
+     * Passes over the factor, each a forward and a backward sweep: a call
+     * with b right-hand sides counts @f$\lceil b / B \rceil@f$, B the most
+     * columns MUMPS treats in one pass (|ICNTL(27)|). A lower bound: MUMPS
+     * may choose smaller blocks.
+     */
+    std::size_t factor_passes = 0;
+    /** Numeric factorisations: the shift-and-invert ones and the inertia counts. */
+    std::size_t numeric_factorisations = 0;
+    /** Their floating-point operations (MUMPS RINFOG(3)), summed. */
+    double      factorisation_flops = 0;
+    /** Wall time of EigenSolver::solve. */
+    double      seconds = 0;
+  };
+
   /** Eigenpairs of one problem, sorted ascending. */
   struct EigenResult
   {
@@ -52,6 +84,8 @@ namespace alloyspec
     std::size_t                      inertia_count = 0;
     unsigned int                     solver_iterations = 0;
     unsigned int                     attempts = 0;
+    /** Factor work of this solve (on a team, of the whole team's distributed factor). */
+    SolveWork                        work;
   };
 
   /**
@@ -101,6 +135,8 @@ namespace alloyspec
     EigenResult solve_pencil(const Pencil &pencil);
     /** Inertia count for the list check: reuses one symbolic factorisation per problem ("tuned"). */
     std::size_t verified_count(const Pencil &pencil, double energy);
+    /** Factor work of the solve in progress (reset by solve()). */
+    SolveWork work_;
 
     /** Krylov–Schur objects and the first verified spectrum of one problem ("tuned"); defined in the .cc. */
     struct Workspace;

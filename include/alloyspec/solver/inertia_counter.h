@@ -54,6 +54,9 @@ namespace alloyspec
      */
     static std::size_t fresh_count_below(const SpectralProblem &problem, double energy);
 
+    /** Floating-point operations of the last numeric factorisation (MUMPS RINFOG(3)); 0 before any. */
+    double last_factorisation_flops() const;
+
     /** Numeric factorisations done so far (symbolic ones: at most 1). */
     std::size_t n_factorisations() const { return n_factorisations_; }
 
