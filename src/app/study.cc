@@ -100,15 +100,20 @@ namespace alloyspec
                           {"numeric_factorisations", static_cast<std::uint64_t>(row[6])},
                           {"factorisation_flops", json_number(row[7])},
                           {"eigen_solver_seconds", json_number(row[8])},
-                          {"realisation_seconds", json_number(row[9])}});
+                          {"realisation_seconds", json_number(row[9])},
+                          {"rhs_block", static_cast<std::uint64_t>(row[10])},
+                          {"factorisation_seconds", json_number(row[11])},
+                          {"factor_solve_seconds", json_number(row[12])}});
         }
       return {{"description",
                "per realisation solved by this run: entries of the shift-and-invert factor "
                "(MUMPS INFOG(29)) and their bytes as doubles; solve calls with it, right-hand "
                "sides, and passes over the factor (each a forward and a backward sweep; a call "
-               "with b right-hand sides counts ceil(b / the most MUMPS treats at once)); numeric "
-               "factorisations including the inertia checks, and their operations (MUMPS "
-               "RINFOG(3)); seconds in the eigen-solver, and for the whole realisation"},
+               "with b right-hand sides counts ceil(b / rhs_block), rhs_block the most MUMPS "
+               "treats at once, |ICNTL(27)|); numeric factorisations including the inertia "
+               "checks, their operations (MUMPS RINFOG(3)) and seconds; seconds in the solves "
+               "with the factor, in the eigen-solver, and for the whole realisation (null where "
+               "the single-vector path does not expose a time)"},
               {"per_realisation", rows}};
     }
   } // namespace
@@ -375,7 +380,8 @@ namespace alloyspec
                             {double(b), double(realisation), double(w.factor_entries),
                              double(w.solve_calls), double(w.solved_columns), double(w.factor_passes),
                              double(w.numeric_factorisations), w.factorisation_flops, w.seconds,
-                             record.solve_seconds});
+                             record.solve_seconds, double(w.rhs_block), w.factorisation_seconds,
+                             w.factor_solve_seconds});
       }
     return record;
   }

@@ -15,6 +15,7 @@
 #include <chrono>
 #include <cmath>
 #include <cstring>
+#include <limits>
 #include <memory>
 #include <numeric>
 #include <optional>
@@ -95,6 +96,7 @@ namespace alloyspec
         InertiaCounter fresh;
         negative = fresh.negative_pivots(backend::MatrixPair{pencil.K, pencil.M}, energy);
         work_.factorisation_flops += fresh.last_factorisation_flops();
+        work_.factorisation_seconds += fresh.last_factorisation_seconds();
       }
     else
       {
@@ -103,6 +105,7 @@ namespace alloyspec
           counter = std::make_unique<InertiaCounter>();
         negative = counter->negative_pivots(backend::MatrixPair{pencil.K, pencil.M}, energy);
         work_.factorisation_flops += counter->last_factorisation_flops();
+        work_.factorisation_seconds += counter->last_factorisation_seconds();
       }
     ++work_.numeric_factorisations;
     // Above μ the constrained rows count too; every genuine eigenvalue is below μ.
@@ -290,6 +293,9 @@ namespace alloyspec
                                            static_cast<std::size_t>(-entries) * std::size_t(1000000);
       ++work.numeric_factorisations;
       work.factorisation_flops += flops;
+      work.rhs_block             = 1;
+      work.factorisation_seconds = std::numeric_limits<double>::quiet_NaN();
+      work.factor_solve_seconds  = std::numeric_limits<double>::quiet_NaN();
       return sorted(std::move(pairs));
     }
 
@@ -352,7 +358,10 @@ namespace alloyspec
       f.shifted.factorise(K, M, sigma);
       ++work.numeric_factorisations;
       work.factorisation_flops += f.shifted.last_factorisation_flops();
+      work.factorisation_seconds += f.shifted.last_factorisation_seconds();
       work.factor_entries = f.shifted.factor_entries();
+      work.rhs_block      = f.shifted.rhs_block();
+      const double solve_seconds_before = f.shifted.solve_seconds();
       const std::size_t calls_before   = f.shifted.solve_calls();
       const std::size_t columns_before = f.shifted.solved_columns();
       const std::size_t passes_before  = f.shifted.factor_passes();
@@ -410,6 +419,7 @@ namespace alloyspec
       work.solve_calls += f.shifted.solve_calls() - calls_before;
       work.solved_columns += f.shifted.solved_columns() - columns_before;
       work.factor_passes += f.shifted.factor_passes() - passes_before;
+      work.factor_solve_seconds += f.shifted.solve_seconds() - solve_seconds_before;
 
       OwnedVec x, kx, mx;
       ALLOYSPEC_CHECK(MatCreateVecs(K, &x, &kx));

@@ -43,6 +43,11 @@ namespace alloyspec
     return factor_ ? factor_->shifted.last_factorisation_flops() : 0.0;
   }
 
+  double InertiaCounter::last_factorisation_seconds() const
+  {
+    return factor_ ? factor_->shifted.last_factorisation_seconds() : 0.0;
+  }
+
   std::size_t InertiaCounter::fresh_count_below(const SpectralProblem &problem, const double energy)
   {
     // A new factor: its own ordering and symbolic analysis.

@@ -140,6 +140,9 @@ namespace alloyspec::internal
     std::size_t solved_columns() const { return n_solved_columns_; }
     /** Σ over solve calls of ⌈b / rhs_block()⌉: lower bound on the passes over the factor. */
     std::size_t factor_passes() const { return n_factor_passes_; }
+    /** Seconds spent in solve() so far, and in the last numeric factorisation. */
+    double solve_seconds() const { return solve_seconds_; }
+    double last_factorisation_seconds() const { return last_factorisation_seconds_; }
     /** Numeric factorisations so far. */
     std::size_t numeric_factorisations() const { return n_numeric_; }
     /** Symbolic analyses so far. */
@@ -155,6 +158,7 @@ namespace alloyspec::internal
     std::size_t      n_solve_calls_ = 0, n_solved_columns_ = 0, n_factor_passes_ = 0;
     /** Read once per factor object from MUMPS (0 until then): reading it changes nothing. */
     mutable unsigned int rhs_block_ = 0;
+    double           solve_seconds_ = 0, last_factorisation_seconds_ = 0;
   };
 } // namespace alloyspec::internal
 

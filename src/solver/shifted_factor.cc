@@ -1,6 +1,7 @@
 #include "petsc_handle.h"
 
 #include <algorithm>
+#include <chrono>
 
 namespace alloyspec::internal
 {
@@ -32,15 +33,20 @@ namespace alloyspec::internal
         ++n_symbolic_;
       }
     // Same pattern as K (and M): only values change, the analysis stays valid.
+    const auto start = std::chrono::steady_clock::now();
     ALLOYSPEC_CHECK(MatCopy(K, shifted_, SAME_NONZERO_PATTERN));
     ALLOYSPEC_CHECK(MatAXPY(shifted_, -sigma, M, SAME_NONZERO_PATTERN));
     ALLOYSPEC_CHECK(MatCholeskyFactorNumeric(factor_, shifted_, &info));
+    last_factorisation_seconds_ =
+      std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     ++n_numeric_;
   }
 
   void ShiftedFactor::solve(const Mat rhs, const Mat solution, const unsigned int columns)
   {
+    const auto start = std::chrono::steady_clock::now();
     ALLOYSPEC_CHECK(MatMatSolve(factor_, rhs, solution));
+    solve_seconds_ += std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     const unsigned int block = rhs_block();
     ++n_solve_calls_;
     n_solved_columns_ += columns;

@@ -151,10 +151,11 @@ namespace alloyspec
      * Factor work per realisation solved here (EigenResult::work), flattened
      * in rows of factor_work_stride: boundary index, realisation, factor
      * entries, solve calls, columns, factor passes, numeric factorisations,
-     * their operations, eigen-solver seconds, realisation seconds. After
+     * their operations, eigen-solver seconds, realisation seconds, MUMPS's
+     * right-hand-side block, factorisation seconds, factor-solve seconds. After
      * solve(), rank 0 holds every rank's rows.
      */
     std::vector<double>                           factor_work_;
-    static constexpr std::size_t                  factor_work_stride = 10;
+    static constexpr std::size_t                  factor_work_stride = 13;
   };
 } // namespace alloyspec

@@ -63,6 +63,14 @@ namespace alloyspec
     std::size_t numeric_factorisations = 0;
     /** Their floating-point operations (MUMPS RINFOG(3)), summed. */
     double      factorisation_flops = 0;
+    /** Most right-hand sides MUMPS treats in one pass (|ICNTL(27)|; 1 on the single-vector path). */
+    unsigned int rhs_block = 1;
+    /**
+     * Seconds inside the numeric factorisations and inside the solves with the
+     * shift-and-invert factor (NaN on SLEPc's single-vector path, which does
+     * not expose them); the rest of `seconds` is the Krylov method's own work.
+     */
+    double      factorisation_seconds = 0, factor_solve_seconds = 0;
     /** Wall time of EigenSolver::solve. */
     double      seconds = 0;
   };

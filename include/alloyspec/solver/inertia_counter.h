@@ -56,6 +56,8 @@ namespace alloyspec
 
     /** Floating-point operations of the last numeric factorisation (MUMPS RINFOG(3)); 0 before any. */
     double last_factorisation_flops() const;
+    /** Seconds of the last numeric factorisation; 0 before any. */
+    double last_factorisation_seconds() const;
 
     /** Numeric factorisations done so far (symbolic ones: at most 1). */
     std::size_t n_factorisations() const { return n_factorisations_; }
