@@ -153,10 +153,12 @@ namespace alloyspec
     RealisationTeams   *teams_ = nullptr;
     /** One workspace per problem: EPS/ST/KSP and the MUMPS analysis live across realisations. */
     std::map<const SpectralProblem *, std::unique_ptr<Workspace>> workspaces_;
-    /** One block-solver factor per problem: its symbolic analysis lives across realisations. */
+    /**
+     * One factor per problem ("tuned"): the block solver's shift-and-invert
+     * factor and the list check's inertia count, one symbolic analysis for
+     * both, kept across realisations.
+     */
     std::map<const SpectralProblem *, std::unique_ptr<BlockFactor>> block_factors_;
-    /** One counter per problem (boundary condition): K and M keep their pattern across realisations. */
-    std::map<const SpectralProblem *, std::unique_ptr<InertiaCounter>> counters_;
     /**
      * Problems in the order first solved, the same on every rank. Destroying
      * a distributed MUMPS factor is collective, so the kept objects are
