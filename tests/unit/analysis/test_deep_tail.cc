@@ -12,7 +12,7 @@ namespace
   using namespace alloyspec;
 
   constexpr double e0 = 0.0;
-  /** Two-sided 95 % normal quantile Φ⁻¹(0.975) (tables of the normal law). */
+  /** Confidence level of the intervals tested. */
   constexpr double confidence = 0.95;
   /** The synthetic tails: ln n = −C (E − E0)^(−α) on 12 energies 0.02 … 0.13. */
   constexpr double lifshitz_constant = 2.0;
@@ -59,7 +59,7 @@ namespace
   }
 
   /**
-   * A pre-asymptotic tail, ln n = −C (E−E0)^(−1/2) − 3 ln(1/(E−E0))·(E−E0)·40: the local
+   * A pre-asymptotic tail, ln n = −C (E−E0)^(−1/2) − 40 (E−E0) ln(1/(E−E0)): the local
    * exponent changes across the window and the fit must not be called asymptotic.
    */
   TEST(DeepTail, DriftingExponentIsFlagged)
