@@ -152,6 +152,7 @@ namespace alloyspec
     std::unique_ptr<FolderLock> lock;
     bool                        wrote_parameters = false;
     stored_any_                                  = false;
+    wrote_tilt_                                  = false;
     // A run refused before it stored anything leaves the folder as it found it.
     auto roll_back = [&] {
       if (!root || !store || stored_any_)
@@ -159,6 +160,8 @@ namespace alloyspec
       std::error_code ignored;
       if (wrote_parameters)
         std::filesystem::remove(store->path(ResultsStore::parameters_file), ignored);
+      if (wrote_tilt_)
+        std::filesystem::remove(store->path(StudyModel::tilt_file), ignored);
       const bool created = store->created_folder();
       lock.reset();
       if (created)
