@@ -41,6 +41,21 @@ def check_weighted(folder, summary):
                     continue
                 assert 0 <= lo <= ids <= hi, row
                 assert float(row[f"ess_{bc}"]) >= 0, row
+    # deep_tail.json: every boundary has its fits, and "asymptotic" only with no reason against it.
+    with open(f"{folder}/deep_tail.json") as f:
+        deep = json.load(f)
+    for bc, fit in deep["boundaries"].items():
+        assert fit["asymptotic"] == (fit["fitted"] and not fit["not_asymptotic_because"]), (bc, fit)
+        assert fit["fitted"] or fit["reason"], (bc, fit)
+    with open(f"{folder}/run.json") as f:
+        run = json.load(f)
+    assert run["sampling"]["weights"], "run.json has no effective sample sizes"
+    if any(w != {0.0} for w in weights.values()):
+        # A tilted study has its own report: tail table, fits, effective sample sizes.
+        with open(f"{folder}/report.html", encoding="utf-8") as f:
+            html = f.read()
+        for text in ("Tail table", "Lifshitz fits on the deep tail", "effective sample size"):
+            assert text in html, f"report.html of a tilted study lacks '{text}'"
 
 
 def main(folder):
