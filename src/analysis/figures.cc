@@ -416,6 +416,77 @@ namespace alloyspec
                       data.str(), plot.str());
   }
 
+  Figure deep_tail_figure(FigureMaker &maker, const std::vector<std::string> &boundaries,
+                          const std::vector<std::vector<IdsAccumulator::Row>> &rows,
+                          const std::vector<DeepTailFit> &fits, const double e0,
+                          const double cell_volume, const unsigned int dimension,
+                          const double confidence)
+  {
+    const double       z = normal_quantile(0.5 + confidence / 2);
+    std::ostringstream data;
+    const std::size_t  n = rows.empty() ? 0 : rows[0].size();
+    // The lowest positive bound drawn: bars whose interval reaches 0 end there.
+    double floor = std::numeric_limits<double>::infinity();
+    for (const auto &r : rows)
+      for (const auto &x : r)
+        if (x.complete && x.mean > 0)
+          floor = std::min(floor, std::max(x.mean - z * x.standard_error, 0.0) > 0 ?
+                                    x.mean - z * x.standard_error : x.mean / 10);
+    for (std::size_t i = 0; i < n; ++i)
+      {
+        data << num(rows[0][i].energy);
+        for (const auto &r : rows)
+          {
+            const auto &x  = r[i];
+            const bool  ok = x.complete && x.mean > 0;
+            const double low = x.mean - z * x.standard_error;
+            data << ' ' << num(ok ? x.mean : nan) << ' ' << num(ok ? (low > 0 ? low : floor) : nan)
+                 << ' ' << num(ok ? x.mean + z * x.standard_error : nan);
+          }
+        data << '\n';
+      }
+    std::ostringstream plot, caption;
+    plot << "set logscale y\n"
+         << "set format y '%.0e'\n"
+         << "set xlabel " << gnuplot_string(maker.energy_label()) << "\n"
+         << "set ylabel " << gnuplot_string("N(E) (" + maker.ids_unit() + "), log scale") << "\n"
+         << "set key outside right top\n";
+    for (std::size_t b = 0; b < fits.size(); ++b)
+      if (fits[b].fitted)
+        plot << "g" << b << "(x) = (x >= " << num(fits[b].window_low)
+             << " && x <= " << num(fits[b].window_high) << ") ? exp(" << num(fits[b].intercept_b)
+             << " - " << num(fits[b].constant_b) << "*(x - " << num(e0) << ")**(-"
+             << num(0.5 * dimension) << "))/" << num(cell_volume) << " : NaN\n";
+    plot << "set samples 400\nplot ";
+    for (std::size_t b = 0; b < boundaries.size(); ++b)
+      {
+        const std::string col = colour(boundaries[b]);
+        plot << (b ? ", \\\n     " : "") << "data using 1:" << 2 + 3 * b << ":" << 3 + 3 * b
+             << ":" << 4 + 3 * b << " with yerrorbars pt 7 ps 0.6 lc rgb '" << col << "' title "
+             << gnuplot_string(legend_name(boundaries[b]));
+        if (b < fits.size() && fits[b].fitted)
+          {
+            plot << ", \\\n     g" << b << "(x) with lines lw 2 lc rgb '" << col << "' title "
+                 << gnuplot_string("fit a − C (E−E₀)^(−d/2), " + legend_name(boundaries[b]));
+            caption << legend_name(boundaries[b]) << ": exponent " << short_number(fits[b].exponent_a, 3)
+                    << " [" << short_number(fits[b].exponent_a_low, 3) << ", "
+                    << short_number(fits[b].exponent_a_high, 3) << "] from ln(−ln n), "
+                    << (fits[b].asymptotic ? "consistent with d/2" : "not asymptotic") << ". ";
+          }
+        else if (b < fits.size())
+          caption << legend_name(boundaries[b]) << ": no fit (" << fits[b].reason << "). ";
+      }
+    plot << "\n";
+    return maker.make("deep_tail", "Deep band tail: ln N against E",
+                      "Points: N(E) with the normal interval at confidence " +
+                        short_number(confidence) +
+                        " (bars reaching the frame's bottom: the interval reaches 0). Lines: "
+                        "ln n = a − C (E − E₀)^(−d/2) fitted over the deep-tail window, E₀ = " +
+                        short_number(e0) + ". " + caption.str() +
+                        "Expected exponent d/2 = " + short_number(0.5 * dimension) + ".",
+                      data.str(), plot.str());
+  }
+
   Figure urbach_figure(FigureMaker &maker, const std::vector<std::string> &boundaries,
                        const std::vector<std::vector<IntervalRow>> &gaussian,
                        const std::vector<TailFit> &fits)

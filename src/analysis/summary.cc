@@ -6,6 +6,7 @@
 #include <alloyspec/io/parameter_text.h>
 #include <alloyspec/analysis/size_series.h>
 #include <alloyspec/analysis/tail_table.h>
+#include <alloyspec/analysis/deep_tail.h>
 
 #include <algorithm>
 #include <array>
@@ -263,18 +264,33 @@ namespace alloyspec
                          "intervals with care, or choose a smaller tilt";
             warnings.push_back(message.str());
           }
-        // Only ids.csv and tail.csv are weighted so far; the other tables
-        // would silently ignore the weights, so they are not written.
-        warnings.push_back("tilted sampling: ids.csv and tail.csv are importance-weighted; the "
-                           "DOS, bootstrap bands, tail fits, localisation tables, local trace, "
-                           "figures and report are not written for weighted samples");
+        // Only ids.csv, tail.csv and the deep-tail fits are weighted so far; the
+        // other tables would silently ignore the weights, so they are not written.
+        std::vector<WeightSummary> summaries;
+        for (const auto &a : ids)
+          summaries.push_back({a.n_realisations(), a.weight_effective_sample_size(), a.mean_weight()});
+        const auto w = write_deep_tail(output_dir, merged, rows, summaries, settings, true);
+        warnings.insert(warnings.end(), w.begin(), w.end());
+        warnings.push_back("tilted sampling: ids.csv, tail.csv, deep_tail.json and the report's "
+                           "deep-tail figure and fits are importance-weighted; the DOS, bootstrap "
+                           "bands, tails.json, localisation tables and local trace are not "
+                           "written for weighted samples");
         return warnings;
       }
+    {
+      std::vector<WeightSummary> summaries;
+      for (const auto &a : ids)
+        summaries.push_back({a.n_realisations(), a.weight_effective_sample_size(), a.mean_weight()});
+      const auto w = write_deep_tail(output_dir, merged, rows, summaries, settings, false);
+      warnings.insert(warnings.end(), w.begin(), w.end());
+    }
     std::vector<std::string> chosen; // reported by write_analysis, which chooses the same
     write_local_trace_table(output_dir, merged, rows,
                             settings.resolved_for(merged.records, chosen).lorentzian_width);
     merged.ids_table = (std::filesystem::path(output_dir) / "ids.csv").string();
-    return write_analysis(output_dir, merged, settings);
+    const auto w = write_analysis(output_dir, merged, settings);
+    warnings.insert(warnings.end(), w.begin(), w.end());
+    return warnings;
   }
 
   std::vector<std::string> summarise_studies(const std::string              &output_dir,

@@ -593,8 +593,10 @@ end
             std::cout << " (total " << readable_seconds(total) << ")\n";
             if (study.tilted())
               std::cout << "Results in " << output
-                        << "/: eigenvalues.csv, realisations.csv (with log_weight), ids.csv and "
-                           "tail.csv (importance-weighted), run.json, "
+                        << "/: eigenvalues.csv, realisations.csv (with log_weight), ids.csv, "
+                           "tail.csv and deep_tail.json (importance-weighted), report.html "
+                           "(deep tail: table, figure, Lifshitz fits, effective sample sizes), "
+                           "run.json, "
                         << ResultsStore::parameters_file << "\n";
             else
               print_closing_summary(output);

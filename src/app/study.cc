@@ -187,6 +187,7 @@ namespace alloyspec
     std::unique_ptr<FolderLock> lock;
     bool                        wrote_parameters = false;
     stored_any_                                  = false;
+    wrote_tilt_                                  = false;
     // A run refused before it stored anything leaves the folder as it found it.
     auto roll_back = [&] {
       if (!root || !store || stored_any_)
@@ -194,6 +195,8 @@ namespace alloyspec
       std::error_code ignored;
       if (wrote_parameters)
         std::filesystem::remove(store->path(ResultsStore::parameters_file), ignored);
+      if (wrote_tilt_)
+        std::filesystem::remove(store->path(StudyModel::tilt_file), ignored);
       const bool created = store->created_folder();
       lock.reset();
       if (created)
@@ -610,6 +613,28 @@ namespace alloyspec
       {"tilt_choice", sampling.is_tilted() ? (sampling.automatic ? "auto" : "given") : "none"},
       {"target_energy", sampling.target_energy ? json_number(*sampling.target_energy) : Json()},
       {"pilot", tilt_log_}};
+    {
+      // Kong's effective sample size of the weights, (Σw)²/Σw², per boundary
+      // condition; the weights are scaled by e^(−max log w) first (the ratio
+      // does not change and nothing overflows).
+      Json ess = Json::object();
+      for (const auto bc : model_.boundaries())
+        {
+          std::vector<double> logs;
+          for (const auto &r : stored.input.records)
+            if (r.boundary == to_string(bc))
+              logs.push_back(r.log_weight);
+          if (logs.empty())
+            continue;
+          const double top = *std::max_element(logs.begin(), logs.end());
+          double       sum = 0, sum_sq = 0;
+          for (const double l : logs)
+            sum += std::exp(l - top), sum_sq += std::exp(2 * (l - top));
+          ess[to_string(bc)] = {{"realisations", logs.size()},
+                                {"effective_sample_size", json_number(sum * sum / sum_sq)}};
+        }
+      manifest["sampling"]["weights"] = ess;
+    }
     Json dofs = Json::object();
     for (std::size_t b = 0; b < model_.boundaries().size(); ++b)
       dofs[to_string(model_.boundaries()[b])] = discretisations_[b]->n_dofs();

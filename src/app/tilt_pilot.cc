@@ -116,6 +116,7 @@ namespace alloyspec
           std::cerr << "alloyspec: warning: the automatic tilt did not reach sampling/target "
                        "energy; the estimate there may have degenerate weights\n";
         store.write_file(StudyModel::tilt_file, csv_number(theta) + "\n");
+        wrote_tilt_ = true;
       }
   }
 } // namespace alloyspec

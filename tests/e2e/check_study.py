@@ -11,6 +11,8 @@ import json
 import math
 import sys
 
+import records
+
 RESIDUAL_LIMIT = 1e-8  # the solver's default tolerance is 1e-12; common practice, no source
 
 
@@ -26,20 +28,41 @@ def check_weighted(folder, summary):
     with open(f"{folder}/tail.csv") as f:
         tail = list(csv.DictReader(f))
     assert tail, "tail.csv is empty"
-    for row in tail:
+    with open(f"{folder}/ids.csv") as f:
+        ids_rows = list(csv.DictReader(f))
+    assert len(ids_rows) == len(tail), "tail.csv and ids.csv have different grids"
+    for row, ids_row in zip(tail, ids_rows):
         for bc in ("dirichlet", "neumann"):
             if f"ids_{bc}" in row:
                 ids, lo, hi = (float(row[f"{c}_{bc}"]) for c in ("ids", "lower", "upper"))
+                # An incomplete entry (an under-count) is written as missing, and only then.
+                if ids_row[f"complete_{bc}"] != "1":
+                    assert all(math.isnan(x) for x in (ids, lo, hi)), row
+                    continue
                 assert 0 <= lo <= ids <= hi, row
                 assert float(row[f"ess_{bc}"]) >= 0, row
+    # deep_tail.json: every boundary has its fits, and "asymptotic" only with no reason against it.
+    with open(f"{folder}/deep_tail.json") as f:
+        deep = json.load(f)
+    for bc, fit in deep["boundaries"].items():
+        assert fit["asymptotic"] == (fit["fitted"] and not fit["not_asymptotic_because"]), (bc, fit)
+        assert fit["fitted"] or fit["reason"], (bc, fit)
+    with open(f"{folder}/run.json") as f:
+        run = json.load(f)
+    assert run["sampling"]["weights"], "run.json has no effective sample sizes"
+    if any(w != {0.0} for w in weights.values()):
+        # A tilted study has its own report: tail table, fits, effective sample sizes.
+        with open(f"{folder}/report.html", encoding="utf-8") as f:
+            html = f.read()
+        for text in ("Tail table", "Lifshitz fits on the deep tail", "effective sample size"):
+            assert text in html, f"report.html of a tilted study lacks '{text}'"
 
 
 def main(folder):
     with open(f"{folder}/run.json") as f:
         run = json.load(f)
     assert run["realisations_stored"] >= 1, "no realisation stored"
-    with open(f"{folder}/eigenvalues.csv") as f:
-        rows = list(csv.DictReader(f))
+    rows = records.rows(f"{folder}/eigenvalues.csv")
     assert rows, "eigenvalues.csv is empty"
     assert list(rows[0].keys())[:5] == ["realisation", "boundary", "index", "eigenvalue", "residual"]
     spectra = {}
@@ -50,8 +73,7 @@ def main(folder):
         # (with its safety factor) still far below the eigenvalue itself.
         if "error" in r and r["error"] != "nan":
             assert 0 < float(r["error"]) < max(abs(float(r["eigenvalue"])), 1.0), f"error {r['error']}"
-    with open(f"{folder}/realisations.csv") as f:
-        summary = list(csv.DictReader(f))
+    summary = records.rows(f"{folder}/realisations.csv")
     complete = {}
     for s in summary:
         key = (int(s["realisation"]), s["boundary"])

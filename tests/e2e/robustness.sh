@@ -188,6 +188,10 @@ expect 2 "landscape/shift" landscape_shift --set "lattice/cells=3,3,3" --set "la
 expect 2 "study/seed" empty_seed --set "lattice/cells=3,3,3" --seed ''
 expect 2 "of memory" many_realisations --set "lattice/cells=3,3,3" --set study/realisations=4294967295
 expect 2 "of memory" huge_box --set "lattice/cells=4096,4096"
+# Tilted with the automatic tilt: a refusal after the tilt search leaves no tilt.txt (no folder).
+expect 2 "maximum eigenvalues" tilted_cutoff_over_maximum --set "lattice/cells=20" \
+  --set sampling/method=tilted --set sampling/tilt=auto --set "sampling/target energy=0.5" \
+  --set "spectrum/energy cutoff=50" --set "spectrum/maximum eigenvalues=3"
 expect 2 "maximum eigenvalues" cutoff_over_maximum --set "lattice/cells=3,3,3" \
   --set "spectrum/energy cutoff=50" --set "spectrum/maximum eigenvalues=3"
 printf '$MeshFormat\n2.2 0 8\n$EndMeshFormat\n$Nodes\n3\n1 0 0 0\n' > "$work/bad.msh"

@@ -8,6 +8,7 @@
 #pragma once
 
 #include <alloyspec/analysis/spectral_analysis.h>
+#include <alloyspec/analysis/deep_tail.h>
 #include <alloyspec/analysis/tail_fits.h>
 
 #include <map>
@@ -107,6 +108,17 @@ namespace alloyspec
   Figure lifshitz_figure(FigureMaker &maker, const std::vector<std::string> &boundaries,
                          const std::vector<std::vector<GridValue>> &ids,
                          const std::vector<TailFit> &fits, double e0, double cell_volume);
+
+  /**
+   * The deep tail: N(E) per unit volume on a logarithmic axis (so ln N against
+   * E) with the interval of tail.csv as error bars, N̂ ± z·SE cut at 0 (a bar
+   * whose interval reaches 0 is drawn down to the frame), and the form-B fit
+   * @f$N = e^{a - C (E-E_0)^{-d/2}}/a^d@f$ over its window.
+   */
+  Figure deep_tail_figure(FigureMaker &maker, const std::vector<std::string> &boundaries,
+                          const std::vector<std::vector<IdsAccumulator::Row>> &rows,
+                          const std::vector<DeepTailFit> &fits, double e0, double cell_volume,
+                          unsigned int dimension, double confidence);
 
   /** ln ρ (Gaussian-broadened) against E with the fitted Urbach lines. */
   Figure urbach_figure(FigureMaker &maker, const std::vector<std::string> &boundaries,

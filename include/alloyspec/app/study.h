@@ -144,6 +144,8 @@ namespace alloyspec
     std::size_t                                   solved_here_ = 0;
     /** Rank 0: a record of this run reached the folder (a failure then keeps the folder). */
     bool                                          stored_any_ = false;
+    /** Rank 0: this run wrote StudyModel::tilt_file (removed again if the run stores nothing). */
+    bool                                          wrote_tilt_ = false;
     std::string                                   output_directory_;
     /** What the automatic tilt choice did, for run.json. */
     std::string                                   tilt_log_;
