@@ -31,13 +31,17 @@ namespace alloyspec
         for (const auto &r : rows)
           {
             const auto &row = r[i];
-            out << ',' << csv_number(row.mean) << ','
-                << csv_number(std::max(0.0, row.mean - z * row.standard_error)) << ','
-                << csv_number(row.mean + z * row.standard_error) << ','
-                << csv_number(row.effective_sample_size);
+            // Above some realisation's verified range the mean is an
+            // under-count: written as missing, like ids.csv, never as a value.
+            const double nan = std::nan("");
+            out << ',' << csv_number(row.complete ? row.mean : nan) << ','
+                << csv_number(row.complete ? std::max(0.0, row.mean - z * row.standard_error) : nan)
+                << ',' << csv_number(row.complete ? row.mean + z * row.standard_error : nan) << ','
+                << csv_number(row.complete ? row.effective_sample_size : nan);
           }
         for (const auto &r : rows)
-          out << ',' << csv_number(r[i].mean > 0 ? std::log(r[i].mean) : std::nan(""));
+          out << ','
+              << csv_number(r[i].complete && r[i].mean > 0 ? std::log(r[i].mean) : std::nan(""));
         out << '\n';
       }
     return out.str();

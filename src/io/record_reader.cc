@@ -210,13 +210,17 @@ namespace alloyspec
     std::vector<const Line *>      record_lines;
     std::vector<std::uint64_t>     expected; // eigenvalue count per summary line
     std::size_t                    fields = 0;
-    // Folders written before tilted sampling have no log_weight column (weight 1).
-    const std::string older_summary =
+    // Earlier versions named the energy columns without their unit, and
+    // folders written before tilted sampling have no log_weight column (weight 1).
+    const std::string older_summary_10 =
+      "realisation,boundary,n_eigenvalues,complete_up_to,inertia_count,potential_min,"
+      "potential_max,solve_seconds,attempts,log_weight";
+    const std::string older_summary_9 =
       "realisation,boundary,n_eigenvalues,complete_up_to,inertia_count,potential_min,"
       "potential_max,solve_seconds,attempts";
     if (summary.exists &&
-        check_header(summary, {ResultsStore::summary_header, older_summary}, fields,
-                     result.warnings))
+        check_header(summary, {ResultsStore::summary_header, older_summary_10, older_summary_9},
+                     fields, result.warnings))
       {
         result.summary_bytes = summary.lines.front().end;
         std::set<std::pair<std::uint64_t, std::string>> seen;
@@ -265,8 +269,10 @@ namespace alloyspec
       {
         const std::string older_6 = "realisation,boundary,index,eigenvalue,residual,ipr";
         const std::string older_7 = "realisation,boundary,index,eigenvalue,residual,error,ipr";
-        if (check_header(eigen, {ResultsStore::eigenvalue_header, older_7, older_6}, fields,
-                         result.warnings))
+        const std::string older_8 =
+          "realisation,boundary,index,eigenvalue,residual,error,ipr,central_weight";
+        if (check_header(eigen, {ResultsStore::eigenvalue_header, older_8, older_7, older_6},
+                         fields, result.warnings))
           {
             result.eigenvalue_bytes = eigen.lines.front().end;
             for (std::size_t i = 1; i < eigen.lines.size(); ++i)

@@ -45,7 +45,7 @@ def run_study(exe, work, name, sets, ranks=1, cli=()):
     eig = {}
     with open(os.path.join(out, "eigenvalues.csv")) as f:
         for r in csv.DictReader(f):
-            eig.setdefault((int(r["realisation"]), r["boundary"]), []).append(float(r["eigenvalue"]))
+            eig.setdefault((int(r["realisation"]), r["boundary"]), []).append(float(r["eigenvalue_reduced"]))
     seconds = [float(r["solve_seconds"]) for r in rows]
     return {"per_solve": sum(seconds) / len(seconds), "n": [int(r["n_eigenvalues"]) for r in rows],
             "solve_phase": manifest["timings_seconds"]["eigen_solves"], "wall": wall, "eigenvalues": eig,

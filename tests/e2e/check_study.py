@@ -11,6 +11,8 @@ import json
 import math
 import sys
 
+import records
+
 RESIDUAL_LIMIT = 1e-8  # the solver's default tolerance is 1e-12; common practice, no source
 
 
@@ -26,10 +28,17 @@ def check_weighted(folder, summary):
     with open(f"{folder}/tail.csv") as f:
         tail = list(csv.DictReader(f))
     assert tail, "tail.csv is empty"
-    for row in tail:
+    with open(f"{folder}/ids.csv") as f:
+        ids_rows = list(csv.DictReader(f))
+    assert len(ids_rows) == len(tail), "tail.csv and ids.csv have different grids"
+    for row, ids_row in zip(tail, ids_rows):
         for bc in ("dirichlet", "neumann"):
             if f"ids_{bc}" in row:
                 ids, lo, hi = (float(row[f"{c}_{bc}"]) for c in ("ids", "lower", "upper"))
+                # An incomplete entry (an under-count) is written as missing, and only then.
+                if ids_row[f"complete_{bc}"] != "1":
+                    assert all(math.isnan(x) for x in (ids, lo, hi)), row
+                    continue
                 assert 0 <= lo <= ids <= hi, row
                 assert float(row[f"ess_{bc}"]) >= 0, row
     # deep_tail.json: every boundary has its fits, and "asymptotic" only with no reason against it.
@@ -53,8 +62,7 @@ def main(folder):
     with open(f"{folder}/run.json") as f:
         run = json.load(f)
     assert run["realisations_stored"] >= 1, "no realisation stored"
-    with open(f"{folder}/eigenvalues.csv") as f:
-        rows = list(csv.DictReader(f))
+    rows = records.rows(f"{folder}/eigenvalues.csv")
     assert rows, "eigenvalues.csv is empty"
     assert list(rows[0].keys())[:5] == ["realisation", "boundary", "index", "eigenvalue", "residual"]
     spectra = {}
@@ -65,8 +73,7 @@ def main(folder):
         # (with its safety factor) still far below the eigenvalue itself.
         if "error" in r and r["error"] != "nan":
             assert 0 < float(r["error"]) < max(abs(float(r["eigenvalue"])), 1.0), f"error {r['error']}"
-    with open(f"{folder}/realisations.csv") as f:
-        summary = list(csv.DictReader(f))
+    summary = records.rows(f"{folder}/realisations.csv")
     complete = {}
     for s in summary:
         key = (int(s["realisation"]), s["boundary"])

@@ -11,6 +11,8 @@ import csv
 import math
 import sys
 
+import records
+
 # Same arithmetic on the same inputs; only the order of summation in ids.csv
 # may differ (common practice, no source).
 DEFAULT_TOLERANCE = 1e-12
@@ -25,18 +27,17 @@ def close(a, b, tolerance):
 
 
 def eigenvalue_records(folder):
-    with open(f"{folder}/eigenvalues.csv") as f:
-        rows = list(csv.DictReader(f))
-    records = {}
+    rows = records.rows(f"{folder}/eigenvalues.csv")
+    found = {}
     for r in rows:
         key = (int(r["realisation"]), r["boundary"], int(r["index"]))
         # A record written twice (torn, then rewritten on resume) must agree with itself.
-        records[key] = float(r["eigenvalue"])
+        found[key] = float(r["eigenvalue"])
     with open(f"{folder}/realisations.csv") as f:
         stored = {(int(r["realisation"]), r["boundary"]): int(r["n_eigenvalues"])
                   for r in csv.DictReader(f)}
     # Keep the eigenvalues of complete records only (the reader's rule).
-    return {k: v for k, v in records.items() if (k[0], k[1]) in stored and k[2] < stored[(k[0], k[1])]}
+    return {k: v for k, v in found.items() if (k[0], k[1]) in stored and k[2] < stored[(k[0], k[1])]}
 
 
 def main(a, b, tolerance):

@@ -11,6 +11,8 @@ import json
 import math
 import sys
 
+import records
+
 # An energy this close to an eigenvalue may be counted on either side by a
 # rounding error in the factorisation (common practice, no source).
 NEAR_EIGENVALUE = 1e-8
@@ -27,13 +29,11 @@ def main(run, count):
     with open(f"{run}/run.json") as f:
         to_user = json.load(f)["units"]["records_energy_unit_in_user_unit"]
     spectra, complete = {}, {}
-    with open(f"{run}/eigenvalues.csv") as f:
-        for r in csv.DictReader(f):
-            spectra.setdefault((int(r["realisation"]), r["boundary"]), []).append(
-                to_user * float(r["eigenvalue"]))
-    with open(f"{run}/realisations.csv") as f:
-        for r in csv.DictReader(f):
-            complete[(int(r["realisation"]), r["boundary"])] = to_user * float(r["complete_up_to"])
+    for r in records.rows(f"{run}/eigenvalues.csv"):
+        spectra.setdefault((int(r["realisation"]), r["boundary"]), []).append(
+            to_user * float(r["eigenvalue"]))
+    for r in records.rows(f"{run}/realisations.csv"):
+        complete[(int(r["realisation"]), r["boundary"])] = to_user * float(r["complete_up_to"])
     checked = skipped = largest = 0
     failures = []
     with open(f"{count}/counts.csv") as f:

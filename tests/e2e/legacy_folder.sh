@@ -1,6 +1,8 @@
 #!/usr/bin/env bash
 # Folders written by earlier versions: the stored parameter file was named
-# parameters.prm and the energy grid was written "start:step:stop". `summarise`
+# parameters.prm, the energy grid was written "start:step:stop", and the energy
+# columns of the records were named without their unit ("eigenvalue", not
+# "eigenvalue_reduced"). `summarise`
 # and `run --resume` must read such a folder (and give the same tables as a
 # folder of this version), and a resume with other model parameters must still
 # be refused, which shows the legacy file is really read.
@@ -18,6 +20,9 @@ make_legacy() {
   mv "$1/as_run.prm" "$1/parameters.prm" || fail "no as_run.prm in $1"
   sed -i 's/^\( *set energies *= *\)0 to 4 by 0.1/\10:0.1:4/' "$1/parameters.prm"
   grep -q "set energies *= *0:0.1:4" "$1/parameters.prm" || fail "could not write the colon grid"
+  sed -i '1s/_reduced//g' "$1/eigenvalues.csv" "$1/realisations.csv"
+  head -n 1 "$1/eigenvalues.csv" | grep -q "^realisation,boundary,index,eigenvalue,residual,error," \
+    || fail "could not write the earlier column names"
 }
 
 "$exe" run "${args[@]}" --set study/realisations=3 --output "$work/now" > "$work/now.log" 2>&1 \

@@ -16,7 +16,9 @@ namespace alloyspec
    * confidence level c, cut at 0 below (N ≥ 0); ess_X is the effective number
    * of realisations behind the estimate (IdsAccumulator::Row). Rows are the
    * energies of the grid, so the table reaches down to the smallest N the
-   * sample resolves. @p rows[b] belongs to @p boundaries[b].
+   * sample resolves. Where a row is incomplete (above some realisation's
+   * verified range, an under-count) every value of its boundary condition is
+   * written as the missing marker. @p rows[b] belongs to @p boundaries[b].
    */
   std::string format_tail_table(const std::vector<std::string>                      &boundaries,
                                 const std::vector<std::vector<IdsAccumulator::Row>> &rows,

@@ -54,11 +54,16 @@ namespace alloyspec
   class ResultsStore
   {
   public:
+    /**
+     * Energies in the records are in the solver's unit, the `reduced` unit
+     * @f$\hbar^2/(2m^*\ell^2)@f$ of the `energy_reduced` columns (the user's
+     * unit in a reduced-unit study), and their column names say so.
+     */
     static constexpr const char *eigenvalue_header =
-      "realisation,boundary,index,eigenvalue,residual,error,ipr,central_weight";
+      "realisation,boundary,index,eigenvalue_reduced,residual,error_reduced,ipr,central_weight";
     static constexpr const char *summary_header =
-      "realisation,boundary,n_eigenvalues,complete_up_to,inertia_count,potential_min,"
-      "potential_max,solve_seconds,attempts,log_weight";
+      "realisation,boundary,n_eigenvalues,complete_up_to_reduced,inertia_count,"
+      "potential_min_reduced,potential_max_reduced,solve_seconds,attempts,log_weight";
 
     /**
      * The effective parameters of a study, in deal.II's short format, written
