@@ -21,6 +21,10 @@
 
 #include <CLI/CLI.hpp>
 
+#include <algorithm>
+#include <deque>
+#include <set>
+
 #include <chrono>
 #include <ctime>
 #include <filesystem>
@@ -452,6 +456,8 @@ end
                                    "study/energies may be changed without solving again");
               }
             std::vector<StoredStudy> stored;
+            std::deque<StudyModel>   models;
+            std::vector<double>      tilts; // θ of each folder, 0 for plain sampling
             AnalysisSettings         settings;
             for (const auto &folder : summary_inputs)
               {
@@ -471,11 +477,40 @@ end
                 stored_prm.leave_subsection();
                 for (const auto &assignment : summary_overrides)
                   apply_override(stored_prm, assignment);
-                StudyModel model;
+                StudyModel &model = models.emplace_back();
                 parse_checked(model, stored_prm);
                 stored.push_back(model.describe_stored(folder, to_short_prm(stored_prm)));
+                tilts.push_back(model.sampling().is_tilted() ? model.stored_tilt(folder) : 0.0);
                 if (stored.size() == 1)
                   parse_checked(settings, stored_prm);
+              }
+            // Studies at different tilts: one estimate by the balance heuristic,
+            // each realisation weighted by p/Σ_k (n_k/n) p_θk whatever it was drawn at.
+            if (std::any_of(tilts.begin(), tilts.end(), [&](double t) { return t != tilts.front(); }))
+              {
+                std::vector<std::size_t> sizes;
+                std::size_t              total = 0;
+                for (const auto &s : stored)
+                  {
+                    std::set<std::uint64_t> own;
+                    for (const auto &r : s.input.records)
+                      own.insert(r.realisation);
+                    sizes.push_back(own.size());
+                    total += own.size();
+                  }
+                std::vector<std::pair<double, double>> mixture;
+                for (std::size_t k = 0; k < stored.size(); ++k)
+                  mixture.emplace_back(tilts[k], double(sizes[k]) / double(total));
+                std::size_t k = 0;
+                for (auto &model : models)
+                  {
+                    model.apply_tilt_mixture(stored[k], mixture);
+                    ++k;
+                  }
+                if (root)
+                  std::cerr << "alloyspec: note: " << stored.size()
+                            << " studies at different tilts combined by the balance heuristic "
+                               "(multiple importance sampling)\n";
               }
             if (root)
               {
