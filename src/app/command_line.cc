@@ -21,7 +21,12 @@
 
 #include <CLI/CLI.hpp>
 
+#include <algorithm>
 #include <chrono>
+#include <cmath>
+#include <limits>
+#include <memory>
+#include <optional>
 #include <ctime>
 #include <filesystem>
 #include <fstream>
@@ -453,6 +458,8 @@ end
               }
             std::vector<StoredStudy> stored;
             AnalysisSettings         settings;
+            // The parsed model of each folder and its stored parameter text.
+            std::vector<std::pair<std::unique_ptr<StudyModel>, std::string>> models;
             for (const auto &folder : summary_inputs)
               {
                 if (!std::filesystem::is_directory(folder))
@@ -471,12 +478,35 @@ end
                 stored_prm.leave_subsection();
                 for (const auto &assignment : summary_overrides)
                   apply_override(stored_prm, assignment);
-                StudyModel model;
-                parse_checked(model, stored_prm);
-                stored.push_back(model.describe_stored(folder, to_short_prm(stored_prm)));
-                if (stored.size() == 1)
+                auto model = std::make_unique<StudyModel>();
+                parse_checked(*model, stored_prm);
+                models.push_back({std::move(model), to_short_prm(stored_prm)});
+                if (models.size() == 1)
                   parse_checked(settings, stored_prm);
               }
+            // Folders whose grid follows their spectra (study/energies = auto)
+            // share one grid when tabulated together: from the lowest band
+            // bottom to the lowest energy every folder verified.
+            std::optional<std::vector<double>> shared_grid;
+            if (models.size() > 1)
+              {
+                double lower = std::numeric_limits<double>::infinity();
+                double upper = std::numeric_limits<double>::infinity();
+                for (std::size_t k = 0; k < models.size(); ++k)
+                  if (models[k].first->study().energies_from_spectrum)
+                    {
+                      const auto range = models[k].first->spectrum_range(summary_inputs[k]);
+                      lower            = std::min(lower, range.first);
+                      upper            = std::min(upper, range.second);
+                    }
+                if (std::isfinite(lower))
+                  shared_grid = StudyModel::spectrum_grid(lower, upper);
+              }
+            for (std::size_t k = 0; k < models.size(); ++k)
+              stored.push_back(models[k].first->describe_stored(
+                summary_inputs[k], models[k].second,
+                shared_grid && models[k].first->study().energies_from_spectrum ? &*shared_grid :
+                                                                                  nullptr));
             if (root)
               {
                 std::error_code error;
