@@ -47,6 +47,9 @@ namespace alloyspec
         {
           if (is_run_only(k) || (allow_cells && k == "lattice/cells"))
             continue;
+          // Studies at different tilts, combined by the balance heuristic.
+          if (a.tilt_mixture && b.tilt_mixture && k.rfind("sampling/", 0) == 0)
+            continue;
           const auto ia = a.parameters.find(k), ib = b.parameters.find(k);
           const std::string va = ia == a.parameters.end() ? "<absent>" : ia->second;
           const std::string vb = ib == b.parameters.end() ? "<absent>" : ib->second;

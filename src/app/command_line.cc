@@ -27,7 +27,9 @@
 #include <limits>
 #include <memory>
 #include <optional>
+#include <set>
 #include <ctime>
+#include <deque>
 #include <filesystem>
 #include <fstream>
 #include <iostream>
@@ -457,9 +459,10 @@ end
                                    "study/energies may be changed without solving again");
               }
             std::vector<StoredStudy> stored;
+            std::deque<StudyModel>   models;
+            std::vector<std::string> stored_texts; // each folder's stored parameters
+            std::vector<double>      tilts; // θ of each folder, 0 for plain sampling
             AnalysisSettings         settings;
-            // The parsed model of each folder and its stored parameter text.
-            std::vector<std::pair<std::unique_ptr<StudyModel>, std::string>> models;
             for (const auto &folder : summary_inputs)
               {
                 if (!std::filesystem::is_directory(folder))
@@ -478,9 +481,9 @@ end
                 stored_prm.leave_subsection();
                 for (const auto &assignment : summary_overrides)
                   apply_override(stored_prm, assignment);
-                auto model = std::make_unique<StudyModel>();
-                parse_checked(*model, stored_prm);
-                models.push_back({std::move(model), to_short_prm(stored_prm)});
+                StudyModel &model = models.emplace_back();
+                parse_checked(model, stored_prm);
+                stored_texts.push_back(to_short_prm(stored_prm));
                 if (models.size() == 1)
                   parse_checked(settings, stored_prm);
               }
@@ -493,9 +496,9 @@ end
                 double lower = std::numeric_limits<double>::infinity();
                 double upper = std::numeric_limits<double>::infinity();
                 for (std::size_t k = 0; k < models.size(); ++k)
-                  if (models[k].first->study().energies_from_spectrum)
+                  if (models[k].study().energies_from_spectrum)
                     {
-                      const auto range = models[k].first->spectrum_range(summary_inputs[k]);
+                      const auto range = models[k].spectrum_range(summary_inputs[k]);
                       lower            = std::min(lower, range.first);
                       upper            = std::min(upper, range.second);
                     }
@@ -503,10 +506,42 @@ end
                   shared_grid = StudyModel::spectrum_grid(lower, upper);
               }
             for (std::size_t k = 0; k < models.size(); ++k)
-              stored.push_back(models[k].first->describe_stored(
-                summary_inputs[k], models[k].second,
-                shared_grid && models[k].first->study().energies_from_spectrum ? &*shared_grid :
-                                                                                  nullptr));
+              {
+                const StudyModel &model = models[k];
+                stored.push_back(model.describe_stored(
+                  summary_inputs[k], stored_texts[k],
+                  shared_grid && model.study().energies_from_spectrum ? &*shared_grid : nullptr));
+                tilts.push_back(model.sampling().is_tilted() ? model.stored_tilt(summary_inputs[k]) :
+                                                               0.0);
+              }
+            // Studies at different tilts: one estimate by the balance heuristic,
+            // each realisation weighted by p/Σ_k (n_k/n) p_θk whatever it was drawn at.
+            if (std::any_of(tilts.begin(), tilts.end(), [&](double t) { return t != tilts.front(); }))
+              {
+                std::vector<std::size_t> sizes;
+                std::size_t              total = 0;
+                for (const auto &s : stored)
+                  {
+                    std::set<std::uint64_t> own;
+                    for (const auto &r : s.input.records)
+                      own.insert(r.realisation);
+                    sizes.push_back(own.size());
+                    total += own.size();
+                  }
+                std::vector<std::pair<double, double>> mixture;
+                for (std::size_t k = 0; k < stored.size(); ++k)
+                  mixture.emplace_back(tilts[k], double(sizes[k]) / double(total));
+                std::size_t k = 0;
+                for (auto &model : models)
+                  {
+                    model.apply_tilt_mixture(stored[k], mixture);
+                    ++k;
+                  }
+                if (root)
+                  std::cerr << "alloyspec: note: " << stored.size()
+                            << " studies at different tilts combined by the balance heuristic "
+                               "(multiple importance sampling)\n";
+              }
             if (root)
               {
                 std::error_code error;

@@ -1,6 +1,7 @@
 #include <alloyspec/analysis/spectral_analysis.h>
 #include <alloyspec/analysis/summary.h>
 #include <alloyspec/app/study_model.h>
+#include <alloyspec/model/tilt_mixture.h>
 #include <alloyspec/core/errors.h>
 #include <alloyspec/core/format.h>
 #include <alloyspec/io/record_reader.h>
@@ -404,5 +405,45 @@ namespace alloyspec
           stored.semiclassical_sum[i] += w * counts[i];
       }
     return stored;
+  }
+
+  void StudyModel::apply_tilt_mixture(StoredStudy                                  &stored,
+                                      const std::vector<std::pair<double, double>> &mixture) const
+  {
+    PotentialModel drawn = potential_;
+    if (sampling_.is_tilted())
+      drawn.set_tilt(stored_tilt(stored.directory));
+    std::vector<PotentialModel> components;
+    std::vector<double>         shares;
+    for (const auto &[theta, share] : mixture)
+      {
+        components.push_back(potential_);
+        components.back().set_tilt(theta);
+        shares.push_back(share);
+      }
+    std::set<std::uint64_t> realisations;
+    for (const auto &r : stored.input.records)
+      realisations.insert(r.realisation);
+    const auto                volumes  = domain_volumes();
+    // The grid the stored study was tabulated on (its own, shared, or auto).
+    const std::vector<double> energies = units_.to_solver_energies(stored.input.energies);
+    std::map<std::uint64_t, double> log_weight;
+    stored.semiclassical_sum.assign(energies.size(), 0.0);
+    for (const std::uint64_t r : realisations)
+      {
+        const std::vector<double> q_user = drawn.cell_values(study_.seed, r);
+        std::vector<double>       ell;
+        for (const auto &c : components)
+          ell.push_back(c.log_weight(q_user));
+        const double lw = balance_log_weight(ell, shares);
+        log_weight[r]   = lw;
+        const std::vector<double> counts =
+          phase_space_count(units_.to_solver_energies(q_user), energies, lattice_.dimension(), volumes);
+        for (std::size_t i = 0; i < counts.size(); ++i)
+          stored.semiclassical_sum[i] += std::exp(lw) * counts[i];
+      }
+    for (auto &r : stored.input.records)
+      r.log_weight = log_weight.at(r.realisation);
+    stored.tilt_mixture = true;
   }
 } // namespace alloyspec

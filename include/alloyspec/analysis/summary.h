@@ -24,6 +24,12 @@ namespace alloyspec
     AnalysisInput                      input;
     std::vector<double>                semiclassical_sum;
     std::uint64_t                      seed = 0;
+    /**
+     * The records carry balance-heuristic weights over the merged studies'
+     * tilts (StudyModel::apply_tilt_mixture): folders may then differ in
+     * their `sampling/...` entries.
+     */
+    bool                               tilt_mixture = false;
   };
 
   /**

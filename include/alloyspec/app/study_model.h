@@ -140,6 +140,17 @@ namespace alloyspec
                                 const std::vector<double> *grid = nullptr) const;
 
     /**
+     * Gives the realisations of @p stored (drawn by this model at its stored
+     * tilt) their balance-heuristic weights over the studies of a merge
+     * (balance_log_weight(), model/tilt_mixture.h): @p mixture lists each
+     * study's tilt θ_k (0 for plain) and share n_k/n. The cell values are
+     * regenerated, ℓ_k(q) computed at every θ_k, every record's log_weight and
+     * the semiclassical sum replaced, and stored.tilt_mixture set.
+     */
+    void apply_tilt_mixture(StoredStudy &stored,
+                            const std::vector<std::pair<double, double>> &mixture) const;
+
+    /**
      * What the analysis needs to know of the model (box, boundaries, energy
      * grid and its unit, band bottom, a one-paragraph summary), without
      * records, for a domain of volume @p volume.
