@@ -22,11 +22,14 @@
 #include <CLI/CLI.hpp>
 
 #include <algorithm>
-#include <deque>
-#include <set>
-
 #include <chrono>
+#include <cmath>
+#include <limits>
+#include <memory>
+#include <optional>
+#include <set>
 #include <ctime>
+#include <deque>
 #include <filesystem>
 #include <fstream>
 #include <iostream>
@@ -457,6 +460,7 @@ end
               }
             std::vector<StoredStudy> stored;
             std::deque<StudyModel>   models;
+            std::vector<std::string> stored_texts; // each folder's stored parameters
             std::vector<double>      tilts; // θ of each folder, 0 for plain sampling
             AnalysisSettings         settings;
             for (const auto &folder : summary_inputs)
@@ -479,10 +483,36 @@ end
                   apply_override(stored_prm, assignment);
                 StudyModel &model = models.emplace_back();
                 parse_checked(model, stored_prm);
-                stored.push_back(model.describe_stored(folder, to_short_prm(stored_prm)));
-                tilts.push_back(model.sampling().is_tilted() ? model.stored_tilt(folder) : 0.0);
-                if (stored.size() == 1)
+                stored_texts.push_back(to_short_prm(stored_prm));
+                if (models.size() == 1)
                   parse_checked(settings, stored_prm);
+              }
+            // Folders whose grid follows their spectra (study/energies = auto)
+            // share one grid when tabulated together: from the lowest band
+            // bottom to the lowest energy every folder verified.
+            std::optional<std::vector<double>> shared_grid;
+            if (models.size() > 1)
+              {
+                double lower = std::numeric_limits<double>::infinity();
+                double upper = std::numeric_limits<double>::infinity();
+                for (std::size_t k = 0; k < models.size(); ++k)
+                  if (models[k].study().energies_from_spectrum)
+                    {
+                      const auto range = models[k].spectrum_range(summary_inputs[k]);
+                      lower            = std::min(lower, range.first);
+                      upper            = std::min(upper, range.second);
+                    }
+                if (std::isfinite(lower))
+                  shared_grid = StudyModel::spectrum_grid(lower, upper);
+              }
+            for (std::size_t k = 0; k < models.size(); ++k)
+              {
+                const StudyModel &model = models[k];
+                stored.push_back(model.describe_stored(
+                  summary_inputs[k], stored_texts[k],
+                  shared_grid && model.study().energies_from_spectrum ? &*shared_grid : nullptr));
+                tilts.push_back(model.sampling().is_tilted() ? model.stored_tilt(summary_inputs[k]) :
+                                                               0.0);
               }
             // Studies at different tilts: one estimate by the balance heuristic,
             // each realisation weighted by p/Σ_k (n_k/n) p_θk whatever it was drawn at.

@@ -59,7 +59,7 @@ namespace alloyspec
                        "(allowed: empty; set 'discretisation/degree' and 'elements per cell' "
                        "directly, e.g. to the choice in a run's run.json)");
     // Counts are taken in solver units; the tables show the user's unit.
-    const std::vector<double> solver_energies = model.solver_energies();
+    const std::vector<double> solver_energies = model.solver_energies("count");
 
     ResultsStore store(options.output_directory, false);
     // Rank 0 holds the folder for the whole count, so that no run, count or

@@ -76,7 +76,7 @@ namespace alloyspec
     const unsigned int        dim        = s.lattice().dimension();
     const auto               &boundaries = s.boundaries();
     const std::vector<double> energies        = s.study().energies; // user unit
-    const std::vector<double> solver_energies = s.solver_energies();
+    const std::vector<double> solver_energies = s.solver_energies("landscape");
 
     // The same discretisations as an eigenvalue study of this model.
     std::vector<std::unique_ptr<Discretisation>>  discretisations;

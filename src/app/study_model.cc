@@ -17,6 +17,7 @@
 #include <filesystem>
 #include <fstream>
 #include <iostream>
+#include <limits>
 #include <map>
 #include <numeric>
 #include <set>
@@ -59,6 +60,26 @@ namespace alloyspec
           counts[i] = sum / volume;
         }
       return counts;
+    }
+
+    /**
+     * From the band bottom (or, for an unbounded law, the lowest stored
+     * eigenvalue) to the lowest energy up to which some realisation's list
+     * is verified complete: every realisation counts exactly there.
+     */
+    std::pair<double, double> verified_range(const std::vector<RealisationRecord> &records,
+                                             const double                          bottom)
+    {
+      double lowest = std::numeric_limits<double>::infinity();
+      double upper  = std::numeric_limits<double>::infinity();
+      for (const auto &r : records)
+        {
+          if (!r.eigenvalues.empty())
+            lowest = std::min(lowest, r.eigenvalues.front());
+          if (std::isfinite(r.complete_up_to))
+            upper = std::min(upper, r.complete_up_to);
+        }
+      return {std::isfinite(bottom) ? bottom : lowest, upper};
     }
   } // namespace
 
@@ -189,8 +210,12 @@ namespace alloyspec
     return units_.to_solver_energies(potential_.cell_values(study_.seed, realisation));
   }
 
-  std::vector<double> StudyModel::solver_energies() const
+  std::vector<double> StudyModel::solver_energies(const std::string &command) const
   {
+    if (study_.energies_from_spectrum)
+      throw InputError("parameter 'study/energies' = auto: that grid follows the verified spectra "
+                       "of 'alloyspec run', which the " + command + " command does not compute "
+                       "(allowed here: a range 'start to stop by step' or a list 'E1, E2, ...')");
     return units_.to_solver_energies(study_.energies);
   }
 
@@ -259,11 +284,48 @@ namespace alloyspec
   StudyModel::semiclassical_count(const std::uint64_t                           r,
                                   const std::pair<double, std::vector<double>> &volumes) const
   {
-    return phase_space_count(solver_cell_values(r), solver_energies(), lattice_.dimension(), volumes);
+    return phase_space_count(solver_cell_values(r), solver_energies("count"), lattice_.dimension(),
+                             volumes);
   }
 
-  StoredStudy StudyModel::describe_stored(const std::string &directory,
-                                          const std::string &parameters_prm) const
+  std::vector<double> StudyModel::spectrum_grid(const double lower, const double upper)
+  {
+    if (!std::isfinite(lower) || !std::isfinite(upper) || !(upper > lower))
+      throw InputError("parameter 'study/energies' = auto: the verified spectra give no range to "
+                       "tabulate (from " + short_number(lower, 6) + " to " +
+                       short_number(upper, 6) + "); ask for more eigenvalues, or give a range "
+                       "'start to stop by step'");
+    // At most this many intervals: fine enough to show the IDS's steps in
+    // small boxes, coarse enough for quick tables (common practice, no source).
+    constexpr double most_intervals = 200;
+    const double     wanted         = (upper - lower) / most_intervals;
+    const double     decade         = std::pow(10.0, std::floor(std::log10(wanted)));
+    double           step           = 10 * decade;
+    for (const double m : {1.0, 2.0, 2.5, 5.0})
+      if (m * decade >= wanted * (1 - 1e-12))
+        {
+          step = m * decade;
+          break;
+        }
+    // Points as whole multiples of the step, so that they print as typed.
+    const long long first = static_cast<long long>(std::floor(lower / step + 1e-9));
+    const long long last  = static_cast<long long>(std::floor(upper / step + 1e-9));
+    std::vector<double> grid;
+    for (long long k = first; k <= last; ++k)
+      grid.push_back(double(k) * step);
+    return grid;
+  }
+
+  std::pair<double, double> StudyModel::spectrum_range(const std::string &directory) const
+  {
+    const std::vector<double> one_point{0.0};
+    const StoredStudy         stored = describe_stored(directory, "", &one_point);
+    return verified_range(stored.input.records, potential_.bottom());
+  }
+
+  StoredStudy StudyModel::describe_stored(const std::string         &directory,
+                                          const std::string         &parameters_prm,
+                                          const std::vector<double> *grid) const
   {
     StoredStudy stored;
     stored.directory  = directory;
@@ -321,11 +383,18 @@ namespace alloyspec
     // values are regenerated from the counter-based stream, not stored.
     // Tilted sampling: drawn at the stored study's tilt, weighted like every
     // other average (w = 1 when plain).
-    stored.semiclassical_sum.assign(study_.energies.size(), 0.0);
+    if (grid)
+      in.energies = *grid;
+    else if (study_.energies_from_spectrum)
+      {
+        const auto [lower, upper] = verified_range(in.records, potential_.bottom());
+        in.energies               = spectrum_grid(lower, upper);
+      }
+    stored.semiclassical_sum.assign(in.energies.size(), 0.0);
     PotentialModel potential = potential_;
     if (sampling_.is_tilted())
       potential.set_tilt(stored_tilt(directory));
-    const std::vector<double> energies = solver_energies();
+    const std::vector<double> energies = units_.to_solver_energies(in.energies);
     for (const std::uint64_t r : realisations)
       {
         const std::vector<double> q_user = potential.cell_values(study_.seed, r);
@@ -356,9 +425,10 @@ namespace alloyspec
     for (const auto &r : stored.input.records)
       realisations.insert(r.realisation);
     const auto                volumes  = domain_volumes();
-    const std::vector<double> energies = solver_energies();
+    // The grid the stored study was tabulated on (its own, shared, or auto).
+    const std::vector<double> energies = units_.to_solver_energies(stored.input.energies);
     std::map<std::uint64_t, double> log_weight;
-    stored.semiclassical_sum.assign(study_.energies.size(), 0.0);
+    stored.semiclassical_sum.assign(energies.size(), 0.0);
     for (const std::uint64_t r : realisations)
       {
         const std::vector<double> q_user = drawn.cell_values(study_.seed, r);

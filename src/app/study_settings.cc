@@ -48,10 +48,13 @@ namespace alloyspec
     prm.declare_entry("seed", "1", dealii::Patterns::Anything(),
                       "Seed of the counter-based random stream (0 to 2^64-1). The value of cell n "
                       "in realisation r depends only on (seed, r, n).");
-    prm.declare_entry("energies", "0 to 10 by 0.1", dealii::Patterns::Anything(),
-                      "Energy grid of the IDS table, in the energy unit of the study: a range "
-                      "'start to stop by step' (the stop is included when it lies on the grid), "
-                      "or an ascending list 'E1, E2, ...'.");
+    prm.declare_entry("energies", "auto", dealii::Patterns::Anything(),
+                      "Energy grid of the IDS table, in the energy unit of the study: 'auto' "
+                      "(about 200 points from the band bottom to the highest energy at which "
+                      "every realisation's eigenvalues are verified complete, on a step of 1, 2, "
+                      "2.5 or 5 times a power of ten), a range 'start to stop by step' (the stop "
+                      "is included when it lies on the grid), or an ascending list 'E1, E2, "
+                      "...'. The count and landscape commands need a range or a list.");
     prm.declare_entry("export eigenfunctions", "",
                       dealii::Patterns::List(dealii::Patterns::Integer(0, 100000), 0, 100),
                       "Indices (0 = lowest) of eigenfunctions to write as VTU files "
@@ -70,8 +73,14 @@ namespace alloyspec
     first_realisation = parse_count(prm.get("first realisation"), "study/first realisation", 0,
                                     max_realisations - realisations);
     seed              = parse_count(prm.get("seed"), "study/seed", 0, ~0ULL);
-    energies_text     = prm.get("energies");
-    energies          = parse_energy_grid(energies_text, "study/energies");
+    energies_text          = prm.get("energies");
+    const auto first       = energies_text.find_first_not_of(" \t");
+    const auto last        = energies_text.find_last_not_of(" \t");
+    energies_from_spectrum = first != std::string::npos &&
+                             energies_text.substr(first, last - first + 1) == "auto";
+    energies.clear();
+    if (!energies_from_spectrum)
+      energies = parse_energy_grid(energies_text, "study/energies");
     export_eigenfunctions.clear();
     for (const auto &x : dealii::Utilities::split_string_list(prm.get("export eigenfunctions")))
       export_eigenfunctions.push_back(

@@ -90,7 +90,7 @@ pools = {
     "study/realisations": ["1", "2", "4294967295", "0"],
     "study/export eigenfunctions": ["", "0", "0, 1", "{0|1}", "99999"],
     "landscape/shift": ["auto", "0", "-inf", "nan", "1"],
-    "study/energies": ["0 to 4 by 0.5", "0 to 1 by 1e-300", "4 to 0 by 1", "0:0.5:4", "0, 1, 2"],
+    "study/energies": ["auto", "0 to 4 by 0.5", "0 to 1 by 1e-300", "4 to 0 by 1", "0:0.5:4", "0, 1, 2"],
 }
 keys = sorted(pools)
 for case in range(30):

@@ -88,8 +88,27 @@ namespace alloyspec
 
     /** Cell values @f$q_n(\omega_r)@f$ of realisation @p r in solver units. */
     std::vector<double> solver_cell_values(std::uint64_t r) const;
-    /** The energy grid of `study/energies` in solver units. */
-    std::vector<double> solver_energies() const;
+    /**
+     * The energy grid of `study/energies` in solver units; InputError naming
+     * @p command when the grid is `auto` (it needs stored spectra).
+     */
+    std::vector<double> solver_energies(const std::string &command = "run") const;
+
+    /**
+     * The grid `study/energies = auto` makes for energies from @p lower to
+     * @p upper (user unit): a step h of 1, 2, 2.5 or 5 times a power of ten,
+     * the smallest with at most 200 intervals, and the points k h from the
+     * multiple of h at or below @p lower to the last one at or below @p upper.
+     * InputError when the range is empty or not finite.
+     */
+    static std::vector<double> spectrum_grid(double lower, double upper);
+
+    /**
+     * The range `auto` covers for the records stored in @p directory (user
+     * unit): from the band bottom (or, for an unbounded law, the lowest
+     * stored eigenvalue) to the lowest `complete_up_to` of any realisation.
+     */
+    std::pair<double, double> spectrum_range(const std::string &directory) const;
 
     /**
      * The discretisation of one solve with bracketing condition @p bracketing:
@@ -112,10 +131,13 @@ namespace alloyspec
      * in the user's unit, with everything needed to tabulate them (summary.h),
      * and the phase-space count @f$N_{sc}(E)@f$ of the same realisations
      * regenerated from the counter-based stream, weighted by @f$w_r@f$ when
-     * tilted. @p parameters_prm: the stored parameter text. InputError when
-     * no complete realisation is stored.
+     * tilted. @p parameters_prm: the stored parameter text. The energy grid
+     * is @p grid if given (a grid shared by several folders), else that of
+     * `study/energies` (with `auto`, spectrum_grid() over this folder's
+     * spectrum_range()). InputError when no complete realisation is stored.
      */
-    StoredStudy describe_stored(const std::string &directory, const std::string &parameters_prm) const;
+    StoredStudy describe_stored(const std::string &directory, const std::string &parameters_prm,
+                                const std::vector<double> *grid = nullptr) const;
 
     /**
      * Gives the realisations of @p stored (drawn by this model at its stored

@@ -18,8 +18,15 @@ namespace alloyspec
     std::uint64_t         realisations      = 20;
     std::uint64_t         first_realisation = 0;
     std::uint64_t         seed              = 1;
+    /** The grid given by the user; empty when it follows the spectrum (energies_from_spectrum). */
     std::vector<double>   energies;
-    std::string           energies_text = "0 to 10 by 0.1";
+    std::string           energies_text = "auto";
+    /**
+     * `energies = auto`: the grid is made from the stored spectra, from the
+     * band bottom to the highest energy at which every realisation's list is
+     * verified complete (StudyModel::spectrum_grid()).
+     */
+    bool                  energies_from_spectrum = true;
     /** Eigenfunction indices written as VTU for the realisations below. */
     std::vector<unsigned int>  export_eigenfunctions;
     std::vector<std::uint64_t> export_realisations{0};
