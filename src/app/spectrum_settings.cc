@@ -1,11 +1,13 @@
 #include <alloyspec/app/spectrum_settings.h>
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/text_input.h>
 
 #include <deal.II/base/parameter_handler.h>
 #include <deal.II/base/utilities.h>
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <string>
 
 namespace alloyspec
@@ -50,26 +52,10 @@ namespace alloyspec
   {
     prm.enter_subsection("spectrum");
     solver.n_eigenvalues = prm.get_integer("eigenvalues");
-    const std::string cutoff = prm.get("energy cutoff");
-    solver.energy_cutoff.reset();
-    if (cutoff.find_first_not_of(" \t") != std::string::npos)
-      {
-        std::size_t used = 0;
-        double      value = 0;
-        try
-          {
-            value = std::stod(cutoff, &used);
-          }
-        catch (const std::exception &)
-          {
-            used = 0;
-          }
-        if (used == 0 || cutoff.find_first_not_of(" \t", used) != std::string::npos ||
-            !std::isfinite(value))
-          throw InputError("parameter 'spectrum/energy cutoff': '" + cutoff +
-                           "' is not a number (allowed: empty, or a finite real number)");
-        solver.energy_cutoff = value;
-      }
+    solver.energy_cutoff =
+      optional_number(prm.get("energy cutoff"), "spectrum/energy cutoff",
+                      -std::numeric_limits<double>::max(), std::numeric_limits<double>::max(),
+                      "empty, or a finite real number");
     solver.tolerance       = prm.get_double("tolerance");
     solver.method          = prm.get("solver");
     solver.max_eigenvalues = prm.get_integer("maximum eigenvalues");

@@ -1,5 +1,6 @@
 #include <alloyspec/fe/discretisation.h>
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/text_input.h>
 #include <alloyspec/model/lattice.h>
 #include <alloyspec/fe/spectral_problem.h>
 
@@ -65,24 +66,8 @@ namespace alloyspec
     error_estimate    = prm.get("error estimate");
     const std::string text = prm.get("accuracy");
     prm.leave_subsection();
-    accuracy.reset();
-    if (text.find_first_not_of(" \t") == std::string::npos)
-      return;
-    std::size_t used  = 0;
-    double      value = 0;
-    try
-      {
-        value = std::stod(text, &used);
-      }
-    catch (const std::exception &)
-      {
-        used = 0;
-      }
-    if (used == 0 || text.find_first_not_of(" \t", used) != std::string::npos ||
-        !(value >= 1e-12 && value <= 0.1))
-      throw InputError("parameter 'discretisation/accuracy': '" + text +
-                       "' is not allowed (empty, or a number from 1e-12 to 0.1)");
-    accuracy = value;
+    accuracy = optional_number(text, "discretisation/accuracy", 1e-12, 0.1,
+                               "empty, or a number from 1e-12 to 0.1");
   }
 
   namespace
