@@ -89,10 +89,7 @@ namespace alloyspec
         std::vector<std::unique_ptr<SpectralProblem>> problems;
         for (const Boundary bc : boundaries)
           {
-            discretisations.push_back(model.make_discretisation(bc));
-            discretisations.back()->make_grid();
-            discretisations.back()->setup_system();
-            discretisations.back()->assemble_fixed();
+            discretisations.push_back(model.assembled_discretisation(bc));
             problems.push_back(discretisations.back()->make_problem());
             n_dofs.push_back(discretisations.back()->n_dofs());
           }

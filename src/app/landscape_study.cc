@@ -83,10 +83,7 @@ namespace alloyspec
     std::vector<std::unique_ptr<SpectralProblem>> problems;
     for (const Boundary bc : boundaries)
       {
-        discretisations.push_back(s.make_discretisation(bc));
-        discretisations.back()->make_grid();
-        discretisations.back()->setup_system();
-        discretisations.back()->assemble_fixed();
+        discretisations.push_back(s.assembled_discretisation(bc));
         problems.push_back(discretisations.back()->make_problem());
       }
     const double volume = s.domain_volumes(discretisations.front().get()).first;

@@ -346,7 +346,9 @@ namespace alloyspec
   RealisationRecord Study::solve_one(std::uint64_t realisation, std::size_t b)
   {
     const auto start = std::chrono::steady_clock::now();
-    const std::vector<double> q = model_.solver_cell_values(realisation);
+    // Drawn once: the solver's values and the likelihood ratio of the same cells.
+    const std::vector<double> q_user = model_.potential().cell_values(model_.study().seed, realisation);
+    const std::vector<double> q      = model_.units().to_solver_energies(q_user);
     discretisations_[b]->assemble_potential(q, *problems_[b]);
     EigenResult result = solver_->solve(*problems_[b]);
 
@@ -360,7 +362,7 @@ namespace alloyspec
     record.potential_min  = *std::min_element(q.begin(), q.end());
     record.potential_max  = *std::max_element(q.begin(), q.end());
     record.attempts       = result.attempts;
-    record.log_weight     = model_.potential().log_weight(model_.potential().cell_values(model_.study().seed, realisation));
+    record.log_weight     = model_.potential().log_weight(q_user);
     // The central cell (floor(L_i/2)) for the local-trace estimator.
     std::array<unsigned int, 3> centre{{0, 0, 0}};
     for (unsigned int d = 0; d < model_.lattice().dimension(); ++d)

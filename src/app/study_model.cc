@@ -205,6 +205,15 @@ namespace alloyspec
                                   geometry_.conditions(bracketing, lattice_.dimension()));
   }
 
+  std::unique_ptr<Discretisation> StudyModel::assembled_discretisation(const Boundary bracketing) const
+  {
+    auto d = make_discretisation(bracketing);
+    d->make_grid();
+    d->setup_system();
+    d->assemble_fixed();
+    return d;
+  }
+
   std::vector<double> StudyModel::solver_cell_values(const std::uint64_t realisation) const
   {
     return units_.to_solver_energies(potential_.cell_values(study_.seed, realisation));

@@ -117,6 +117,11 @@ namespace alloyspec
      * per cell, or one more refinement of the mesh).
      */
     std::unique_ptr<Discretisation> make_discretisation(Boundary bracketing, bool halved = false) const;
+    /**
+     * make_discretisation() with its mesh, unknowns and fixed matrices made
+     * (what count and landscape solve on; run times these phases one by one).
+     */
+    std::unique_ptr<Discretisation> assembled_discretisation(Boundary bracketing) const;
 
     /**
      * @f$|\Omega|@f$ and, per lattice cell, the volume that carries its value:
