@@ -359,6 +359,9 @@ namespace alloyspec
     record.residuals      = result.residuals;
     record.complete_up_to = result.complete_up_to;
     record.inertia_count  = result.inertia_count;
+    record.verified_by    = result.verified_by;
+    record.enclosure_lower = result.enclosure_lower;
+    record.enclosure_upper = result.enclosure_upper;
     record.potential_min  = *std::min_element(q.begin(), q.end());
     record.potential_max  = *std::max_element(q.begin(), q.end());
     record.attempts       = result.attempts;
