@@ -13,7 +13,12 @@
   5. the roofline of the eigen-solve: the factor's size, the machine's
      bandwidth and matrix-product rate (roofline_probe), the passes over the
      factor the solve made, the lower bound on its time that follows, and the
-     measured time as a ratio to it.
+     measured time as a ratio to it;
+  6. the deep band tail (tilted sampling): the variance reduction at equal
+     solve time for N(E) ~ 1e-5 (3D, L = 6, binary alloy), the depth reached
+     (smallest N with a relative 95 % half-width <= 30 %) and its time in 1D
+     (200-cell chains) and 3D, the band-edge time per realisation against one
+     factorisation, and the 1D deep-tail Lifshitz exponent against 1/2.
 
 Usage: bench.py ALLOYSPEC_EXE [--quick] [--work DIR] [--probe ROOFLINE_PROBE_EXE]
 """
@@ -460,12 +465,168 @@ def roofline(exe, work, quick, probe):
     print(f"load average after: {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
 
 
+def read_weighted_counts(folder, boundary, energies, volume):
+    """Per realisation of @boundary: its log weight and N_r(E) = #{lambda <= E}/|Lambda|."""
+    with open(os.path.join(folder, "realisations.csv")) as f:
+        rows = [r for r in csv.DictReader(f) if r["boundary"] == boundary]
+    levels = {int(r["realisation"]): [] for r in rows}
+    with open(os.path.join(folder, "eigenvalues.csv")) as f:
+        for r in csv.DictReader(f):
+            if r["boundary"] == boundary:
+                levels[int(r["realisation"])].append(float(r["eigenvalue_reduced"]))
+    out = []
+    for r in rows:
+        lv = levels[int(r["realisation"])]
+        out.append((float(r["log_weight"]), [sum(1 for x in lv if x <= e) / volume for e in energies]))
+    return out, [float(r["solve_seconds"]) for r in rows]
+
+
+def weighted_moments(sample, i):
+    """(1/R) sum w N, the sample variance of w N, and the tilted estimate of E_p[N^2]."""
+    y = [math.exp(lw) * n[i] for lw, n in sample]
+    y2 = [math.exp(lw) * n[i] ** 2 for lw, n in sample]
+    r = len(y)
+    mean = sum(y) / r
+    var = sum((v - mean) ** 2 for v in y) / (r - 1)
+    return mean, var, sum(y2) / r
+
+
+def depth_reached(folder, boundary):
+    """Smallest N in tail.csv with a 95 % half-width <= 30 % of N and an effective sample size >= 10."""
+    best = None
+    with open(os.path.join(folder, "tail.csv")) as f:
+        for r in csv.DictReader(f):
+            n, up, ess = float(r[f"ids_{boundary}"]), float(r[f"upper_{boundary}"]), float(r[f"ess_{boundary}"])
+            if n > 0 and ess >= 10 and (up - n) / n <= 0.30 and (best is None or n < best[1]):
+                best = (float(r["energy"]), n, (up - n) / n, ess)
+    return best
+
+
+def deep_tail_goals(exe, work, quick):
+    section("6. deep band tail: tilted sampling against plain sampling (measured side by side)")
+    print(f"load average before: {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
+    here = os.path.dirname(os.path.abspath(__file__))
+    configs = os.path.join(here, "..", "..", "configs")
+    results = {}
+    # --- 3D, L = 6, the invented binary alloy of binary_alloy_band_edge.prm (30 % barriers of 2).
+    L = 4 if quick else 6
+    r3 = 150 if quick else 500
+    target = 1.3 if quick else 1.0
+    grid = "0.85 to 1.15 by 0.01" if not quick else "1.0 to 1.6 by 0.02"
+    cutoff = 1.15 if not quick else 1.6
+    alloy = [os.path.join(configs, "binary_alloy_band_edge.prm")]
+    common3 = [f"lattice/cells={L},{L},{L}", "discretisation/elements per cell=1",
+               "spectrum/boundary conditions=dirichlet", f"spectrum/energy cutoff={cutoff}",
+               f"study/energies={grid}", "analysis/figure formats=", f"study/realisations={r3}"]
+    volume3 = float(L ** 3)
+    t0 = time.perf_counter()
+    tilted3 = run_study(exe, work, "tail3d_tilted", common3 + ["sampling/method=tilted", "sampling/tilt=auto",
+                                                               f"sampling/target energy={target}",
+                                                               "study/seed=31"], cli=alloy)
+    wall_t3 = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    plain3 = run_study(exe, work, "tail3d_plain", common3 + ["study/seed=32"], cli=alloy)
+    wall_p3 = time.perf_counter() - t0
+    with open(os.path.join(work, "tail3d_tilted", "run.json")) as f:
+        manifest3 = json.load(f)
+    theta3 = manifest3["sampling"]["tilt"]
+    pilot3 = manifest3["timings_seconds"].get("tilt_search", float("nan"))
+    energies3 = []
+    with open(os.path.join(work, "tail3d_tilted", "tail.csv")) as f:
+        energies3 = [float(r["energy"]) for r in csv.DictReader(f)]
+    ts, tsec = read_weighted_counts(os.path.join(work, "tail3d_tilted"), "dirichlet", energies3, volume3)
+    ps, psec = read_weighted_counts(os.path.join(work, "tail3d_plain"), "dirichlet", energies3, volume3)
+    t_t, t_p = sum(tsec) / len(tsec), sum(psec) / len(psec)
+    # The energy whose tilted estimate is nearest 1e-5 (in log), among positive ones.
+    best = None
+    for i, e in enumerate(energies3):
+        m, v, m2 = weighted_moments(ts, i)
+        if m > 0 and (best is None or abs(math.log(m / 1e-5)) < abs(math.log(best[1] / 1e-5))):
+            best = (i, m, v, m2)
+    i, m, v_t, m2 = best
+    e = energies3[i]
+    pm, pv_direct, _ = weighted_moments(ps, i)
+    hits = sum(1 for _, n in ps if n[i] > 0)
+    pv_from_tilted = max(m2 - m * m, 0.0)  # Var_p(N) = E_p[N^2] - E_p[N]^2, both estimated from the tilted sample
+    print(f"3D, L = {L}, {r3} realisations each, Dirichlet, band-edge mode (cutoff {cutoff}); automatic tilt "
+          f"theta = {theta3} for target {target} (pilot {pilot3:.0f} s)")
+    print(f"  time per realisation: plain {t_p:.3f} s, tilted {t_t:.3f} s (solve_seconds); study wall: plain "
+          f"{wall_p3:.0f} s, tilted {wall_t3:.0f} s including the pilot")
+    print(f"  at E = {e:.3f}: tilted N = {m:.3e} +- {math.sqrt(v_t / len(ts)):.2e}; plain N = {pm:.3e} "
+          f"({hits} of {len(ps)} realisations with a state)")
+    print(f"  per-realisation variance: tilted {v_t:.3e}; plain {pv_direct:.3e} measured, "
+          f"{pv_from_tilted:.3e} from the tilted sample (E_p[N^2] - E_p[N]^2)")
+    for label, pv in (("measured plain variance", pv_direct), ("plain variance from the tilted sample", pv_from_tilted)):
+        if v_t > 0 and pv > 0:
+            ratio = (pv * t_p) / (v_t * t_t)
+            print(f"  variance ratio at equal solve time ({label}): {ratio:.1f}x "
+                  f"(GOAL >= 100x: {'MET' if ratio >= 100 else 'NOT met'})")
+        else:
+            print(f"  variance ratio at equal solve time ({label}): not measurable (variance 0)")
+    results["3d"] = (e, m, v_t, pv_direct, pv_from_tilted, t_t, t_p)
+    for name, folder, secs, wall in (("tilted", "tail3d_tilted", sum(tsec), wall_t3),
+                                     ("plain", "tail3d_plain", sum(psec), wall_p3)):
+        d = depth_reached(os.path.join(work, folder), "dirichlet")
+        print(f"  depth, {name}: " + (f"N = {d[1]:.2e} at E = {d[0]:.3f} (half-width {100 * d[2]:.0f} %, "
+                                      f"ESS {d[3]:.0f})" if d else "nothing resolved to 30 %") +
+              f", solve time {secs:.0f} s, study wall {wall:.0f} s")
+    # Band-edge mode: time per realisation against one numeric factorisation.
+    per = manifest3.get("factor_work", {}).get("per_realisation", [])
+    zero = [p for p in per if p.get("solve_calls", 0) == 0]
+    some = [p for p in per if p.get("solve_calls", 0) > 0]
+    def one_factor(p):
+        return p["factorisation_seconds"] / max(p["numeric_factorisations"], 1)
+    for label, group in (("no eigenvalue below the cutoff", zero), ("with eigenvalues", some)):
+        if group:
+            real = median([p["realisation_seconds"] for p in group if p.get("realisation_seconds") is not None] or [float("nan")])
+            fac = median([one_factor(p) for p in group])
+            print(f"  band-edge mode, {label}: {len(group)} realisations, median {real:.4f} s per realisation, "
+                  f"one numeric factorisation {fac:.4f} s, ratio {real / fac:.1f}")
+
+    # --- 1D: chains of 200 cells (deep_tail_chain.prm), Dirichlet.
+    r1 = 500 if quick else 3000
+    chain = [os.path.join(configs, "deep_tail_chain.prm")]
+    common1 = ["spectrum/boundary conditions=dirichlet", "analysis/figure formats=", f"study/realisations={r1}"]
+    t0 = time.perf_counter()
+    run_study(exe, work, "tail1d_tilted", common1 + ["study/seed=41"], cli=chain)
+    wall_t1 = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    run_study(exe, work, "tail1d_plain", common1 + ["sampling/method=plain", "study/seed=42"], cli=chain)
+    wall_p1 = time.perf_counter() - t0
+    with open(os.path.join(work, "tail1d_tilted", "run.json")) as f:
+        manifest1 = json.load(f)
+    print(f"1D, 200-cell chains (deep_tail_chain.prm), {r1} realisations each, Dirichlet; automatic tilt "
+          f"theta = {manifest1['sampling']['tilt']} (target {manifest1['sampling'].get('target_energy')})")
+    for name, folder, wall in (("tilted", "tail1d_tilted", wall_t1), ("plain", "tail1d_plain", wall_p1)):
+        d = depth_reached(os.path.join(work, folder), "dirichlet")
+        with open(os.path.join(work, folder, "realisations.csv")) as f:
+            secs = sum(float(r["solve_seconds"]) for r in csv.DictReader(f))
+        print(f"  depth, {name}: " + (f"N = {d[1]:.2e} per cell at E = {d[0]:.3f} (half-width {100 * d[2]:.0f} %, "
+                                      f"ESS {d[3]:.0f})" if d else "nothing resolved to 30 %") +
+              f", solve time {secs:.0f} s, study wall {wall:.0f} s")
+        with open(os.path.join(work, folder, "deep_tail.json")) as f:
+            fit = json.load(f)["boundaries"]["dirichlet"]
+        a = fit["log_log_form"]
+        b = fit["power_form_free_exponent"]
+        if fit["fitted"]:
+            print(f"  deep-tail exponent, {name}: ln(-ln n) form {a['exponent']:.3f} [{a['interval'][0]:.3f}, "
+                  f"{a['interval'][1]:.3f}], free power form {b['exponent']:.3f} [{b['interval'][0]:.3f}, "
+                  f"{b['interval'][1]:.3f}] against 1/2 (GOAL within 10 %: "
+                  f"{'MET' if abs(a['exponent'] - 0.5) <= 0.05 else 'NOT met'}); window {fit['window']}, "
+                  f"{fit['points']} points, asymptotic: {fit['asymptotic']} {fit['not_asymptotic_because']}")
+        else:
+            print(f"  deep-tail exponent, {name}: not fitted ({fit['reason']})")
+    print("GOAL depth: N = 1e-8 per cell in 1D and 1e-6 in 3D with a 30 % half-width within one hour: compare "
+          "the depths above (reached in the solve times shown) with the targets")
+    print(f"load average after: {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
+
+
 def main():
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("exe")
     parser.add_argument("--quick", action="store_true", help="small sizes, about a minute")
     parser.add_argument("--work", default="bench-work")
-    parser.add_argument("--only", default="12345", help="which parts to run, e.g. 14")
+    parser.add_argument("--only", default="123456", help="which parts to run, e.g. 14")
     parser.add_argument("--probe", default=None, help="the roofline_probe executable (part 5)")
     args = parser.parse_args()
     os.makedirs(args.work, exist_ok=True)
@@ -473,7 +634,7 @@ def main():
     print(f"alloyspec benchmark ({'quick' if args.quick else 'full'}), host {os.uname().nodename}, "
           f"{os.cpu_count()} CPUs; one BLAS thread per process")
     parts = {"1": tuned_vs_baseline, "2": mpi_throughput, "3": growth, "4": accuracy_per_cost,
-             "5": lambda exe, work, quick: roofline(exe, work, quick, args.probe)}
+             "5": lambda exe, work, quick: roofline(exe, work, quick, args.probe), "6": deep_tail_goals}
     for key in args.only:
         parts[key](args.exe, args.work, args.quick)
     print(f"\nbenchmark wall time {time.perf_counter() - start:.0f} s")

@@ -8,6 +8,7 @@ and the same inclusion holds for the finite-element spaces on one mesh.
 """
 import csv
 import json
+import os
 import math
 import sys
 
@@ -54,8 +55,12 @@ def check_weighted(folder, summary):
         # A tilted study has its own report: tail table, fits, effective sample sizes.
         with open(f"{folder}/report.html", encoding="utf-8") as f:
             html = f.read()
-        for text in ("Tail table", "Lifshitz fits on the deep tail", "effective sample size"):
+        for text in ("Tail table", "Lifshitz fits on the deep tail", "effective sample size",
+                     "importance-weighted"):
             assert text in html, f"report.html of a tilted study lacks '{text}'"
+        # Every statistic is weighted, so every table is written.
+        for name in ("dos.csv", "ids_band.csv", "localisation.csv", "local_trace.csv", "tails.json"):
+            assert os.path.exists(f"{folder}/{name}"), f"a tilted study lacks {name}"
 
 
 def main(folder):
