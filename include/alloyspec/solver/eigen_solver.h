@@ -157,6 +157,13 @@ namespace alloyspec
      */
     void use_teams(RealisationTeams *teams);
 
+    /**
+     * The method for @p problem: "auto" resolved by its number of unknowns
+     * (the iterative path itself falls back to "tuned" for problems too small
+     * for its block; EigenResult::method says what ran).
+     */
+    std::string method_for(const SpectralProblem &problem) const;
+
 
     const EigenSolverSettings &settings() const { return settings_; }
 
@@ -169,8 +176,6 @@ namespace alloyspec
     EigenResult solve_pencil(const Pencil &pencil);
     /** The iterative path (iterative_solve.cc): LOBPCG with AMG, checked by inertia or by enclosures. */
     EigenResult solve_iterative(const Pencil &pencil);
-    /** The method for @p problem: "auto" resolved by its number of unknowns. */
-    std::string method_for(const SpectralProblem &problem) const;
     /** Inertia count for the list check: reuses one symbolic factorisation per problem ("tuned"). */
     std::size_t verified_count(const Pencil &pencil, double energy);
     /** Factor work of the solve in progress (reset by solve()). */
