@@ -42,6 +42,32 @@ for cells in 4,4,4 3,3,3; do
   python3 "$here/compare_studies.py" "$work/team_one_$cells" "$work/team_two_$cells" 1e-10 \
     || fail "a team of 2 ranks differs from 1 rank ($cells)"
 done
+# The iterative solver (LOBPCG + AMG, rows distributed over the team): teams
+# of 1, 2 and 3 ranks give the same eigenvalues to 1e-9 relative (the
+# tolerance the iterative solver is held to against the direct path).
+it=(--set "lattice/cells=4,4,4" --set study/realisations=1 --set spectrum/eigenvalues=10
+    --set spectrum/solver=iterative --set discretisation/degree=2
+    --set "discretisation/elements per cell=1" --set "study/energies=0 to 4 by 0.5" --no-progress)
+"$exe" run "${it[@]}" --output "$work/it_1" > "$work/it_1.log" 2>&1 || fail "iterative, 1 rank: $(cat "$work/it_1.log")"
+grep -q '"dirichlet": "iterative"' "$work/it_1/run.json" || fail "run.json does not record the iterative solver"
+for n in 2 3; do
+  timeout 300 mpirun --allow-run-as-root --oversubscribe -np $n "$exe" run "${it[@]}" \
+    --ranks-per-realisation $n --output "$work/it_$n" > "$work/it_$n.log" 2>&1 \
+    || fail "iterative, a team of $n ranks: $(cat "$work/it_$n.log")"
+  python3 "$here/check_study.py" "$work/it_$n" || fail "iterative team of $n does not pass check_study.py"
+  python3 "$here/compare_studies.py" "$work/it_1" "$work/it_$n" 1e-9 \
+    || fail "iterative: a team of $n ranks differs from 1 rank"
+done
+# An error inside the iterative solve on a team of 3 (a cutoff needs an
+# inertia count, and the limit forbids it) ends every rank with status 2.
+timeout 120 mpirun --allow-run-as-root --oversubscribe -np 3 "$exe" run "${it[@]}" --ranks-per-realisation 3 \
+  --set "spectrum/energy cutoff=3" --set "spectrum/inertia check limit=0" \
+  --output "$work/it_error" > "$work/it_error.log" 2>&1
+status=$?
+[ "$status" -eq 124 ] && fail "an error in the iterative solve left ranks hanging"
+[ "$status" -eq 2 ] && grep -q "more than 'spectrum/inertia check limit'" "$work/it_error.log" \
+  || fail "an error in the iterative solve gave status $status: $(cat "$work/it_error.log")"
+
 # A team size that does not divide the ranks is bad input, refused before anything is written.
 timeout 120 "${mpi[@]}" "$exe" run "${args[@]}" --ranks-per-realisation 3 \
   --output "$work/bad_team" > "$work/bad_team.log" 2>&1
