@@ -41,7 +41,7 @@ namespace alloyspec
      */
     std::size_t           inertia_limit = 300000;
     /** Unknowns from which "auto" uses the iterative solver. */
-    std::size_t           auto_crossover = 60000;
+    std::size_t           auto_crossover = 300000;
     /** Largest number of eigenpairs one solve may be asked for. */
     unsigned int          max_eigenvalues = 5000;
 
