@@ -36,6 +36,9 @@ printf 'subsection study\n  set energies = 0:0.05:3\nend\n' > "$work/colon_grid.
 expect_error "'0 to 3 by 0.05'"   run "$work/colon_grid.prm" "${tiny[@]}" --output "$work/a"
 expect_error "'-1 to 2 by 0.5'"   run "${tiny[@]}" --set "study/energies=-1:0.5:2" --output "$work/a"
 expect_error "study/seed"         run "${tiny[@]}" --seed=-4 --output "$work/a"
+expect_error "'--memory-budget'"  run "${tiny[@]}" --memory-budget 0 --output "$work/a"
+# A target the budget cannot hold is refused with the estimate, before anything is solved for good.
+expect_error "(--memory-budget)"  run "${tiny[@]}" --set "discretisation/accuracy=1e-11" --memory-budget 0.3 --output "$work/a"
 expect_error "no such entry 'colour'"      run "${tiny[@]}" --set "lattice/colour=red" --output "$work/a"
 expect_error "section/entry=value" run "${tiny[@]}" --set "lattice" --output "$work/a"
 expect_error "does not exist"     run "$work/missing.prm" --output "$work/a"
