@@ -522,6 +522,22 @@ end
             // cells, so studies of another size are no component of it.
             if (std::any_of(tilts.begin(), tilts.end(), [&](double t) { return t != tilts.front(); }))
               {
+                // Each component's law is the same window mixture at its own θ:
+                // the window and the untilted share must agree.
+                for (std::size_t k = 1; k < models.size(); ++k)
+                  {
+                    const auto &a = models.front().sampling(), &b = models[k].sampling();
+                    const bool  window_a = a.is_tilted() && a.tilt_window > 0;
+                    const bool  window_b = b.is_tilted() && b.tilt_window > 0;
+                    if (window_a || window_b)
+                      if (a.tilt_window != b.tilt_window || a.untilted_share != b.untilted_share ||
+                          window_a != window_b)
+                        throw InputError(
+                          "summarise: studies at different tilts are combined only with the same "
+                          "sampling/tilt window and sampling/untilted share (here '" +
+                          stored[0].directory + "' and '" + stored[k].directory +
+                          "' differ; and a plain study cannot join windowed ones)");
+                  }
                 const auto box_of = [&](const std::size_t k) {
                   const auto it = stored[k].parameters.find("lattice/cells");
                   return it == stored[k].parameters.end() ? std::string() : it->second;

@@ -614,6 +614,8 @@ namespace alloyspec
       {"tilt", json_number(sampling.is_tilted() ? sampling.tilt : 0.0)},
       {"tilt_choice", sampling.is_tilted() ? (sampling.automatic ? "auto" : "given") : "none"},
       {"target_energy", sampling.target_energy ? json_number(*sampling.target_energy) : Json()},
+      {"tilt_window", sampling.is_tilted() && sampling.tilt_window > 0 ? Json(sampling.tilt_window) : Json("box")},
+      {"untilted_share", sampling.is_tilted() && sampling.tilt_window > 0 ? json_number(sampling.untilted_share) : Json()},
       {"pilot", tilt_log_}};
     {
       // Kong's effective sample size of the weights, (Σw)²/Σw², per boundary

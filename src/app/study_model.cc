@@ -125,6 +125,7 @@ namespace alloyspec
                            "gives one fixed potential (use sampling/method = plain)");
         if (!sampling_.automatic)
           potential_.set_tilt(sampling_.tilt);
+        potential_.set_tilt_window(sampling_.tilt_window, sampling_.untilted_share);
       }
     if (geometry_.has_mesh())
       for (const Boundary bc : spectrum_.boundaries)

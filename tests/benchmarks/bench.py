@@ -511,9 +511,10 @@ def deep_tail_goals(exe, work, quick):
     # --- 3D, L = 6, the invented binary alloy of binary_alloy_band_edge.prm (30 % barriers of 2).
     L = 4 if quick else 6
     r3 = 150 if quick else 500
-    target = 1.3 if quick else 1.0
-    grid = "0.85 to 1.15 by 0.01" if not quick else "1.0 to 1.6 by 0.02"
-    cutoff = 1.15 if not quick else 1.6
+    # The cutoff must let the pilot's first level (tilt 0) see some eigenvalues.
+    target = 2.0 if quick else 1.0
+    grid = "0.85 to 1.3 by 0.01" if not quick else "1.8 to 2.6 by 0.02"
+    cutoff = 1.3 if not quick else 2.6
     alloy = [os.path.join(configs, "binary_alloy_band_edge.prm")]
     common3 = [f"lattice/cells={L},{L},{L}", "discretisation/elements per cell=1",
                "spectrum/boundary conditions=dirichlet", f"spectrum/energy cutoff={cutoff}",
@@ -571,7 +572,9 @@ def deep_tail_goals(exe, work, quick):
                                       f"ESS {d[3]:.0f})" if d else "nothing resolved to 30 %") +
               f", solve time {secs:.0f} s, study wall {wall:.0f} s")
     # Band-edge mode: time per realisation against one numeric factorisation.
-    per = manifest3.get("factor_work", {}).get("per_realisation", [])
+    per = list(manifest3.get("factor_work", {}).get("per_realisation", []))
+    with open(os.path.join(work, "tail3d_plain", "run.json")) as f:
+        per += json.load(f).get("factor_work", {}).get("per_realisation", [])
     zero = [p for p in per if p.get("solve_calls", 0) == 0]
     some = [p for p in per if p.get("solve_calls", 0) > 0]
     def one_factor(p):
