@@ -587,8 +587,8 @@ def deep_tail_goals(exe, work, quick):
     run_study(exe, work, "tail3d_tilted", common3 + ["sampling/method=tilted", "sampling/tilt=auto",
                                                      f"sampling/target energy={target}", "study/seed=31"], cli=alloy)
     run_study(exe, work, "tail3d_plain", common3 + ["study/seed=32"], cli=alloy)
-    run_study(exe, work, "tail3d_window", common3 + ["sampling/method=tilted", "sampling/tilt=0.5",
-                                                     "sampling/tilt window=4", "study/seed=33"], cli=alloy)
+    run_study(exe, work, "tail3d_window", common3 + ["sampling/method=tilted", "sampling/tilt=0.6",
+                                                     "sampling/tilt window=5", "study/seed=33"], cli=alloy)
     with open(os.path.join(work, "tail3d_tilted", "run.json")) as f:
         manifest3 = json.load(f)
     with open(os.path.join(work, "tail3d_tilted", "tail.csv")) as f:
@@ -596,7 +596,7 @@ def deep_tail_goals(exe, work, quick):
     print(f"3D, L = {L}, {r3} realisations per study, Dirichlet, Q2, band-edge mode (cutoff {cutoff}); "
           f"tail3d_tilted: automatic tilt theta = {manifest3['sampling']['tilt']} for target {target} "
           f"(pilot {manifest3['timings_seconds'].get('tilt_search', float('nan')):.0f} s, not counted below); "
-          f"tail3d_window: theta = 0.5 on windows of 4 cells per direction, untilted share 0.2")
+          f"tail3d_window: theta = 0.6 on windows of 5 cells per direction, untilted share 0.2")
     variance_ratio(work, "tail3d_tilted", "tail3d_plain", energies3, volume3)
     variance_ratio(work, "tail3d_window", "tail3d_plain", energies3, volume3)
     for name in ("tail3d_tilted", "tail3d_window", "tail3d_plain"):

@@ -16,10 +16,11 @@ namespace alloyspec
    * @f[ q(\mathbf q) = \alpha\, p(\mathbf q) + \frac{1-\alpha}{K}\sum_{c=1}^{K}
    *     p(\mathbf q)\prod_{n \in B_c}\frac{p_\theta(q_n)}{p(q_n)}, @f]
    * with p the model law of all cells, @f$p_\theta@f$ its exponential tilt, α
-   * the untilted share (`sampling/untilted share`) and @f$B_c@f$ the window of
-   * ℓ cells per direction (the whole extent where the box is shorter) whose
-   * first corner is cell c, wrapped around the box's faces, for each of the
-   * K = N cells. Component c tilts only the cells of @f$B_c@f$.
+   * the untilted share (`sampling/untilted share`) and @f$B_c@f$ the c-th
+   * window of @f$s_i = \min(\ell, L_i)@f$ cells in direction i that lies
+   * inside the box: @f$K = \prod_i (L_i - s_i + 1)@f$ positions. Component c
+   * tilts only the cells of @f$B_c@f$. (Windows stay inside the box: one that
+   * wrapped across a Dirichlet face would tilt cells the wall separates.)
    *
    * The tail event of a large box is a local one (a region of low cells
    * somewhere), so a tilt of the whole box moves every cell while only a
@@ -45,8 +46,8 @@ namespace alloyspec
      */
     TiltWindows(std::vector<unsigned int> cells, unsigned int edge, double untilted_share);
 
-    /** K = N: one window per cell (its first corner). */
-    std::size_t  count() const { return n_cells_; }
+    /** K: the positions of a window inside the box. */
+    std::size_t  count() const { return count_; }
     unsigned int edge() const { return edge_; }
     double       untilted_share() const { return alpha_; }
 
@@ -64,7 +65,7 @@ namespace alloyspec
      * @f$\ln w@f$ from the per-cell log ratios @f$t_n = \ln p(q_n)/p_\theta(q_n)@f$:
      * @f$-\ln\big(\alpha + \frac{1-\alpha}{K}\sum_c e^{-\ell_c}\big)@f$ with
      * @f$\ell_c = \sum_{n\in B_c} t_n@f$, evaluated as a log-sum-exp so that
-     * no term overflows. The window sums are separable: cyclic sums of ℓ
+     * no term overflows. The window sums are separable: sums of @f$s_i@f$
      * consecutive cells along each direction in turn.
      */
     double log_weight(const std::vector<double> &t) const;
@@ -72,7 +73,9 @@ namespace alloyspec
   private:
     std::vector<unsigned int> cells_;
     std::size_t               n_cells_ = 0;
+    std::size_t               count_   = 0;
     unsigned int              edge_    = 1;
+    unsigned int span(unsigned int l) const { return edge_ < l ? edge_ : l; }
     double                    alpha_   = 0.2;
   };
 } // namespace alloyspec

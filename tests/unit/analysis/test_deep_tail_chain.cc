@@ -227,8 +227,9 @@ namespace
    * A state below E = 0.025 needs a run of about 20 wells, which a window
    * draws often; 20 000 chains (a tenth of the uniform tilt's) suffice. The
    * assertion is the same bracket [lower_D, upper_N] against the reference
-   * widened by its Poisson error (measured: the Dirichlet interval alone
-   * contains it too, 9.0e-7 [6.3e-7, 1.18e-6] against 9.2e-7).
+   * widened by its Poisson error (measured: Dirichlet 6.4e-7 [4.6e-7, 8.3e-7],
+   * Neumann 7.1e-6 [2.1e-6, 1.2e-5] against 9.2e-7; the Dirichlet interval
+   * alone misses it, as E[N_D,L] lies below N by the states the ends cut off).
    */
   TEST(DeepTailChain, WindowedTiltOfShortChainsBracketsTheLongChainCount)
   {

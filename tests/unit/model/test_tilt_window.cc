@@ -24,34 +24,38 @@ namespace
 
   /**
    * The mixture ratio straight from its definition: p/q = 1/(α + (1−α)/K Σ_c Π_{n∈B_c} r_n),
-   * r_n = p_θ(q_n)/p(q_n), with B_c the cells whose offset from corner c, taken
-   * modulo the box in each direction, is below min(ℓ, L_i).
+   * r_n = p_θ(q_n)/p(q_n), over every corner c whose window of min(ℓ, L_i) cells per
+   * direction lies inside the box (K of them), B_c the cells of that window.
    */
   double direct_log_weight(const std::vector<unsigned int> &cells, unsigned int edge, double alpha,
-                           const std::vector<double> &ratio)
+                           const std::vector<double> &ratio, std::size_t &windows)
   {
     const Lattice     lattice(cells);
     const std::size_t n = lattice.n_cells();
     double            sum = 0;
+    windows             = 0;
     for (std::size_t c = 0; c < n; ++c)
       {
-        const auto corner  = lattice.cell_coordinates(c);
-        double     product = 1;
+        const auto corner = lattice.cell_coordinates(c);
+        bool       fits   = true;
+        for (std::size_t i = 0; i < cells.size(); ++i)
+          fits = fits && corner[i] + std::min(edge, cells[i]) <= cells[i];
+        if (!fits)
+          continue;
+        ++windows;
+        double product = 1;
         for (std::size_t m = 0; m < n; ++m)
           {
             const auto x      = lattice.cell_coordinates(m);
             bool       inside = true;
             for (std::size_t i = 0; i < cells.size(); ++i)
-              {
-                const unsigned int offset = (x[i] + cells[i] - corner[i]) % cells[i];
-                inside = inside && offset < std::min(edge, cells[i]);
-              }
+              inside = inside && x[i] >= corner[i] && x[i] < corner[i] + std::min(edge, cells[i]);
             if (inside)
               product *= ratio[m];
           }
         sum += product;
       }
-    return -std::log(alpha + (1 - alpha) * sum / double(n));
+    return -std::log(alpha + (1 - alpha) * sum / double(windows));
   }
 } // namespace
 
@@ -69,14 +73,16 @@ TEST(TiltWindow, WeightAgreesWithTheMixtureDensityWrittenOut)
             ratio[m] = std::exp(-t[m]);
           }
         const TiltWindows windows(cells, edge, 0.3);
-        EXPECT_NEAR(windows.log_weight(t), direct_log_weight(cells, edge, 0.3, ratio),
+        std::size_t       count = 0;
+        EXPECT_NEAR(windows.log_weight(t), direct_log_weight(cells, edge, 0.3, ratio, count),
                     weight_tolerance)
           << cells.size() << "D, edge " << edge;
+        EXPECT_EQ(windows.count(), count);
         // Every window holds min(ℓ, L_i) cells per direction.
         std::size_t expected = 1;
         for (const unsigned int l : cells)
           expected *= std::min(edge, l);
-        for (std::size_t c = 0; c < lattice.n_cells(); ++c)
+        for (std::size_t c = 0; c < windows.count(); ++c)
           {
             std::size_t inside = 0;
             for (std::size_t m = 0; m < lattice.n_cells(); ++m)
@@ -112,9 +118,10 @@ TEST(TiltWindow, ZeroTiltIsPlainSampling)
 }
 
 /**
- * Cell values under the mixture: E[q_n] = α μ + (1−α)[f μ_θ + (1 − f) μ], f = |B|/K
- * the share of windows that contain a given cell, with μ and μ_θ the law's and
- * the tilted law's means (closed forms of the Bernoulli law). Also E_q[w] = 1.
+ * Cell values under the mixture: E[q_n] = α μ + (1−α)[f μ_θ + (1 − f) μ], f the
+ * share of the K = L − ℓ + 1 windows that contain cell n (for n = 7, ℓ = 5:
+ * corners 3 to 7, so f = 5/36), with μ and μ_θ the law's and the tilted law's
+ * means (closed forms of the Bernoulli law). Also E_q[w] = 1.
  */
 TEST(TiltWindow, CellMeansAndWeightsMatchTheMixture)
 {
@@ -128,14 +135,14 @@ TEST(TiltWindow, CellMeansAndWeightsMatchTheMixture)
   const double mu       = c * a;
   const double c_theta  = c * std::exp(-theta * a) / (c * std::exp(-theta * a) + 1 - c);
   const double mu_theta = c_theta * a;
-  const double f        = double(edge) / cells;
+  const double f        = 5.0 / double(cells - edge + 1);
   const double expected = alpha * mu + (1 - alpha) * (f * mu_theta + (1 - f) * mu);
   constexpr std::size_t realisations = 40000;
   double sum = 0, sum_sq = 0, w = 0, w_sq = 0;
   for (std::uint64_t r = 0; r < realisations; ++r)
     {
       const auto   q = model.cell_values(9, r);
-      const double x = q[7]; // any cell: the mixture is symmetric under shifts
+      const double x = q[7];
       sum += x, sum_sq += x * x;
       const double weight = std::exp(model.log_weight(q));
       EXPECT_LE(weight, 1 / alpha * (1 + 1e-12));
