@@ -52,8 +52,8 @@ namespace alloyspec
     prm.declare_entry("tilt window", "box", dealii::Patterns::Anything(),
                       "box: method = tilted tilts every cell of the box. A whole number ℓ "
                       "(1 to 100000): each realisation tilts only the cells of one window of ℓ "
-                      "cells per direction (wrapped around the box), at a position drawn "
-                      "uniformly, or no cell at all with probability 'untilted share'; the "
+                      "cells per direction (fewer where the box is shorter), at a position inside "
+                      "the box drawn uniformly, or no cell at all with probability 'untilted share'; the "
                       "weight is the exact ratio of the model law to this mixture (at most "
                       "1/untilted share). Suits tails made by a local region of low cells in "
                       "a long chain or a large box; needs tilt as a number.");
