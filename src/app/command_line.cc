@@ -522,22 +522,6 @@ end
             // cells, so studies of another size are no component of it.
             if (std::any_of(tilts.begin(), tilts.end(), [&](double t) { return t != tilts.front(); }))
               {
-                // Each component's law is the same window mixture at its own θ:
-                // the window and the untilted share must agree.
-                for (std::size_t k = 1; k < models.size(); ++k)
-                  {
-                    const auto &a = models.front().sampling(), &b = models[k].sampling();
-                    const bool  window_a = a.is_tilted() && a.tilt_window > 0;
-                    const bool  window_b = b.is_tilted() && b.tilt_window > 0;
-                    if (window_a || window_b)
-                      if (a.tilt_window != b.tilt_window || a.untilted_share != b.untilted_share ||
-                          window_a != window_b)
-                        throw InputError(
-                          "summarise: studies at different tilts are combined only with the same "
-                          "sampling/tilt window and sampling/untilted share (here '" +
-                          stored[0].directory + "' and '" + stored[k].directory +
-                          "' differ; and a plain study cannot join windowed ones)");
-                  }
                 const auto box_of = [&](const std::size_t k) {
                   const auto it = stored[k].parameters.find("lattice/cells");
                   return it == stored[k].parameters.end() ? std::string() : it->second;
@@ -555,11 +539,15 @@ end
                 std::size_t k = 0;
                 for (auto &model : models)
                   {
-                    std::vector<std::pair<double, double>> mixture;
+                    // Each component is one study's own sampling law (tilt and window).
+                    std::vector<StudyModel::TiltComponent> mixture;
                     for (std::size_t j = 0; j < stored.size(); ++j)
                       if (box_of(j) == box_of(k))
-                        mixture.emplace_back(tilts[j],
-                                             double(sizes[j]) / double(total.at(box_of(k))));
+                        {
+                          const auto &sj = models[j].sampling();
+                          mixture.push_back({tilts[j], double(sizes[j]) / double(total.at(box_of(k))),
+                                             sj.is_tilted() ? sj.tilt_window : 0u, sj.untilted_share});
+                        }
                     model.apply_tilt_mixture(stored[k], mixture);
                     ++k;
                   }
