@@ -359,6 +359,9 @@ namespace alloyspec
     record.residuals      = result.residuals;
     record.complete_up_to = result.complete_up_to;
     record.inertia_count  = result.inertia_count;
+    record.verified_by    = result.verified_by;
+    record.enclosure_lower = result.enclosure_lower;
+    record.enclosure_upper = result.enclosure_upper;
     record.potential_min  = *std::min_element(q.begin(), q.end());
     record.potential_max  = *std::max_element(q.begin(), q.end());
     record.attempts       = result.attempts;
@@ -643,6 +646,28 @@ namespace alloyspec
     for (std::size_t b = 0; b < model_.boundaries().size(); ++b)
       dofs[to_string(model_.boundaries()[b])] = discretisations_[b]->n_dofs();
     manifest["degrees_of_freedom"] = dofs;
+    {
+      // Which eigen-solver ran per boundary condition ("auto" resolved by the
+      // number of unknowns), and how the stored lists were checked complete.
+      Json used = Json::object();
+      for (std::size_t b = 0; solver_ && b < model_.boundaries().size() && b < problems_.size(); ++b)
+        used[to_string(model_.boundaries()[b])] = solver_->method_for(*problems_[b]);
+      manifest["spectrum_solver"] = {
+        {"setting", model_.solver().method},
+        {"auto_crossover_unknowns", model_.solver().auto_crossover},
+        {"inertia_check_limit_unknowns", model_.solver().inertia_limit},
+        {"used", used}};
+      std::size_t by_inertia = 0, by_enclosure = 0;
+      for (const auto &r : stored.input.records)
+        (r.verified_by == "enclosure" ? by_enclosure : by_inertia) += 1;
+      manifest["lists_verified_by"] = {{"inertia", by_inertia}, {"enclosure", by_enclosure}};
+      if (by_enclosure > 0)
+        std::cout << "Note: " << by_enclosure << " of " << by_inertia + by_enclosure
+                  << " eigenvalue lists were too large for an inertia count; their completeness "
+                     "up to complete_up_to is the assumption of their enclosures "
+                     "(realisations.csv: verified_by = enclosure)."
+                  << std::endl;
+    }
     const ErrorEstimateSettings estimate = model_.error_estimate();
     manifest["discretisation"]           = {
       {"degree", model_.discretisation().degree},

@@ -378,6 +378,8 @@ namespace alloyspec
           // Bounds are differences of energies: the same factor, no offset.
           for (double &e : r.errors)
             e = units_.to_user_energy(e) - units_.to_user_energy(0.0);
+          r.enclosure_lower = units_.to_user_energies(std::move(r.enclosure_lower));
+          r.enclosure_upper = units_.to_user_energies(std::move(r.enclosure_upper));
           r.complete_up_to = units_.to_user_energy(r.complete_up_to);
           r.potential_min  = units_.to_user_energy(r.potential_min);
           r.potential_max  = units_.to_user_energy(r.potential_max);

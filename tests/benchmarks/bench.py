@@ -19,7 +19,12 @@
      alloy; and 1D), the depth reached (smallest N with a relative 95 %
      half-width <= 30 %) and its time in 1D (200-cell chains) and 3D, the
      band-edge time per realisation against one factorisation, and the 1D
-     deep-tail Lifshitz exponent against 1/2.
+     deep-tail Lifshitz exponent against 1/2;
+  7. the iterative eigen-solver (LOBPCG with algebraic multigrid): time and
+     memory against the direct path by box size and the crossover between
+     them, the growth of its time with the number of unknowns (L = 16 to 48),
+     the free box at L = 24 (Q2) against Kronecker sums of 1D spectra, and the
+     lowest 20 Dirichlet eigenvalues at L = 48 (912,673 unknowns) and L = 64.
 
 Usage: bench.py ALLOYSPEC_EXE [--quick] [--work DIR] [--probe ROOFLINE_PROBE_EXE]
 """
@@ -644,12 +649,97 @@ def deep_tail_goals(exe, work, quick):
     print(f"load average after: {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
 
 
+# ---------------------------------------------------------------------------
+# 7. The iterative eigen-solver.
+
+def spectrum_1d_q2(L, bc):
+    """1D Q2 eigenvalues on [0, L], one element per unit (numpy dense solver)."""
+    import numpy
+    import scipy.linalg
+    h = 1.0
+    ke = numpy.array([[7, -8, 1], [-8, 16, -8], [1, -8, 7]]) / (3 * h)
+    me = numpy.array([[4, 2, -1], [2, 16, 2], [-1, 2, 4]]) * h / 30
+    n = 2 * L + 1
+    k = numpy.zeros((n, n))
+    m = numpy.zeros((n, n))
+    for e in range(L):
+        k[2 * e:2 * e + 3, 2 * e:2 * e + 3] += ke
+        m[2 * e:2 * e + 3, 2 * e:2 * e + 3] += me
+    if bc == "dirichlet":
+        k, m = k[1:-1, 1:-1], m[1:-1, 1:-1]
+    return sorted(scipy.linalg.eigh(k, m, eigvals_only=True))
+
+
+def iterative_solver(exe, work, quick):
+    section("7. iterative eigen-solver: LOBPCG + algebraic multigrid (Q2, 1 element per cell, k = 20, Dirichlet)")
+    print("(the machine is shared with other builds while this runs: times carry their load)")
+    q2 = ["discretisation/degree=2", "discretisation/elements per cell=1", "spectrum/tolerance=1e-10"]
+    # Time and memory against the direct path, by size; the crossover.
+    sizes = [6, 10] if quick else [8, 12, 16, 20, 24]
+    print(f"{'L':>3} {'DoFs':>9} {'direct s':>9} {'direct MiB':>11} {'iter s':>8} {'iter MiB':>9} "
+          f"{'iter, no count s':>17} {'MiB':>6}")
+    rows = []
+    for L in sizes:
+        d = run_study(exe, work, f"it_direct_{L}", box(L, 20, 1, q2 + ["spectrum/solver=tuned"]))
+        i = run_study(exe, work, f"it_iter_{L}", box(L, 20, 1, q2 + ["spectrum/solver=iterative"]))
+        e = run_study(exe, work, f"it_encl_{L}", box(L, 20, 1, q2 + ["spectrum/solver=iterative",
+                                                                     "spectrum/inertia check limit=0"]))
+        key = (0, "dirichlet")
+        worst = max(abs(x - y) / max(abs(x), 1) for x, y in zip(d["eigenvalues"][key], i["eigenvalues"][key]))
+        assert worst < 1e-9, f"iterative and direct disagree by {worst} at L = {L}"
+        rows.append((L, d["dofs"]["dirichlet"], d["per_solve"], d["memory_mib"], i["per_solve"], i["memory_mib"],
+                     e["per_solve"], e["memory_mib"]))
+        print(f"{L:>3} {rows[-1][1]:>9} {rows[-1][2]:>9.2f} {rows[-1][3]:>11.0f} {rows[-1][4]:>8.2f} "
+              f"{rows[-1][5]:>9.0f} {rows[-1][6]:>17.2f} {rows[-1][7]:>6.0f}")
+    faster = [r for r in rows if r[4] < r[2]]
+    if faster:
+        print(f"crossover (time, with the inertia check): the iterative path is faster from L = {faster[0][0]} "
+              f"({faster[0][1]} DoFs) on")
+    else:
+        print("crossover (time): the direct path was faster at every size measured")
+    if quick:
+        return
+    # Free box at L = 24, Q2: each eigenvalue against the Kronecker sums of the 1D spectra.
+    for bc in ("dirichlet", "neumann"):
+        r = run_study(exe, work, f"it_free_{bc}", [f"lattice/cells=24,24,24", "study/realisations=1",
+                      "spectrum/eigenvalues=20", f"spectrum/boundary conditions={bc}", "study/energies=0 to 1 by 0.5",
+                      "potential/law=discrete", "potential/values=0", "potential/probabilities=1",
+                      "spectrum/solver=iterative", "spectrum/inertia check limit=0"] + q2)
+        one = spectrum_1d_q2(24, bc)[:12]
+        sums = sorted(a + b + c for a in one for b in one for c in one)
+        with open(os.path.join(work, f"it_free_{bc}", "eigenvalues.csv")) as f:
+            got = list(csv.DictReader(f))
+        worst = max(abs(float(g["eigenvalue_reduced"]) - s) / max(s, 1) for g, s in zip(got, sums))
+        inside = all(float(g["enclosure_lower"]) <= s <= float(g["enclosure_upper"]) for g, s in zip(got, sums))
+        print(f"free box L = 24, {bc} ({r['dofs'][bc]} DoFs, {r['per_solve']:.1f} s): largest relative difference "
+              f"to the Kronecker sums {worst:.1e}, every sum inside its enclosure: {inside}")
+    # Growth from L = 16 to 48, and the large boxes.
+    pts = []
+    for L in (16, 24, 32, 48, 64):
+        try:
+            r = run_study(exe, work, f"it_big_{L}", box(L, 20, 1, q2 + ["spectrum/solver=iterative"]))
+        except subprocess.CalledProcessError as error:
+            print(f"L = {L}: failed ({error.stderr.decode()[-300:]})")
+            continue
+        with open(os.path.join(work, f"it_big_{L}", "eigenvalues.csv")) as f:
+            res = max(float(x["residual"]) for x in csv.DictReader(f))
+        with open(os.path.join(work, f"it_big_{L}", "realisations.csv")) as f:
+            verified = next(csv.DictReader(f))["verified_by"]
+        pts.append((L, r["dofs"]["dirichlet"], r["per_solve"], r["memory_mib"]))
+        print(f"L = {L}: {pts[-1][1]} DoFs, {r['per_solve']:.1f} s per realisation, memory high-water "
+              f"{r['memory_mib'] / 1024:.2f} GiB, largest residual {res:.1e}, verified by {verified}")
+    inner = [p for p in pts if 16 <= p[0] <= 48]
+    if len(inner) >= 2:
+        slope = math.log(inner[-1][2] / inner[0][2]) / math.log(inner[-1][1] / inner[0][1])
+        print(f"time ~ DoFs^{slope:.2f} from L = {inner[0][0]} to L = {inner[-1][0]} (goal: at most 1.15)")
+
+
 def main():
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("exe")
     parser.add_argument("--quick", action="store_true", help="small sizes, about a minute")
     parser.add_argument("--work", default="bench-work")
-    parser.add_argument("--only", default="123456", help="which parts to run, e.g. 14")
+    parser.add_argument("--only", default="1234567", help="which parts to run, e.g. 14")
     parser.add_argument("--probe", default=None, help="the roofline_probe executable (part 5)")
     args = parser.parse_args()
     os.makedirs(args.work, exist_ok=True)
@@ -657,7 +747,7 @@ def main():
     print(f"alloyspec benchmark ({'quick' if args.quick else 'full'}), host {os.uname().nodename}, "
           f"{os.cpu_count()} CPUs; one BLAS thread per process")
     parts = {"1": tuned_vs_baseline, "2": mpi_throughput, "3": growth, "4": accuracy_per_cost,
-             "5": lambda exe, work, quick: roofline(exe, work, quick, args.probe), "6": deep_tail_goals}
+             "5": lambda exe, work, quick: roofline(exe, work, quick, args.probe), "6": deep_tail_goals, "7": iterative_solver}
     for key in args.only:
         parts[key](args.exe, args.work, args.quick)
     print(f"\nbenchmark wall time {time.perf_counter() - start:.0f} s")
