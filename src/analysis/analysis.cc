@@ -75,10 +75,12 @@ namespace alloyspec
         {
           const auto &r = a.band[i];
           a.ids.push_back({r.energy, r.mean, r.standard_error, r.complete,
-                           a.samples.states_below[i], a.samples.realisations_with_states[i]});
+                           a.samples.states_below[i], a.samples.realisations_with_states[i],
+                           a.samples.weighted, r.effective_sample_size});
           const auto &g = a.gaussian[i];
           a.dos.push_back({g.energy, g.mean, g.standard_error, g.complete,
-                           a.samples.states_below[i], a.samples.realisations_with_states[i]});
+                           a.samples.states_below[i], a.samples.realisations_with_states[i],
+                           a.samples.weighted, g.effective_sample_size});
         }
       a.lifshitz = lifshitz_fit(a.ids, in.band_bottom, in.dimension, cell_volume,
                                 s.lifshitz_window, s.lifshitz_fraction, s.confidence_level);

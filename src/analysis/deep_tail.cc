@@ -246,7 +246,7 @@ namespace alloyspec
                                            const std::vector<std::vector<IdsAccumulator::Row>> &rows,
                                            const std::vector<WeightSummary>                    &weights,
                                            const AnalysisSettings &settings,
-                                           const bool              write_report)
+                                           ReportContent          *report_out)
   {
     const double cell_volume = std::pow(in.cell_size, double(in.dimension));
     const double fraction    = settings.lifshitz_fraction;
@@ -316,20 +316,12 @@ namespace alloyspec
     Figure figure = deep_tail_figure(maker, in.boundaries, rows, fits, in.band_bottom, cell_volume,
                                      in.dimension, confidence);
     std::vector<std::string> warnings = maker.warnings();
-    if (!write_report)
+    if (!report_out)
       return warnings;
 
-    ReportContent report;
-    report.title           = "alloyspec deep band tail (tilted sampling)";
-    report.model_summary   = in.model_summary;
-    report.parameters_text = in.parameters_text;
-    std::ostringstream box;
-    for (std::size_t d = 0; d < in.cells.size(); ++d)
-      box << (d ? " × " : "") << in.cells[d];
-    report.key_numbers = {{"box (cells)", box.str()},
-                          {"bottom of the spectrum E0", brief(in.band_bottom)},
-                          {"energy unit", in.energy_unit},
-                          {"confidence level", brief(confidence)}};
+    ReportContent &report = *report_out;
+    report.title          = "alloyspec analysis (tilted sampling: importance-weighted)";
+    report.key_numbers.push_back({"confidence level", brief(confidence)});
     const double z = normal_quantile(0.5 + confidence / 2);
     for (std::size_t b = 0; b < rows.size(); ++b)
       {
@@ -426,11 +418,12 @@ namespace alloyspec
       "the form at d/2 fails its χ² test. Neighbouring energies share realisations, so their "
       "errors are correlated and the intervals are approximate.");
     report.notes.push_back(
-      "Not yet weighted, so not shown for a tilted study: DOS, bootstrap bands, the tail fits of "
-      "tails.json, localisation measures, local trace.");
-    for (const auto &w : warnings)
-      report.notes.push_back(w);
-    ResultsStore::write_file_in(output_dir, "report.html", render_report(report));
+      "Every table and figure of this report is importance-weighted with the same estimator: "
+      "the IDS, its bootstrap band (realisations resampled with their weights), the DOS, the "
+      "local trace and the tail fits are unbiased means (1/R) Σ w_r X_r; the level-spacing "
+      "ratios and IPRs per bin are ratios Σ w S / Σ w C of two such means (consistent), with "
+      "realisations as the independent units of their standard errors. Tail-fit points need an "
+      "effective sample size of at least 10.");
     return warnings;
   }
 } // namespace alloyspec

@@ -180,7 +180,7 @@ namespace alloyspec
             IdsAccumulator acc(energies, s.volume);
             for (const auto &r : s.records)
               if (r.boundary == bc)
-                acc.add(r.eigenvalues, r.complete_up_to);
+                acc.add(r.eigenvalues, r.complete_up_to, r.log_weight);
             sr.rows.push_back(acc.rows());
           }
         if (studies[k].volume > studies[largest_study].volume)

@@ -97,6 +97,20 @@ namespace alloyspec
       std::sort(levels.begin(), levels.end());
       return levels;
     }
+
+    /** The record's likelihood ratio w = e^{log w}: exactly 1 for plain sampling. */
+    double weight_of(const RealisationRecord &r)
+    {
+      if (!std::isfinite(r.log_weight))
+        throw std::invalid_argument("analysis: a record's log weight must be finite");
+      return std::exp(r.log_weight);
+    }
+
+    /** (Σy)²/Σy² from the two sums; 0 when every summand is 0. */
+    double effective_size(const double sum, const double sum_sq)
+    {
+      return sum_sq > 0 ? sum * sum / sum_sq : 0.0;
+    }
   } // namespace
 
   void AnalysisSettings::declare_parameters(dealii::ParameterHandler &prm)
@@ -285,12 +299,24 @@ namespace alloyspec
     s.complete.assign(energies.size(), true);
     s.realisations_with_states.assign(energies.size(), 0);
     s.states_below.assign(energies.size(), 0);
+    std::vector<double> sum(energies.size(), 0.0), sum_sq(energies.size(), 0.0);
     for (const auto &r : records)
       {
         if (r.boundary != boundary)
           continue;
-        const auto levels = trusted_levels(r);
+        const auto   levels = trusted_levels(r);
+        const double w      = weight_of(r);
         s.counts.push_back(counting_function(levels, volume, energies));
+        // w = 1 exactly for plain sampling: the counts stay bit for bit.
+        for (double &c : s.counts.back())
+          c *= w;
+        s.weights.push_back(w);
+        s.weighted = s.weighted || w != 1.0;
+        for (std::size_t i = 0; i < energies.size(); ++i)
+          {
+            sum[i] += s.counts.back()[i];
+            sum_sq[i] += s.counts.back()[i] * s.counts.back()[i];
+          }
         for (std::size_t i = 0; i < energies.size(); ++i)
           {
             const auto below =
@@ -304,6 +330,8 @@ namespace alloyspec
       }
     if (s.counts.empty())
       s.complete.assign(energies.size(), false);
+    for (std::size_t i = 0; i < energies.size(); ++i)
+      s.effective_sample_size.push_back(effective_size(sum[i], sum_sq[i]));
     return s;
   }
 
@@ -330,7 +358,8 @@ namespace alloyspec
         double mean, error;
         mean_and_error(sum, sum_sq, n, mean, error);
         rows[i] = {samples.energies[i], shift + mean, error, nan, nan,
-                   i < samples.complete.size() && bool(samples.complete[i])};
+                   i < samples.complete.size() && bool(samples.complete[i]),
+                   i < samples.effective_sample_size.size() ? samples.effective_sample_size[i] : 0.0};
       }
     if (n < 2)
       return rows;
@@ -378,6 +407,7 @@ namespace alloyspec
       throw std::invalid_argument("density_of_states: width and volume must be positive");
     const std::size_t   n_e = energies.size();
     std::vector<double> sum(n_e, 0.0), sum_sq(n_e, 0.0);
+    std::vector<double> raw(n_e, 0.0), raw_sq(n_e, 0.0); // Σ wρ, Σ (wρ)² for the effective size
     std::size_t         n      = 0;
     double              lowest = std::numeric_limits<double>::infinity();
     const double        gauss_norm = 1.0 / (std::sqrt(2 * pi) * width);
@@ -387,7 +417,8 @@ namespace alloyspec
           continue;
         ++n;
         lowest = std::min(lowest, r.complete_up_to);
-        const auto levels = trusted_levels(r);
+        const auto   levels = trusted_levels(r);
+        const double w      = weight_of(r);
         for (std::size_t i = 0; i < n_e; ++i)
           {
             double rho = 0;
@@ -399,8 +430,11 @@ namespace alloyspec
                          : gauss_norm * std::exp(-0.5 * (t / width) * (t / width));
               }
             rho /= volume;
+            rho *= w; // the importance-sampling summand; exact for w = 1
             sum[i] += rho;
             sum_sq[i] += rho * rho;
+            raw[i] += rho;
+            raw_sq[i] += rho * rho;
           }
       }
     const double             limit = lowest - incomplete_margin(kernel) * width;
@@ -411,7 +445,7 @@ namespace alloyspec
         double mean, error;
         mean_and_error(sum[i], sum_sq[i], n, mean, error);
         rows.push_back({energies[i], n > 0 ? mean : 0.0, error, nan, nan,
-                        n > 0 && energies[i] <= limit});
+                        n > 0 && energies[i] <= limit, effective_size(raw[i], raw_sq[i])});
       }
     return rows;
   }
@@ -444,41 +478,113 @@ namespace alloyspec
     return rows;
   }
 
+  std::vector<BinRow> weighted_bin_means(const std::vector<LevelValue> &samples,
+                                         const std::size_t realisations, const double lower,
+                                         const double upper, const double bin_width)
+  {
+    if (std::all_of(samples.begin(), samples.end(), [](const LevelValue &v) { return v.weight == 1.0; }))
+      {
+        // Plain sampling: the pooled mean as it always was, bit for bit.
+        std::vector<std::pair<double, double>> pairs;
+        pairs.reserve(samples.size());
+        for (const auto &v : samples)
+          pairs.emplace_back(v.energy, v.value);
+        return bin_means(pairs, lower, upper, bin_width);
+      }
+    if (!(bin_width > 0.0) || !(upper > lower))
+      throw std::invalid_argument("weighted_bin_means: need bin_width > 0 and upper > lower");
+    const std::size_t n_bins = std::size_t(std::ceil((upper - lower) / bin_width - 1e-9));
+    // Per bin and realisation: w_r, S_{b,r} and C_{b,r}.
+    struct Cluster
+    {
+      double w = 0, sum = 0, count = 0;
+    };
+    std::vector<std::map<std::uint64_t, Cluster>> clusters(n_bins);
+    std::vector<std::size_t>                      count(n_bins, 0);
+    for (const auto &v : samples)
+      {
+        if (!(v.energy >= lower) || !(v.energy < upper) || !std::isfinite(v.value))
+          continue;
+        if (!(v.weight >= 0.0) || !std::isfinite(v.weight))
+          throw std::invalid_argument("weighted_bin_means: weights must be finite and non-negative");
+        const std::size_t b = std::min(n_bins - 1, std::size_t((v.energy - lower) / bin_width));
+        Cluster &c = clusters[b][v.realisation];
+        c.w        = v.weight;
+        c.sum += v.value;
+        c.count += 1;
+        ++count[b];
+      }
+    std::vector<BinRow> rows;
+    const double        r_total = double(realisations);
+    for (std::size_t b = 0; b < n_bins; ++b)
+      {
+        BinRow row{lower + double(b) * bin_width,
+                   std::min(upper, lower + double(b + 1) * bin_width), nan, nan, count[b]};
+        double numerator = 0, denominator = 0;
+        for (const auto &[r, c] : clusters[b])
+          numerator += c.w * c.sum, denominator += c.w * c.count;
+        if (denominator > 0)
+          {
+            row.mean = numerator / denominator;
+            if (realisations > 1 && count[b] > 1)
+              {
+                // Realisations without a level in the bin add zero residuals.
+                double residual = 0;
+                for (const auto &[r, c] : clusters[b])
+                  {
+                    const double e = c.w * (c.sum - row.mean * c.count);
+                    residual += e * e;
+                  }
+                row.standard_error =
+                  std::sqrt(r_total / (r_total - 1.0) * residual) / denominator;
+              }
+          }
+        rows.push_back(row);
+      }
+    return rows;
+  }
+
   std::vector<BinRow> spacing_ratio_bins(const std::vector<RealisationRecord> &records,
                                          const std::string &boundary, const double lower,
                                          const double upper, const double bin_width)
   {
-    std::vector<std::pair<double, double>> ratios;
+    std::vector<LevelValue> ratios;
+    std::size_t             realisations = 0;
     for (const auto &r : records)
       {
         if (r.boundary != boundary)
           continue;
-        const auto levels = trusted_levels(r);
+        const double w      = weight_of(r);
+        const auto   levels = trusted_levels(r);
         for (std::size_t i = 0; i + 2 < levels.size(); ++i)
           {
             const double s1 = levels[i + 1] - levels[i], s2 = levels[i + 2] - levels[i + 1];
             const double hi = std::max(s1, s2);
             if (hi > 0.0)
-              ratios.emplace_back(levels[i + 1], std::min(s1, s2) / hi);
+              ratios.push_back({levels[i + 1], std::min(s1, s2) / hi, w, realisations});
           }
+        ++realisations;
       }
-    return bin_means(ratios, lower, upper, bin_width);
+    return weighted_bin_means(ratios, realisations, lower, upper, bin_width);
   }
 
   std::vector<BinRow> ipr_bins(const std::vector<RealisationRecord> &records,
                                const std::string &boundary, const double lower, const double upper,
                                const double bin_width)
   {
-    std::vector<std::pair<double, double>> values;
+    std::vector<LevelValue> values;
+    std::size_t             realisations = 0;
     for (const auto &r : records)
       {
         if (r.boundary != boundary)
           continue;
+        const double      w = weight_of(r);
         const std::size_t n = std::min(r.eigenvalues.size(), r.inverse_participation_ratios.size());
         for (std::size_t j = 0; j < n; ++j)
           if (r.eigenvalues[j] <= r.complete_up_to)
-            values.emplace_back(r.eigenvalues[j], r.inverse_participation_ratios[j]);
+            values.push_back({r.eigenvalues[j], r.inverse_participation_ratios[j], w, realisations});
+        ++realisations;
       }
-    return bin_means(values, lower, upper, bin_width);
+    return weighted_bin_means(values, realisations, lower, upper, bin_width);
   }
 } // namespace alloyspec

@@ -7,6 +7,8 @@
 #include <alloyspec/analysis/size_series.h>
 #include <alloyspec/analysis/tail_table.h>
 #include <alloyspec/analysis/deep_tail.h>
+#include <alloyspec/analysis/local_trace.h>
+#include <alloyspec/analysis/report.h>
 
 #include <algorithm>
 #include <array>
@@ -124,84 +126,6 @@ namespace alloyspec
     return csv.str();
   }
 
-  namespace
-  {
-    /**
-     * local_trace.csv: the local-trace estimators of the IDS and DOS from the
-     * central cell's weights w_j = ∫_{χ0}|ψ_j|²,
-     * N_loc(E) = E[Σ_{λ_j ≤ E} w_j]/|χ0| and n_loc(E) = E[Σ_j w_j δ_η(E − λ_j)]/|χ0|
-     * (Lorentzian δ_η), next to the counting estimator and their difference in
-     * combined standard errors. Both estimate the same N(E) (local-trace
-     * definition of the IDS; e.g. Kirsch, "An invitation to random Schrödinger
-     * operators", 2008, from memory); in a finite box they differ by boundary
-     * effects that fall with L.
-     */
-    void write_local_trace_table(const std::string &output_dir, const AnalysisInput &merged,
-                                 const std::vector<std::vector<IdsAccumulator::Row>> &rows,
-                                 double eta)
-    {
-      const double cell_volume = std::pow(merged.cell_size, merged.dimension);
-      constexpr double pi      = 3.14159265358979323846;
-      std::ostringstream csv;
-      csv << "energy";
-      for (const auto &bc : merged.boundaries)
-        csv << ",ids_local_" << bc << ",stderr_local_" << bc << ",ids_" << bc
-            << ",difference_in_stderr_" << bc << ",dos_local_" << bc << ",complete_" << bc;
-      csv << '\n';
-      std::vector<std::vector<std::array<double, 4>>> sums(merged.boundaries.size());
-      std::vector<std::size_t>                        count(merged.boundaries.size(), 0);
-      bool                                            have_weights = false;
-      for (std::size_t b = 0; b < merged.boundaries.size(); ++b)
-        {
-          sums[b].assign(merged.energies.size(), {{0, 0, 0, 0}});
-          for (const auto &r : merged.records)
-            {
-              if (r.boundary != merged.boundaries[b] || r.central_weights.size() != r.eigenvalues.size())
-                continue;
-              ++count[b];
-              for (std::size_t i = 0; i < merged.energies.size(); ++i)
-                {
-                  double n_local = 0, dos = 0;
-                  for (std::size_t j = 0; j < r.eigenvalues.size(); ++j)
-                    if (std::isfinite(r.central_weights[j]))
-                      {
-                        have_weights = true;
-                        const double x = merged.energies[i] - r.eigenvalues[j];
-                        if (x >= 0)
-                          n_local += r.central_weights[j];
-                        dos += r.central_weights[j] * eta / (pi * (x * x + eta * eta));
-                      }
-                  sums[b][i][0] += n_local / cell_volume;
-                  sums[b][i][1] += (n_local / cell_volume) * (n_local / cell_volume);
-                  sums[b][i][2] += dos / cell_volume;
-                }
-            }
-        }
-      if (!have_weights)
-        return; // records of an older version without central weights
-      for (std::size_t i = 0; i < merged.energies.size(); ++i)
-        {
-          csv << csv_number(merged.energies[i]);
-          for (std::size_t b = 0; b < merged.boundaries.size(); ++b)
-            {
-              const double n    = std::max<std::size_t>(count[b], 1);
-              const double mean = sums[b][i][0] / n;
-              const double var  = count[b] > 1 ? std::max(0.0, (sums[b][i][1] - n * mean * mean) / (n - 1)) : 0.0;
-              const double se   = std::sqrt(var / n);
-              const double combined = std::hypot(se, rows[b][i].standard_error);
-              const bool   ok       = rows[b][i].complete;
-              const double none     = std::numeric_limits<double>::quiet_NaN();
-              csv << ',' << csv_number(ok ? mean : none) << ',' << csv_number(ok ? se : none) << ','
-                  << csv_number(ok ? rows[b][i].mean : none) << ','
-                  << csv_number(!ok ? none : combined > 0 ? (mean - rows[b][i].mean) / combined : 0.0)
-                  << ',' << csv_number(ok ? sums[b][i][2] / n : none) << ',' << (ok ? 1 : 0);
-            }
-          csv << '\n';
-        }
-      ResultsStore::write_file_in(output_dir, "local_trace.csv", with_energy_columns(csv.str(), merged));
-    }
-  } // namespace
-
   std::vector<std::string> write_study_tables(const std::string              &output_dir,
                                               const std::vector<StoredStudy> &studies,
                                               const AnalysisSettings         &settings)
@@ -251,47 +175,39 @@ namespace alloyspec
     std::vector<std::string> warnings;
     const bool weighted = std::any_of(merged.records.begin(), merged.records.end(),
                                       [](const RealisationRecord &r) { return r.log_weight != 0; });
+    std::vector<WeightSummary> summaries;
+    for (const auto &a : ids)
+      summaries.push_back({a.n_realisations(), a.weight_effective_sample_size(), a.mean_weight()});
     if (weighted)
-      {
-        // Degenerate weights: a few realisations carry the whole estimate.
-        for (std::size_t b = 0; b < ids.size(); ++b)
-          {
-            const double ess = ids[b].weight_effective_sample_size();
-            std::ostringstream message;
-            message << "tilted sampling, " << merged.boundaries[b]
-                    << ": effective sample size of the weights " << ess << " of "
-                    << ids[b].n_realisations() << " realisations, mean weight "
-                    << ids[b].mean_weight();
-            if (ess < min_effective_share * double(ids[b].n_realisations()))
-              message << "; the weights are degenerate (few realisations dominate): read the "
-                         "intervals with care, or choose a smaller tilt";
-            warnings.push_back(message.str());
-          }
-        // Only ids.csv, tail.csv and the deep-tail fits are weighted so far; the
-        // other tables would silently ignore the weights, so they are not written.
-        std::vector<WeightSummary> summaries;
-        for (const auto &a : ids)
-          summaries.push_back({a.n_realisations(), a.weight_effective_sample_size(), a.mean_weight()});
-        const auto w = write_deep_tail(output_dir, merged, rows, summaries, settings, true);
-        warnings.insert(warnings.end(), w.begin(), w.end());
-        warnings.push_back("tilted sampling: ids.csv, tail.csv, deep_tail.json and the report's "
-                           "deep-tail figure and fits are importance-weighted; the DOS, bootstrap "
-                           "bands, tails.json, localisation tables and local trace are not "
-                           "written for weighted samples");
-        return warnings;
-      }
+      // Degenerate weights: a few realisations carry the whole estimate.
+      for (std::size_t b = 0; b < ids.size(); ++b)
+        {
+          const double ess = ids[b].weight_effective_sample_size();
+          std::ostringstream message;
+          message << "tilted sampling, " << merged.boundaries[b]
+                  << ": effective sample size of the weights " << ess << " of "
+                  << ids[b].n_realisations() << " realisations, mean weight "
+                  << ids[b].mean_weight();
+          if (ess < min_effective_share * double(ids[b].n_realisations()))
+            message << "; the weights are degenerate (few realisations dominate): read the "
+                       "intervals with care, or choose a smaller tilt";
+          warnings.push_back(message.str());
+        }
+    // Every table below weights each realisation by its likelihood ratio, with
+    // the same unbiased estimator as ids.csv (1 for plain sampling, which
+    // leaves every number bit for bit). A weighted study's report opens with
+    // the deep tail, its effective sample sizes and the estimator.
+    ReportContent report;
     {
-      std::vector<WeightSummary> summaries;
-      for (const auto &a : ids)
-        summaries.push_back({a.n_realisations(), a.weight_effective_sample_size(), a.mean_weight()});
-      const auto w = write_deep_tail(output_dir, merged, rows, summaries, settings, false);
+      const auto w = write_deep_tail(output_dir, merged, rows, summaries, settings,
+                                     weighted ? &report : nullptr);
       warnings.insert(warnings.end(), w.begin(), w.end());
     }
     std::vector<std::string> chosen; // reported by write_analysis, which chooses the same
     write_local_trace_table(output_dir, merged, rows,
                             settings.resolved_for(merged.records, chosen).lorentzian_width);
     merged.ids_table = (std::filesystem::path(output_dir) / "ids.csv").string();
-    const auto w = write_analysis(output_dir, merged, settings);
+    const auto w = write_analysis(output_dir, merged, settings, std::move(report));
     warnings.insert(warnings.end(), w.begin(), w.end());
     return warnings;
   }
@@ -324,14 +240,8 @@ namespace alloyspec
     if (by_cells.size() == 1)
       return write_study_tables(output_dir, studies, settings);
 
-    // A box-size series: one merged study per size, then the 1/L extrapolation.
-    for (const auto &s : studies)
-      for (const auto &r : s.input.records)
-        if (r.log_weight != 0)
-          throw InputError("summarise: '" + s.directory +
-                           "' was run with sampling/method = tilted; a box-size series of "
-                           "tilted studies is not supported (its extrapolation would ignore "
-                           "the weights); summarise each box size on its own");
+    // A box-size series: one merged study per size, then the 1/L extrapolation
+    // of the (weighted) means of every size.
     std::vector<std::string>   warnings;
     std::vector<AnalysisInput> per_size;
     for (const auto &[cells, group] : by_cells)

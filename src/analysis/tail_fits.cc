@@ -278,6 +278,8 @@ namespace alloyspec
         // itself too noisy to weight by (common practice, no source).
         if (!(n > 0.0 && n < 1.0) || !(sn > 0.0) || g.states_below < limits.min_points_states)
           continue;
+        if (g.weighted && !(g.effective_sample_size >= limits.min_point_effective_sample_size))
+          continue;
         x.push_back(std::log(g.energy - e0));
         y.push_back(std::log(-std::log(n)));
         sigma.push_back(sn / (n * std::abs(std::log(n))));
@@ -335,6 +337,8 @@ namespace alloyspec
         if (g.energy < window[0] || g.energy > window[1] || !g.complete)
           continue;
         if (!(g.mean > 0.0) || !(g.standard_error > 0.0))
+          continue;
+        if (g.weighted && !(g.effective_sample_size >= limits.min_point_effective_sample_size))
           continue;
         if (first)
           states_low = g.states_below;

@@ -26,6 +26,7 @@
 #include <cmath>
 #include <limits>
 #include <memory>
+#include <map>
 #include <optional>
 #include <set>
 #include <ctime>
@@ -521,24 +522,37 @@ end
               }
             // Studies at different tilts: one estimate by the balance heuristic,
             // each realisation weighted by p/Σ_k (n_k/n) p_θk whatever it was drawn at.
+            // The mixture is formed per box size (the folders of one
+            // `lattice/cells`): a realisation's law is a product over its own
+            // cells, so studies of another size are no component of it.
             if (std::any_of(tilts.begin(), tilts.end(), [&](double t) { return t != tilts.front(); }))
               {
-                std::vector<std::size_t> sizes;
-                std::size_t              total = 0;
-                for (const auto &s : stored)
+                const auto box_of = [&](const std::size_t k) {
+                  const auto it = stored[k].parameters.find("lattice/cells");
+                  return it == stored[k].parameters.end() ? std::string() : it->second;
+                };
+                std::vector<std::size_t>           sizes;
+                std::map<std::string, std::size_t> total;
+                for (std::size_t k = 0; k < stored.size(); ++k)
                   {
                     std::set<std::uint64_t> own;
-                    for (const auto &r : s.input.records)
+                    for (const auto &r : stored[k].input.records)
                       own.insert(r.realisation);
                     sizes.push_back(own.size());
-                    total += own.size();
+                    total[box_of(k)] += own.size();
                   }
-                std::vector<std::pair<double, double>> mixture;
-                for (std::size_t k = 0; k < stored.size(); ++k)
-                  mixture.emplace_back(tilts[k], double(sizes[k]) / double(total));
                 std::size_t k = 0;
                 for (auto &model : models)
                   {
+                    // Each component is one study's own sampling law (tilt and window).
+                    std::vector<StudyModel::TiltComponent> mixture;
+                    for (std::size_t j = 0; j < stored.size(); ++j)
+                      if (box_of(j) == box_of(k))
+                        {
+                          const auto &sj = models[j].sampling();
+                          mixture.push_back({tilts[j], double(sizes[j]) / double(total.at(box_of(k))),
+                                             sj.is_tilted() ? sj.tilt_window : 0u, sj.untilted_share});
+                        }
                     model.apply_tilt_mixture(stored[k], mixture);
                     ++k;
                   }
@@ -666,14 +680,10 @@ end
               }
             std::cout << " (total " << readable_seconds(total) << ")\n";
             if (study.tilted())
-              std::cout << "Results in " << output
-                        << "/: eigenvalues.csv, realisations.csv (with log_weight), ids.csv, "
-                           "tail.csv and deep_tail.json (importance-weighted), report.html "
-                           "(deep tail: table, figure, Lifshitz fits, effective sample sizes), "
-                           "run.json, "
-                        << ResultsStore::parameters_file << "\n";
-            else
-              print_closing_summary(output);
+              std::cout << "Tilted sampling: every table, fit and figure is importance-weighted "
+                           "(log_weight in realisations.csv); the report opens with the deep "
+                           "tail and the effective sample sizes\n";
+            print_closing_summary(output);
             std::cout << "These are model estimates for the stated model and box, not measurements.\n";
           }
         return 0;

@@ -24,14 +24,27 @@ namespace alloyspec
                       "fixed count (their number is first found by an inertia count).");
     prm.declare_entry("tolerance", "1e-12", dealii::Patterns::Double(1e-15, 1e-4),
                       "Relative convergence tolerance of the Krylov-Schur iteration.");
-    prm.declare_entry("solver", "tuned", dealii::Patterns::Selection("tuned|baseline"),
+    prm.declare_entry("solver", "tuned", dealii::Patterns::Selection("tuned|baseline|iterative|auto"),
                       "tuned: block shift-and-invert Krylov-Schur (8-32 right-hand sides per "
                       "sparse solve, full M-orthogonalisation, purified Ritz vectors), the sparse "
                       "factor's analysis kept across realisations; problems too small for a "
                       "block basis use single-vector SLEPc Krylov-Schur. baseline: SLEPc "
                       "Krylov-Schur with the library's defaults, a shift below the spectrum and "
                       "fresh objects per solve, for benchmarks. Both lists are verified by the "
-                      "same inertia count.");
+                      "same inertia count. iterative: LOBPCG preconditioned by algebraic "
+                      "multigrid (Trilinos ML) of K - sigma M, memory and work per iteration "
+                      "linear in the unknowns; its list is checked by an inertia count up to "
+                      "'inertia check limit' unknowns, beyond that by eigenvalue enclosures "
+                      "only (realisations.csv, verified_by). auto: iterative from 'auto "
+                      "crossover' unknowns on, tuned below.");
+    prm.declare_entry("inertia check limit", "300000", dealii::Patterns::Integer(0),
+                      "Largest number of unknowns at which the iterative solver checks its list "
+                      "by an inertia count (a sparse factorisation, memory growing like "
+                      "N^(4/3): about 3.4 GiB at 274k unknowns, Q2). Beyond it, lists are "
+                      "verified by enclosures only.");
+    prm.declare_entry("auto crossover", "60000", dealii::Patterns::Integer(0),
+                      "Number of unknowns from which 'solver = auto' uses the iterative solver "
+                      "(measured crossover: README).");
     prm.declare_entry("maximum eigenvalues", "5000", dealii::Patterns::Integer(1, 1000000),
                       "Upper limit on the eigenpairs one solve may be asked for (guards the "
                       "energy-cutoff mode against a cutoff far above the band edge).");
@@ -59,6 +72,8 @@ namespace alloyspec
     solver.tolerance       = prm.get_double("tolerance");
     solver.method          = prm.get("solver");
     solver.max_eigenvalues = prm.get_integer("maximum eigenvalues");
+    solver.inertia_limit   = static_cast<std::size_t>(prm.get_integer("inertia check limit"));
+    solver.auto_crossover  = static_cast<std::size_t>(prm.get_integer("auto crossover"));
     boundaries.clear();
     for (const auto &name : dealii::Utilities::split_string_list(prm.get("boundary conditions")))
       {

@@ -385,6 +385,9 @@ namespace alloyspec
     record.residuals      = result.residuals;
     record.complete_up_to = result.complete_up_to;
     record.inertia_count  = result.inertia_count;
+    record.verified_by    = result.verified_by;
+    record.enclosure_lower = result.enclosure_lower;
+    record.enclosure_upper = result.enclosure_upper;
     record.potential_min  = *std::min_element(q.begin(), q.end());
     record.potential_max  = *std::max_element(q.begin(), q.end());
     record.attempts       = result.attempts;
@@ -640,6 +643,8 @@ namespace alloyspec
       {"tilt", json_number(sampling.is_tilted() ? sampling.tilt : 0.0)},
       {"tilt_choice", sampling.is_tilted() ? (sampling.automatic ? "auto" : "given") : "none"},
       {"target_energy", sampling.target_energy ? json_number(*sampling.target_energy) : Json()},
+      {"tilt_window", sampling.is_tilted() && sampling.tilt_window > 0 ? Json(sampling.tilt_window) : Json("box")},
+      {"untilted_share", sampling.is_tilted() && sampling.tilt_window > 0 ? json_number(sampling.untilted_share) : Json()},
       {"pilot", tilt_log_}};
     {
       // Kong's effective sample size of the weights, (Σw)²/Σw², per boundary
@@ -667,6 +672,28 @@ namespace alloyspec
     for (std::size_t b = 0; b < model_.boundaries().size(); ++b)
       dofs[to_string(model_.boundaries()[b])] = discretisations_[b]->n_dofs();
     manifest["degrees_of_freedom"] = dofs;
+    {
+      // Which eigen-solver ran per boundary condition ("auto" resolved by the
+      // number of unknowns), and how the stored lists were checked complete.
+      Json used = Json::object();
+      for (std::size_t b = 0; solver_ && b < model_.boundaries().size() && b < problems_.size(); ++b)
+        used[to_string(model_.boundaries()[b])] = solver_->method_for(*problems_[b]);
+      manifest["spectrum_solver"] = {
+        {"setting", model_.solver().method},
+        {"auto_crossover_unknowns", model_.solver().auto_crossover},
+        {"inertia_check_limit_unknowns", model_.solver().inertia_limit},
+        {"used", used}};
+      std::size_t by_inertia = 0, by_enclosure = 0;
+      for (const auto &r : stored.input.records)
+        (r.verified_by == "enclosure" ? by_enclosure : by_inertia) += 1;
+      manifest["lists_verified_by"] = {{"inertia", by_inertia}, {"enclosure", by_enclosure}};
+      if (by_enclosure > 0)
+        std::cout << "Note: " << by_enclosure << " of " << by_inertia + by_enclosure
+                  << " eigenvalue lists were too large for an inertia count; their completeness "
+                     "up to complete_up_to is the assumption of their enclosures "
+                     "(realisations.csv: verified_by = enclosure)."
+                  << std::endl;
+    }
     const ErrorEstimateSettings estimate = model_.error_estimate();
     manifest["discretisation"]           = {
       {"degree", model_.discretisation().degree},

@@ -21,6 +21,7 @@
 #include <deal.II/lac/affine_constraints.h>
 #include <deal.II/lac/dynamic_sparsity_pattern.h>
 #include <deal.II/lac/full_matrix.h>
+#include <deal.II/lac/lapack_full_matrix.h>
 #include <deal.II/lac/sparsity_pattern.h>
 #include <deal.II/lac/vector.h>
 #include <deal.II/numerics/data_out.h>
@@ -137,6 +138,7 @@ namespace alloyspec::internal
       problem.lower_bound         = q_min;
       problem.spurious_eigenvalue = spurious_eigenvalue(q_max);
       problem.upper_bound         = element_bound_ + q_max;
+      problem.mass_floor          = element_mass_floor_;
 
       MatCopy(stiffness_, problem.K, SAME_NONZERO_PATTERN);
       const unsigned int         dofs_per_cell = fe_.n_dofs_per_cell();
@@ -467,6 +469,18 @@ namespace alloyspec::internal
       return product.trace();
     }
 
+    /** Smallest eigenvalue of an element mass matrix (LAPACK, symmetric). */
+    static double smallest_eigenvalue(const dealii::FullMatrix<double> &mass)
+    {
+      dealii::LAPACKFullMatrix<double> copy(mass.m(), mass.n());
+      copy = mass;
+      copy.compute_eigenvalues();
+      double smallest = std::numeric_limits<double>::infinity();
+      for (unsigned int i = 0; i < mass.m(); ++i)
+        smallest = std::min(smallest, copy.eigenvalue(i).real());
+      return smallest;
+    }
+
     dealii::Vector<double> full_vector(const std::vector<double> &u) const
     {
       dealii::Vector<double> v(u.begin(), u.end());
@@ -487,6 +501,8 @@ namespace alloyspec::internal
     std::vector<double>                          element_volume_;
     std::vector<dealii::types::global_dof_index> element_dofs_;
     double                                       element_bound_ = 0;
+    /** min over elements of λ_min(M_e): SpectralProblem::mass_floor (filled with element_bound_). */
+    double                                       element_mass_floor_ = 0;
     backend::SparseMatrix                        stiffness_, mass_;
     dealii::Vector<double>                       load_;
   };

@@ -124,6 +124,8 @@ namespace alloyspec
       {
         this->local_matrices(this->dof_handler_.begin_active(), local_mass_, local_stiffness_);
         this->element_bound_ = Base::pencil_bound(local_mass_, local_stiffness_);
+        // Every element of the box is a translate of the first: one mass matrix.
+        this->element_mass_floor_ = Base::smallest_eigenvalue(local_mass_);
       }
 
       const dealii::FullMatrix<double> &element_mass(std::size_t) const override

@@ -99,13 +99,16 @@ namespace alloyspec
       {
         masses_.resize(this->triangulation_.n_active_cells());
         stiffnesses_.resize(masses_.size());
-        this->element_bound_ = 0;
-        std::size_t e        = 0;
+        this->element_bound_      = 0;
+        this->element_mass_floor_ = std::numeric_limits<double>::infinity();
+        std::size_t e             = 0;
         for (const auto &cell : this->dof_handler_.active_cell_iterators())
           {
             this->local_matrices(cell, masses_[e], stiffnesses_[e]);
             this->element_bound_ =
               std::max(this->element_bound_, Base::pencil_bound(masses_[e], stiffnesses_[e]));
+            this->element_mass_floor_ =
+              std::min(this->element_mass_floor_, Base::smallest_eigenvalue(masses_[e]));
             ++e;
           }
       }

@@ -195,6 +195,7 @@ namespace alloyspec
       std::uint64_t realisation = 0, index = 0;
       std::string   boundary;
       double        value = 0, residual = 0, error = 0, ipr = 0, weight = 0;
+      double        lower = 0, upper = 0;
     };
     std::string format_number(double x) { return short_number(x, 6); }
   } // namespace
@@ -212,6 +213,9 @@ namespace alloyspec
     std::size_t                    fields = 0;
     // Earlier versions named the energy columns without their unit, and
     // folders written before tilted sampling have no log_weight column (weight 1).
+    const std::string older_summary_10_reduced =
+      "realisation,boundary,n_eigenvalues,complete_up_to_reduced,inertia_count,"
+      "potential_min_reduced,potential_max_reduced,solve_seconds,attempts,log_weight";
     const std::string older_summary_10 =
       "realisation,boundary,n_eigenvalues,complete_up_to,inertia_count,potential_min,"
       "potential_max,solve_seconds,attempts,log_weight";
@@ -219,7 +223,8 @@ namespace alloyspec
       "realisation,boundary,n_eigenvalues,complete_up_to,inertia_count,potential_min,"
       "potential_max,solve_seconds,attempts";
     if (summary.exists &&
-        check_header(summary, {ResultsStore::summary_header, older_summary_10, older_summary_9},
+        check_header(summary, {ResultsStore::summary_header, older_summary_10_reduced, older_summary_10,
+                               older_summary_9},
                      fields, result.warnings))
       {
         result.summary_bytes = summary.lines.front().end;
@@ -236,7 +241,19 @@ namespace alloyspec
             r.boundary    = boundary_name(summary, line, f[1]);
             const std::uint64_t n = whole_number(summary, line, f[2], "n_eigenvalues");
             r.complete_up_to = real_number(summary, line, f[3], "complete_up_to", false);
-            r.inertia_count  = whole_number(summary, line, f[4], "inertia_count");
+            // Folders of earlier versions hold inertia-checked lists only.
+            if (fields == 11)
+              {
+                if (f[10] != "inertia" && f[10] != "enclosure")
+                  refuse(summary, line, "column 'verified_by' is '" + printable(f[10]) +
+                                          "' (allowed: inertia, enclosure)");
+                r.verified_by = f[10];
+              }
+            // No count was made for an enclosure-verified list: its count is missing.
+            if (r.verified_by == "enclosure" && f[4] == "nan")
+              r.inertia_count = 0;
+            else
+              r.inertia_count = whole_number(summary, line, f[4], "inertia_count");
             r.potential_min  = real_number(summary, line, f[5], "potential_min", false);
             r.potential_max  = real_number(summary, line, f[6], "potential_max", false);
             r.solve_seconds  = real_number(summary, line, f[7], "solve_seconds", false);
@@ -248,7 +265,7 @@ namespace alloyspec
             if (attempts > 1000)
               refuse(summary, line, "attempts is " + f[8] + " (at most a few are ever made)");
             r.attempts = static_cast<unsigned int>(attempts);
-            if (fields == 10)
+            if (fields >= 10)
               r.log_weight = real_number(summary, line, f[9], "log_weight", false);
             if (!seen.insert({r.realisation, r.boundary}).second)
               refuse(summary, line, "realisation " + f[0] + " (" + f[1] +
@@ -267,11 +284,13 @@ namespace alloyspec
     std::vector<EigenLine> lines;
     if (eigen.exists)
       {
+        const std::string older_8_reduced =
+          "realisation,boundary,index,eigenvalue_reduced,residual,error_reduced,ipr,central_weight";
         const std::string older_6 = "realisation,boundary,index,eigenvalue,residual,ipr";
         const std::string older_7 = "realisation,boundary,index,eigenvalue,residual,error,ipr";
         const std::string older_8 =
           "realisation,boundary,index,eigenvalue,residual,error,ipr,central_weight";
-        if (check_header(eigen, {ResultsStore::eigenvalue_header, older_8, older_7, older_6},
+        if (check_header(eigen, {ResultsStore::eigenvalue_header, older_8_reduced, older_8, older_7, older_6},
                          fields, result.warnings))
           {
             result.eigenvalue_bytes = eigen.lines.front().end;
@@ -294,8 +313,14 @@ namespace alloyspec
                 const std::size_t ipr_field = fields == 6 ? 5 : 6;
                 e.error  = fields >= 7 ? real_number(eigen, line, f[5], "error", true) : std::nan("");
                 e.ipr    = real_number(eigen, line, f[ipr_field], "ipr", true);
-                e.weight = fields == 8 ? real_number(eigen, line, f[7], "central_weight", true) :
+                e.weight = fields >= 8 ? real_number(eigen, line, f[7], "central_weight", true) :
                                          std::nan("");
+                e.lower  = fields == 10 ? real_number(eigen, line, f[8], "enclosure_lower", true) :
+                                          std::nan("");
+                e.upper  = fields == 10 ? real_number(eigen, line, f[9], "enclosure_upper", true) :
+                                          std::nan("");
+                if (e.lower > e.upper)
+                  refuse(eigen, line, "enclosure_lower is above enclosure_upper");
                 lines.push_back(std::move(e));
               }
           }
@@ -337,6 +362,8 @@ namespace alloyspec
             r.errors.push_back(e.error);
             r.inverse_participation_ratios.push_back(e.ipr);
             r.central_weights.push_back(e.weight);
+            r.enclosure_lower.push_back(e.lower);
+            r.enclosure_upper.push_back(e.upper);
           }
         if (next > 0)
           result.eigenvalue_bytes = lines[next - 1].line->end;

@@ -86,7 +86,9 @@ namespace alloyspec
                csv_number(eigenvalues[i]) + "," + csv_number(residuals[i]) + "," +
                (i < errors.size() ? csv_number(errors[i]) : std::string("nan")) + "," +
                (i < inverse_participation_ratios.size() ? csv_number(inverse_participation_ratios[i]) : std::string("nan")) + "," +
-               (i < central_weights.size() ? csv_number(central_weights[i]) : std::string("nan")) + "\n";
+               (i < central_weights.size() ? csv_number(central_weights[i]) : std::string("nan")) + "," +
+               (i < enclosure_lower.size() ? csv_number(enclosure_lower[i]) : std::string("nan")) + "," +
+               (i < enclosure_upper.size() ? csv_number(enclosure_upper[i]) : std::string("nan")) + "\n";
       }
     return out;
   }
@@ -94,10 +96,11 @@ namespace alloyspec
   std::string RealisationRecord::summary_line() const
   {
     return std::to_string(realisation) + "," + boundary + "," + std::to_string(eigenvalues.size()) +
-           "," + csv_number(complete_up_to) + "," + std::to_string(inertia_count) + "," +
+           "," + csv_number(complete_up_to) + "," +
+           (verified_by == "enclosure" ? std::string("nan") : std::to_string(inertia_count)) + "," +
            csv_number(potential_min) + "," + csv_number(potential_max) + "," +
            csv_number(solve_seconds) + "," + std::to_string(attempts) + "," +
-           csv_number(log_weight) + "\n";
+           csv_number(log_weight) + "," + verified_by + "\n";
   }
 
   ResultsStore::ResultsStore(std::string directory, bool resume)
@@ -253,6 +256,34 @@ namespace alloyspec
   std::vector<std::string> ResultsStore::prepare_resume() const
   {
     StoredRecords stored = read_stored_records(directory_);
+    // A folder of an earlier version has fewer columns: its records are
+    // written again in this version's columns (atomically, the earlier
+    // values unchanged, the new columns missing or "inertia", which is how
+    // every earlier list was checked), so that the appended lines match.
+    bool earlier = false;
+    for (const auto &[file, header] : {std::pair<const char *, const char *>{"eigenvalues.csv", eigenvalue_header},
+                                       {"realisations.csv", summary_header}})
+      {
+        std::ifstream in(path(file));
+        std::string   first;
+        if (in && std::getline(in, first) && first != header)
+          earlier = true;
+      }
+    if (earlier)
+      {
+        std::string eigen = std::string(eigenvalue_header) + "\n",
+                    summary = std::string(summary_header) + "\n";
+        for (const RealisationRecord &r : stored.records)
+          {
+            eigen += r.eigenvalue_lines();
+            summary += r.summary_line();
+          }
+        write_file("eigenvalues.csv", eigen);
+        write_file("realisations.csv", summary);
+        stored.warnings.push_back("the records were written by an earlier version; they are now "
+                                  "stored with this version's columns (values unchanged)");
+        return stored.warnings;
+      }
     // Cut the remains of an interrupted write, so that the next record
     // follows the last complete one directly (the reader accepts remains only
     // at the end of a file).

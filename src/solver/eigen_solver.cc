@@ -1,3 +1,5 @@
+#include "iterative_workspace.h"
+#include "list_cut.h"
 #include "petsc_handle.h"
 #include <alloyspec/solver/block_krylov.h>
 #include <alloyspec/solver/eigen_solver.h>
@@ -40,8 +42,7 @@ namespace alloyspec
     using OwnedEPS = internal::PetscHandle<EPS, EPSDestroy>;
 
 
-    /** Relative gap below which two eigenvalues count as one cluster (common practice, no source). */
-    constexpr double cluster_gap = 1e-8;
+    using internal::cut_index;
     constexpr unsigned int max_attempts = 4;
     /**
      * "tuned" shift: this fraction of the previous list's width below its
@@ -77,12 +78,6 @@ namespace alloyspec
    * distributed copy) and the problem they belong to (constrained rows,
    * bounds, and the key of everything kept across realisations).
    */
-  struct EigenSolver::Pencil
-  {
-    Mat                    K = nullptr;
-    Mat                    M = nullptr;
-    const SpectralProblem *problem = nullptr;
-  };
 
 
   /**
@@ -106,7 +101,7 @@ namespace alloyspec
   {
     // baseline: a fresh ordering and symbolic factorisation every time.
     std::size_t negative = 0;
-    if (settings_.method != "tuned")
+    if (method_ == "baseline")
       {
         InertiaCounter fresh;
         negative = fresh.negative_pivots(backend::MatrixPair{pencil.K, pencil.M}, energy);
@@ -245,7 +240,7 @@ namespace alloyspec
       ALLOYSPEC_CHECK(EPSSetOperators(eps, K, M));
       ALLOYSPEC_CHECK(EPSSetTarget(eps, sigma));
       ALLOYSPEC_CHECK(EPSSetTolerances(eps, settings.tolerance, 1000));
-      if (settings.method == "tuned")
+      if (settings.method != "baseline") // "tuned", or "auto" resolved to it
         {
           // Purification (SLEPc's default, one extra solve per pair) is kept:
           // measured at L = 8, k = 50, without it the largest residual was
@@ -463,17 +458,6 @@ namespace alloyspec
       return sorted(std::move(unsorted));
     }
 
-    /**
-     * Smallest j ≥ k with values[j] clearly above values[j-1], so that the
-     * list values[0..j) ends between two clusters; 0 if there is none.
-     */
-    std::size_t cut_index(const std::vector<double> &values, std::size_t k)
-    {
-      for (std::size_t j = std::max<std::size_t>(k, 1); j < values.size(); ++j)
-        if (values[j] - values[j - 1] > cluster_gap * std::max(1.0, std::abs(values[j])))
-          return j;
-      return 0;
-    }
   } // namespace
 
   EigenResult EigenSolver::solve(const SpectralProblem &problem)
@@ -489,7 +473,9 @@ namespace alloyspec
       }
     const auto start = std::chrono::steady_clock::now();
     work_            = SolveWork{};
-    EigenResult result = solve_pencil(pencil);
+    method_          = method_for(problem);
+    EigenResult result = method_ == "iterative" ? solve_iterative(pencil) : solve_pencil(pencil);
+    result.method      = method_;
     result.work         = work_;
     result.work.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     return result;
@@ -509,7 +495,7 @@ namespace alloyspec
     const auto run_krylov_schur = [this, &pencil, &problem, &workspace, safe_sigma,
                                    &allow_block](unsigned int nev, double sigma) -> RawPairs
     {
-      if (settings_.method == "tuned" && allow_block)
+      if (method_ == "tuned" && allow_block)
         {
           auto &factor = block_factors_[&problem];
           if (!factor)
@@ -524,7 +510,7 @@ namespace alloyspec
               // Too few unknowns for a block basis: the single-vector path below.
             }
         }
-      if (settings_.method != "tuned")
+      if (method_ != "tuned")
         {
           // baseline: fresh objects, so a fresh ordering and symbolic analysis.
           OwnedEPS eps;
@@ -573,7 +559,7 @@ namespace alloyspec
     // verifies the list whatever σ was; a failed attempt falls back to the
     // safe shift.
     std::optional<double> estimated_sigma;
-    if (settings_.method == "tuned")
+    if (method_ == "tuned")
       {
         const auto it = workspaces_.find(&problem);
         if (it != workspaces_.end() && it->second && it->second->lowest && it->second->highest)
@@ -676,6 +662,7 @@ namespace alloyspec
       {
         workspaces_.erase(problem);
         block_factors_.erase(problem);
+        iterative_.erase(problem);
       }
   }
 } // namespace alloyspec

@@ -13,7 +13,18 @@
   5. the roofline of the eigen-solve: the factor's size, the machine's
      bandwidth and matrix-product rate (roofline_probe), the passes over the
      factor the solve made, the lower bound on its time that follows, and the
-     measured time as a ratio to it.
+     measured time as a ratio to it;
+  6. the deep band tail (tilted sampling, of every cell and of windows): the
+     variance reduction at equal solve time for N(E) ~ 1e-5 (3D, L = 6, binary
+     alloy; and 1D), the depth reached (smallest N with a relative 95 %
+     half-width <= 30 %) and its time in 1D (200-cell chains) and 3D, the
+     band-edge time per realisation against one factorisation, and the 1D
+     deep-tail Lifshitz exponent against 1/2;
+  7. the iterative eigen-solver (LOBPCG with algebraic multigrid): time and
+     memory against the direct path by box size and the crossover between
+     them, the growth of its time with the number of unknowns (L = 16 to 48),
+     the free box at L = 24 (Q2) against Kronecker sums of 1D spectra, and the
+     lowest 20 Dirichlet eigenvalues at L = 48 (912,673 unknowns) and L = 64.
 
 Usage: bench.py ALLOYSPEC_EXE [--quick] [--work DIR] [--probe ROOFLINE_PROBE_EXE]
 """
@@ -460,12 +471,275 @@ def roofline(exe, work, quick, probe):
     print(f"load average after: {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
 
 
+def read_weighted_counts(folder, boundary, energies, volume):
+    """Per realisation of @boundary: its log weight and N_r(E) = #{lambda <= E}/|Lambda|."""
+    with open(os.path.join(folder, "realisations.csv")) as f:
+        rows = [r for r in csv.DictReader(f) if r["boundary"] == boundary]
+    levels = {int(r["realisation"]): [] for r in rows}
+    with open(os.path.join(folder, "eigenvalues.csv")) as f:
+        for r in csv.DictReader(f):
+            if r["boundary"] == boundary:
+                levels[int(r["realisation"])].append(float(r["eigenvalue_reduced"]))
+    out = []
+    for r in rows:
+        lv = levels[int(r["realisation"])]
+        out.append((float(r["log_weight"]), [sum(1 for x in lv if x <= e) / volume for e in energies]))
+    return out, [float(r["solve_seconds"]) for r in rows]
+
+
+def weighted_moments(sample, i):
+    """(1/R) sum w N, the sample variance of w N, and the tilted estimate of E_p[N^2]."""
+    y = [math.exp(lw) * n[i] for lw, n in sample]
+    y2 = [math.exp(lw) * n[i] ** 2 for lw, n in sample]
+    r = len(y)
+    mean = sum(y) / r
+    var = sum((v - mean) ** 2 for v in y) / (r - 1)
+    return mean, var, sum(y2) / r
+
+
+def depth_reached(folder, boundary):
+    """Smallest N in tail.csv with a 95 % half-width <= 30 % of N and an effective sample size >= 10."""
+    best = None
+    with open(os.path.join(folder, "tail.csv")) as f:
+        for r in csv.DictReader(f):
+            n, up, ess = float(r[f"ids_{boundary}"]), float(r[f"upper_{boundary}"]), float(r[f"ess_{boundary}"])
+            if n > 0 and ess >= 10 and (up - n) / n <= 0.30 and (best is None or n < best[1]):
+                best = (float(r["energy"]), n, (up - n) / n, ess)
+    return best
+
+
+def variance_ratio(work, tilted_name, plain_name, energies, volume, target=1e-5):
+    """At the grid energy whose tilted estimate is nearest @target (in log): the variance per
+    realisation of the tilted summands w N and of plain N (measured, and from the tilted sample as
+    E_p[N^2] - E_p[N]^2), the times per realisation, and the ratios at equal solve time."""
+    ts, tsec = read_weighted_counts(os.path.join(work, tilted_name), "dirichlet", energies, volume)
+    ps, psec = read_weighted_counts(os.path.join(work, plain_name), "dirichlet", energies, volume)
+    t_t, t_p = sum(tsec) / len(tsec), sum(psec) / len(psec)
+    best = None
+    for i in range(len(energies)):
+        m, v, m2 = weighted_moments(ts, i)
+        if m > 0 and (best is None or abs(math.log(m / target)) < abs(math.log(best[1] / target))):
+            best = (i, m, v, m2)
+    if best is None:
+        print(f"  {tilted_name}: no positive estimate on the grid")
+        return
+    i, m, v_t, m2 = best
+    pm, pv_direct, _ = weighted_moments(ps, i)
+    hits = sum(1 for _, n in ps if n[i] > 0)
+    pv_from_tilted = max(m2 - m * m, 0.0)
+    print(f"  {tilted_name} at E = {energies[i]:.3f}: N = {m:.3e} +- {math.sqrt(v_t / len(ts)):.2e} "
+          f"({len(ts)} realisations, {t_t:.3f} s each); plain N = {pm:.3e} ({hits} of {len(ps)} with a "
+          f"state, {t_p:.3f} s each)")
+    print(f"    variance per realisation: tilted {v_t:.3e}; plain {pv_direct:.3e} measured, "
+          f"{pv_from_tilted:.3e} from the tilted sample (E_p[N^2] - E_p[N]^2)")
+    for label, pv in (("measured plain variance", pv_direct), ("plain variance from the tilted sample", pv_from_tilted)):
+        if v_t > 0 and pv > 0:
+            ratio = (pv * t_p) / (v_t * t_t)
+            print(f"    variance ratio at equal solve time ({label}): {ratio:.1f}x "
+                  f"(GOAL >= 100x: {'MET' if ratio >= 100 else 'NOT met'})")
+        else:
+            print(f"    variance ratio at equal solve time ({label}): not measurable (a variance is 0)")
+
+
+def print_depth(work, name, boundary, unit):
+    d = depth_reached(os.path.join(work, name), boundary)
+    with open(os.path.join(work, name, "realisations.csv")) as f:
+        secs = sum(float(r["solve_seconds"]) for r in csv.DictReader(f) if r["boundary"] == boundary)
+    with open(os.path.join(work, name, "run.json")) as f:
+        m = json.load(f)
+    wall = sum(v for v in m["timings_seconds"].values() if isinstance(v, (int, float)))
+    print(f"  depth, {name}: " + (f"N = {d[1]:.2e} {unit} at E = {d[0]:.3f} (half-width {100 * d[2]:.0f} %, "
+                                  f"ESS {d[3]:.0f})" if d else "nothing resolved to 30 %") +
+          f"; solve time {secs:.0f} s, run phases {wall:.0f} s")
+
+
+def print_exponent(work, name):
+    with open(os.path.join(work, name, "deep_tail.json")) as f:
+        fit = json.load(f)["boundaries"]["dirichlet"]
+    a, b = fit["log_log_form"], fit["power_form_free_exponent"]
+    if not fit["fitted"]:
+        print(f"  deep-tail exponent, {name}: not fitted ({fit['reason']})")
+        return
+    def num(x):
+        return "nan" if x is None else f"{x:.3f}"
+    print(f"  deep-tail exponent, {name}: ln(-ln n) form {num(a['exponent'])} [{num(a['interval'][0])}, "
+          f"{num(a['interval'][1])}], free power form {num(b['exponent'])} [{num(b['interval'][0])}, "
+          f"{num(b['interval'][1])}] against 1/2 (GOAL within 10 %: "
+          f"{'MET' if a['exponent'] is not None and abs(a['exponent'] - 0.5) <= 0.05 else 'NOT met'}); window "
+          f"[{num(fit['window'][0])}, {num(fit['window'][1])}], {fit['points']} points, n from "
+          f"{fit['n_per_cell_range'][0]:.2e} to {fit['n_per_cell_range'][1]:.2e}; asymptotic: {fit['asymptotic']}")
+    for why in fit["not_asymptotic_because"]:
+        print(f"    not asymptotic: {why}")
+
+
+def deep_tail_goals(exe, work, quick):
+    section("6. deep band tail: tilted sampling against plain sampling (measured side by side)")
+    print(f"load average before: {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
+    here = os.path.dirname(os.path.abspath(__file__))
+    configs = os.path.join(here, "..", "..", "configs")
+    # --- 3D, the invented binary alloy of binary_alloy_band_edge.prm (30 % barriers of 2), Q2.
+    L = 4 if quick else 6
+    r3 = 150 if quick else 500
+    # The cutoff must let the pilot's first level (tilt 0) see some eigenvalues.
+    target = 2.0 if quick else 1.0
+    grid = "0.85 to 1.3 by 0.01" if not quick else "1.8 to 2.6 by 0.02"
+    cutoff = 1.3 if not quick else 2.6
+    alloy = [os.path.join(configs, "binary_alloy_band_edge.prm")]
+    common3 = [f"lattice/cells={L},{L},{L}", "discretisation/elements per cell=1",
+               "spectrum/boundary conditions=dirichlet", f"spectrum/energy cutoff={cutoff}",
+               f"study/energies={grid}", "analysis/figure formats=", f"study/realisations={r3}"]
+    volume3 = float(L ** 3)
+    run_study(exe, work, "tail3d_tilted", common3 + ["sampling/method=tilted", "sampling/tilt=auto",
+                                                     f"sampling/target energy={target}", "study/seed=31"], cli=alloy)
+    run_study(exe, work, "tail3d_plain", common3 + ["study/seed=32"], cli=alloy)
+    run_study(exe, work, "tail3d_window", common3 + ["sampling/method=tilted", "sampling/tilt=0.6",
+                                                     "sampling/tilt window=5", "study/seed=33"], cli=alloy)
+    with open(os.path.join(work, "tail3d_tilted", "run.json")) as f:
+        manifest3 = json.load(f)
+    with open(os.path.join(work, "tail3d_tilted", "tail.csv")) as f:
+        energies3 = [float(r["energy"]) for r in csv.DictReader(f)]
+    print(f"3D, L = {L}, {r3} realisations per study, Dirichlet, Q2, band-edge mode (cutoff {cutoff}); "
+          f"tail3d_tilted: automatic tilt theta = {manifest3['sampling']['tilt']} for target {target} "
+          f"(pilot {manifest3['timings_seconds'].get('tilt_search', float('nan')):.0f} s, not counted below); "
+          f"tail3d_window: theta = 0.6 on windows of 5 cells per direction, untilted share 0.2")
+    variance_ratio(work, "tail3d_tilted", "tail3d_plain", energies3, volume3)
+    variance_ratio(work, "tail3d_window", "tail3d_plain", energies3, volume3)
+    for name in ("tail3d_tilted", "tail3d_window", "tail3d_plain"):
+        print_depth(work, name, "dirichlet", "per unit volume")
+    # Band-edge mode: time per realisation against one numeric factorisation.
+    per = []
+    for name in ("tail3d_tilted", "tail3d_plain"):
+        with open(os.path.join(work, name, "run.json")) as f:
+            per += json.load(f).get("factor_work", {}).get("per_realisation", [])
+    zero = [p for p in per if p.get("solve_calls", 0) == 0]
+    some = [p for p in per if p.get("solve_calls", 0) > 0]
+    for label, group in (("no eigenvalue below the cutoff", zero), ("with eigenvalues below it", some)):
+        if group:
+            real = median([p["realisation_seconds"] for p in group if p.get("realisation_seconds") is not None] or [float("nan")])
+            fac = median([p["factorisation_seconds"] / max(p["numeric_factorisations"], 1) for p in group])
+            print(f"  band-edge mode, {label}: {len(group)} realisations, median {real:.4f} s per realisation, "
+                  f"one numeric factorisation {fac:.4f} s, ratio {real / fac:.1f}")
+
+    # --- 1D: chains of 200 cells (deep_tail_chain.prm), Dirichlet, per cell.
+    r1 = 500 if quick else 2000
+    chain = [os.path.join(configs, "deep_tail_chain.prm")]
+    common1 = ["spectrum/boundary conditions=dirichlet", "analysis/figure formats=", f"study/realisations={r1}",
+               "study/energies=0.005 to 0.4 by 0.005"]
+    run_study(exe, work, "tail1d_plain", common1 + ["sampling/method=plain", "study/seed=42"], cli=chain)
+    run_study(exe, work, "tail1d_tilted", common1 + ["study/seed=41"], cli=chain)
+    run_study(exe, work, "tail1d_window", common1 + ["sampling/tilt=1.0", "sampling/tilt window=30",
+                                                     "study/seed=43"], cli=chain)
+    with open(os.path.join(work, "tail1d_tilted", "run.json")) as f:
+        manifest1 = json.load(f)
+    with open(os.path.join(work, "tail1d_tilted", "tail.csv")) as f:
+        energies1 = [float(r["energy"]) for r in csv.DictReader(f)]
+    print(f"1D, 200-cell chains (deep_tail_chain.prm), {r1} realisations per study, Dirichlet, Q3; tail1d_tilted: "
+          f"automatic tilt theta = {manifest1['sampling']['tilt']} of every cell (target "
+          f"{manifest1['sampling'].get('target_energy')}); tail1d_window: theta = 1.0 on windows of 30 cells, "
+          f"untilted share 0.2")
+    variance_ratio(work, "tail1d_tilted", "tail1d_plain", energies1, 200.0)
+    variance_ratio(work, "tail1d_window", "tail1d_plain", energies1, 200.0)
+    variance_ratio(work, "tail1d_window", "tail1d_plain", energies1, 200.0, target=1e-8)
+    for name in ("tail1d_plain", "tail1d_tilted", "tail1d_window"):
+        print_depth(work, name, "dirichlet", "per cell")
+    for name in ("tail1d_plain", "tail1d_tilted", "tail1d_window"):
+        print_exponent(work, name)
+    print("GOAL depth: N = 1e-8 per cell in 1D and 1e-6 in 3D with a 30 % half-width within one hour: compare "
+          "the depths above with the targets (solve times as printed)")
+    print(f"load average after: {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
+
+
+# ---------------------------------------------------------------------------
+# 7. The iterative eigen-solver.
+
+def spectrum_1d_q2(L, bc):
+    """1D Q2 eigenvalues on [0, L], one element per unit (numpy dense solver)."""
+    import numpy
+    import scipy.linalg
+    h = 1.0
+    ke = numpy.array([[7, -8, 1], [-8, 16, -8], [1, -8, 7]]) / (3 * h)
+    me = numpy.array([[4, 2, -1], [2, 16, 2], [-1, 2, 4]]) * h / 30
+    n = 2 * L + 1
+    k = numpy.zeros((n, n))
+    m = numpy.zeros((n, n))
+    for e in range(L):
+        k[2 * e:2 * e + 3, 2 * e:2 * e + 3] += ke
+        m[2 * e:2 * e + 3, 2 * e:2 * e + 3] += me
+    if bc == "dirichlet":
+        k, m = k[1:-1, 1:-1], m[1:-1, 1:-1]
+    return sorted(scipy.linalg.eigh(k, m, eigvals_only=True))
+
+
+def iterative_solver(exe, work, quick):
+    section("7. iterative eigen-solver: LOBPCG + algebraic multigrid (Q2, 1 element per cell, k = 20, Dirichlet)")
+    print("(the machine is shared with other builds while this runs: times carry their load)")
+    q2 = ["discretisation/degree=2", "discretisation/elements per cell=1", "spectrum/tolerance=1e-10"]
+    # Time and memory against the direct path, by size; the crossover.
+    sizes = [6, 10] if quick else [8, 12, 16, 20, 24]
+    print(f"{'L':>3} {'DoFs':>9} {'direct s':>9} {'direct MiB':>11} {'iter s':>8} {'iter MiB':>9} "
+          f"{'iter, no count s':>17} {'MiB':>6}")
+    rows = []
+    for L in sizes:
+        d = run_study(exe, work, f"it_direct_{L}", box(L, 20, 1, q2 + ["spectrum/solver=tuned"]))
+        i = run_study(exe, work, f"it_iter_{L}", box(L, 20, 1, q2 + ["spectrum/solver=iterative"]))
+        e = run_study(exe, work, f"it_encl_{L}", box(L, 20, 1, q2 + ["spectrum/solver=iterative",
+                                                                     "spectrum/inertia check limit=0"]))
+        key = (0, "dirichlet")
+        worst = max(abs(x - y) / max(abs(x), 1) for x, y in zip(d["eigenvalues"][key], i["eigenvalues"][key]))
+        assert worst < 1e-9, f"iterative and direct disagree by {worst} at L = {L}"
+        rows.append((L, d["dofs"]["dirichlet"], d["per_solve"], d["memory_mib"], i["per_solve"], i["memory_mib"],
+                     e["per_solve"], e["memory_mib"]))
+        print(f"{L:>3} {rows[-1][1]:>9} {rows[-1][2]:>9.2f} {rows[-1][3]:>11.0f} {rows[-1][4]:>8.2f} "
+              f"{rows[-1][5]:>9.0f} {rows[-1][6]:>17.2f} {rows[-1][7]:>6.0f}")
+    faster = [r for r in rows if r[4] < r[2]]
+    if faster:
+        print(f"crossover (time, with the inertia check): the iterative path is faster from L = {faster[0][0]} "
+              f"({faster[0][1]} DoFs) on")
+    else:
+        print("crossover (time): the direct path was faster at every size measured")
+    if quick:
+        return
+    # Free box at L = 24, Q2: each eigenvalue against the Kronecker sums of the 1D spectra.
+    for bc in ("dirichlet", "neumann"):
+        r = run_study(exe, work, f"it_free_{bc}", [f"lattice/cells=24,24,24", "study/realisations=1",
+                      "spectrum/eigenvalues=20", f"spectrum/boundary conditions={bc}", "study/energies=0 to 1 by 0.5",
+                      "potential/law=discrete", "potential/values=0", "potential/probabilities=1",
+                      "spectrum/solver=iterative", "spectrum/inertia check limit=0"] + q2)
+        one = spectrum_1d_q2(24, bc)[:12]
+        sums = sorted(a + b + c for a in one for b in one for c in one)
+        with open(os.path.join(work, f"it_free_{bc}", "eigenvalues.csv")) as f:
+            got = list(csv.DictReader(f))
+        worst = max(abs(float(g["eigenvalue_reduced"]) - s) / max(s, 1) for g, s in zip(got, sums))
+        inside = all(float(g["enclosure_lower"]) <= s <= float(g["enclosure_upper"]) for g, s in zip(got, sums))
+        print(f"free box L = 24, {bc} ({r['dofs'][bc]} DoFs, {r['per_solve']:.1f} s): largest relative difference "
+              f"to the Kronecker sums {worst:.1e}, every sum inside its enclosure: {inside}")
+    # Growth from L = 16 to 48, and the large boxes.
+    pts = []
+    for L in (16, 24, 32, 48, 64):
+        try:
+            r = run_study(exe, work, f"it_big_{L}", box(L, 20, 1, q2 + ["spectrum/solver=iterative"]))
+        except subprocess.CalledProcessError as error:
+            print(f"L = {L}: failed ({error.stderr.decode()[-300:]})")
+            continue
+        with open(os.path.join(work, f"it_big_{L}", "eigenvalues.csv")) as f:
+            res = max(float(x["residual"]) for x in csv.DictReader(f))
+        with open(os.path.join(work, f"it_big_{L}", "realisations.csv")) as f:
+            verified = next(csv.DictReader(f))["verified_by"]
+        pts.append((L, r["dofs"]["dirichlet"], r["per_solve"], r["memory_mib"]))
+        print(f"L = {L}: {pts[-1][1]} DoFs, {r['per_solve']:.1f} s per realisation, memory high-water "
+              f"{r['memory_mib'] / 1024:.2f} GiB, largest residual {res:.1e}, verified by {verified}")
+    inner = [p for p in pts if 16 <= p[0] <= 48]
+    if len(inner) >= 2:
+        slope = math.log(inner[-1][2] / inner[0][2]) / math.log(inner[-1][1] / inner[0][1])
+        print(f"time ~ DoFs^{slope:.2f} from L = {inner[0][0]} to L = {inner[-1][0]} (goal: at most 1.15)")
+
+
 def main():
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("exe")
     parser.add_argument("--quick", action="store_true", help="small sizes, about a minute")
     parser.add_argument("--work", default="bench-work")
-    parser.add_argument("--only", default="12345", help="which parts to run, e.g. 14")
+    parser.add_argument("--only", default="1234567", help="which parts to run, e.g. 14")
     parser.add_argument("--probe", default=None, help="the roofline_probe executable (part 5)")
     args = parser.parse_args()
     os.makedirs(args.work, exist_ok=True)
@@ -473,7 +747,7 @@ def main():
     print(f"alloyspec benchmark ({'quick' if args.quick else 'full'}), host {os.uname().nodename}, "
           f"{os.cpu_count()} CPUs; one BLAS thread per process")
     parts = {"1": tuned_vs_baseline, "2": mpi_throughput, "3": growth, "4": accuracy_per_cost,
-             "5": lambda exe, work, quick: roofline(exe, work, quick, args.probe)}
+             "5": lambda exe, work, quick: roofline(exe, work, quick, args.probe), "6": deep_tail_goals, "7": iterative_solver}
     for key in args.only:
         parts[key](args.exe, args.work, args.quick)
     print(f"\nbenchmark wall time {time.perf_counter() - start:.0f} s")

@@ -20,8 +20,8 @@ import sys
 
 import numpy
 
-# Columns that hold words, not numbers (the boundary of a record).
-TEXT_COLUMNS = {"boundary"}
+# Columns that hold words, not numbers (the boundary of a record, how its list was checked).
+TEXT_COLUMNS = {"boundary", "verified_by"}
 
 
 def check_csv(path):

@@ -2,7 +2,7 @@
 # Folders written by earlier versions: the stored parameter file was named
 # parameters.prm, the energy grid was written "start:step:stop", and the energy
 # columns of the records were named without their unit ("eigenvalue", not
-# "eigenvalue_reduced"). `summarise`
+# "eigenvalue_reduced"), and had no enclosure columns and no verified_by. `summarise`
 # and `run --resume` must read such a folder (and give the same tables as a
 # folder of this version), and a resume with other model parameters must still
 # be refused, which shows the legacy file is really read.
@@ -20,6 +20,9 @@ make_legacy() {
   mv "$1/as_run.prm" "$1/parameters.prm" || fail "no as_run.prm in $1"
   sed -i 's/^\( *set energies *= *\)0 to 4 by 0.1/\10:0.1:4/' "$1/parameters.prm"
   grep -q "set energies *= *0:0.1:4" "$1/parameters.prm" || fail "could not write the colon grid"
+  # Earlier versions had neither the enclosure columns nor verified_by.
+  cut -d, -f1-8 "$1/eigenvalues.csv" > "$1/eigenvalues.tmp" && mv "$1/eigenvalues.tmp" "$1/eigenvalues.csv"
+  cut -d, -f1-10 "$1/realisations.csv" > "$1/realisations.tmp" && mv "$1/realisations.tmp" "$1/realisations.csv"
   sed -i '1s/_reduced//g' "$1/eigenvalues.csv" "$1/realisations.csv"
   head -n 1 "$1/eigenvalues.csv" | grep -q "^realisation,boundary,index,eigenvalue,residual,error," \
     || fail "could not write the earlier column names"

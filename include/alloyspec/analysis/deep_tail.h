@@ -123,14 +123,17 @@ namespace alloyspec
 
   /**
    * Writes `deep_tail.json` (the fits of every boundary condition, the criterion
-   * and the weight summaries), the figure `figures/deep_tail` (ln N against E
-   * with intervals) and, when @p write_report, `report.html` of a tilted study:
-   * the tail table, the figure, the fits and the effective sample sizes.
+   * and the weight summaries) and the figure `figures/deep_tail` (ln N against
+   * E with intervals). With @p report (a weighted study), adds to it the
+   * sections a tilted study's report opens with: the effective sample sizes,
+   * the smallest N resolved, the tail table, the figure, the fits and the
+   * estimator; write_analysis() renders it with everything else.
    * Returns warnings (gnuplot missing, …).
    */
   std::vector<std::string> write_deep_tail(const std::string                                   &output_dir,
                                            const AnalysisInput                                 &input,
                                            const std::vector<std::vector<IdsAccumulator::Row>> &rows,
                                            const std::vector<WeightSummary>                    &weights,
-                                           const AnalysisSettings &settings, bool write_report);
+                                           const AnalysisSettings &settings,
+                                           ReportContent          *report = nullptr);
 } // namespace alloyspec

@@ -102,7 +102,25 @@ namespace alloyspec
   struct CountingSamples
   {
     std::vector<double>              energies;
+    /**
+     * @f$w_r N_L^{(r)}(E_i)@f$: the counts already multiplied by the
+     * realisation's likelihood ratio @f$w_r = e^{\log w_r}@f$ (1 for plain
+     * sampling, which leaves the counts bit for bit), so that the plain sample
+     * mean of a column is the unbiased importance-sampling estimate
+     * @f$\frac1R\sum_r w_r N_r@f$ and a resample of rows carries each
+     * realisation's weight with it.
+     */
     std::vector<std::vector<double>> counts;
+    /** @f$w_r@f$ of each row of counts. */
+    std::vector<double>              weights;
+    /** Some @f$w_r \ne 1@f$ (tilted sampling or a mixture of tilts). */
+    bool                             weighted = false;
+    /**
+     * Effective number of realisations behind the mean at @f$E_i@f$:
+     * @f$(\sum_r y_r)^2/\sum_r y_r^2@f$, @f$y_r = w_r N_r(E_i)@f$ (Kong 1992,
+     * applied to the summands, as in IdsAccumulator::Row); 0 when all are 0.
+     */
+    std::vector<double>              effective_sample_size;
     std::vector<bool>                complete;
     /** Realisations with at least one eigenvalue @f$\le E_i@f$. */
     std::vector<std::size_t> realisations_with_states;
@@ -110,7 +128,10 @@ namespace alloyspec
     std::vector<std::size_t> states_below;
   };
 
-  /** Collects the records of boundary @p boundary (all realisations) on @p energies. */
+  /**
+   * Collects the records of boundary @p boundary (all realisations) on @p
+   * energies, each row weighted by its record's likelihood ratio.
+   */
   CountingSamples counting_samples(const std::vector<RealisationRecord> &records,
                                    const std::string &boundary, const std::vector<double> &energies,
                                    double volume);
@@ -124,6 +145,8 @@ namespace alloyspec
     double lower; ///< lower end of the confidence interval
     double upper; ///< upper end
     bool   complete;
+    /** @f$(\sum_r y_r)^2/\sum_r y_r^2@f$ of the summands @f$y_r@f$ of the mean; 0 when all are 0. */
+    double effective_sample_size = 0;
   };
 
   /**
@@ -134,6 +157,12 @@ namespace alloyspec
    * @f$(1\mp c)/2@f$ quantiles of the resampled means, c the confidence level.
    * Realisations are the independent units; energies of one realisation are
    * not. Uses SplitMix64(@p seed), so results are reproducible.
+   *
+   * Weighted samples: a row is @f$w_r N_r@f$, so a resample draws realisations
+   * with their weights attached and its mean is the same unbiased estimator
+   * @f$\frac1R\sum_{r \in \text{resample}} w_r N_r@f$ as the point estimate
+   * (the bootstrap of an importance-sampling mean; the resampled quantity is
+   * the i.i.d. pair (w, N) under the tilted law).
    */
   std::vector<IntervalRow> bootstrap_mean_interval(const CountingSamples &samples,
                                                    unsigned int samples_count,
@@ -160,6 +189,11 @@ namespace alloyspec
    * that bound would still add to the density below it through the kernel's
    * tail, so an energy is marked incomplete when it lies within
    * incomplete_margin() widths of the smallest complete_up_to of the records.
+   *
+   * Weighted records: the mean is the unbiased
+   * @f$\frac1R\sum_r w_r \rho^{(r)}(E)@f$ (@f$E_\theta[w\rho] = E_p[\rho]@f$),
+   * its standard error the sample standard deviation of @f$w_r\rho^{(r)}@f$
+   * over √R; with every @f$w_r = 1@f$ the plain mean, bit for bit.
    */
   std::vector<IntervalRow> density_of_states(const std::vector<RealisationRecord> &records,
                                              const std::string &boundary,
@@ -172,6 +206,18 @@ namespace alloyspec
    * leaves about 1% of one state's weight per missing state.
    */
   double incomplete_margin(Broadening kernel);
+
+  /**
+   * A value attached to one level of one realisation, with the realisation's
+   * likelihood ratio: the input of weighted_bin_means().
+   */
+  struct LevelValue
+  {
+    double        energy;
+    double        value;
+    double        weight = 1;      ///< @f$w_r@f$ of the realisation
+    std::uint64_t realisation = 0; ///< index of the realisation (its cluster)
+  };
 
   /** One energy bin of level statistics or IPR. */
   struct BinRow
@@ -193,6 +239,7 @@ namespace alloyspec
    * Only levels up to complete_up_to are used; a triple with two equal levels
    * (0/0) is skipped. The standard error treats the ratios as independent,
    * which neighbouring ratios are not quite: it is a slight underestimate.
+   * Weighted records (tilted sampling): see weighted_bin_means().
    */
   std::vector<BinRow> spacing_ratio_bins(const std::vector<RealisationRecord> &records,
                                          const std::string &boundary, double lower, double upper,
@@ -202,6 +249,7 @@ namespace alloyspec
    * Mean inverse participation ratio @f$\int|\psi|^4/(\int|\psi|^2)^2@f$ of the
    * eigenfunctions with eigenvalue in each bin, pooled over realisations (only
    * eigenvalues up to complete_up_to; records without IPRs add nothing).
+   * Weighted records (tilted sampling): see weighted_bin_means().
    */
   std::vector<BinRow> ipr_bins(const std::vector<RealisationRecord> &records,
                                const std::string &boundary, double lower, double upper,
@@ -210,6 +258,30 @@ namespace alloyspec
   /** Same, for given (eigenvalue, value) pairs: the binning used by both functions above. */
   std::vector<BinRow> bin_means(const std::vector<std::pair<double, double>> &samples,
                                 double lower, double upper, double bin_width);
+
+  /**
+   * Per-bin means of level values from a weighted sample of @p realisations
+   * realisations. The quantity estimated is a ratio of two expectations under
+   * the model law p,
+   * @f[ m_b = \frac{E_p[S_b]}{E_p[C_b]},\quad S_b = \sum_{j:\lambda_j\in b} v_j,\;
+   *     C_b = \#\{j: \lambda_j \in b\}, @f]
+   * (the mean IPR, or ⟨r⟩, of the levels of the ensemble that fall in bin b).
+   * Its estimate is the ratio of the two unbiased importance-sampling
+   * estimates, @f$\hat m_b = \sum_r w_r S_{b,r}/\sum_r w_r C_{b,r}@f$
+   * (consistent, bias O(1/R): a ratio), with the linearised (delta-method)
+   * standard error that treats realisations as the independent units,
+   * @f[ \mathrm{SE}^2 = \frac{R}{R-1}\,\frac{\sum_r w_r^2 (S_{b,r} - \hat m_b C_{b,r})^2}
+   *                     {(\sum_r w_r C_{b,r})^2} @f]
+   * (the ratio estimator of survey sampling, e.g. Cochran, Sampling
+   * Techniques, 3rd ed. 1977, §6.3; from memory). One weight multiplies all
+   * levels of a realisation, so their errors are not independent.
+   * When every weight is exactly 1 this is the plain pooled mean of
+   * bin_means() (same numbers bit for bit, the standard error of the values
+   * treated as independent, as before), so plain studies are unchanged.
+   */
+  std::vector<BinRow> weighted_bin_means(const std::vector<LevelValue> &samples,
+                                         std::size_t realisations, double lower, double upper,
+                                         double bin_width);
 
   /** @f$2\ln 2 - 1@f$: ⟨r⟩ for Poisson levels (Atas et al. 2013). */
   constexpr double spacing_ratio_poisson = 0.38629436111989061;

@@ -80,6 +80,13 @@ namespace alloyspec
     bool        complete;
     std::size_t states_below = 0;             ///< eigenvalues ≤ energy, all realisations
     std::size_t realisations_with_states = 0; ///< realisations with an eigenvalue ≤ energy
+    /**
+     * From a weighted sample (tilted sampling): the mean is the unbiased
+     * importance-sampling estimate, and the point is used only when its
+     * effective sample size reaches TailFitLimits::min_point_effective_sample_size.
+     */
+    bool        weighted              = false;
+    double      effective_sample_size = 0; ///< (Σ y)²/Σ y² of the mean's summands y = w·value
   };
 
   /** Slope fit of a tail, with the honest verdict of whether the data resolve it. */
@@ -111,6 +118,13 @@ namespace alloyspec
     std::size_t min_realisations = 5;
     /** A grid point must rest on at least this many states to be weighted by its error. */
     std::size_t min_points_states = 5;
+    /**
+     * A weighted grid point must rest on at least this many effective
+     * realisations: the normal interval of a weighted mean needs about that
+     * many effective summands (common practice, no source; the same limit as
+     * the deep-tail fits, DeepTailLimits).
+     */
+    double min_point_effective_sample_size = 10;
   };
 
   /**

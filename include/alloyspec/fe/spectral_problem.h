@@ -27,6 +27,15 @@ namespace alloyspec
      * with the element-by-element bound on @f$\lambda_{\max}(A, M)@f$; 0 if unknown.
      */
     double                upper_bound = 0;
+    /**
+     * μ_M > 0 with @f$x^T M x \ge \mu_M\,x^T x@f$ for every x that vanishes on
+     * the constrained rows: the smallest eigenvalue over the element mass
+     * matrices (@f$x^T M x = \sum_e x_e^T M_e x_e \ge \min_e \lambda_{\min}(M_e)
+     * \sum_e |x_e|^2 \ge \min_e \lambda_{\min}(M_e)\,|x|^2@f$, every DoF lying
+     * in some element; constraints only repeat entries). 0 if unknown.
+     * Bounds @f$M^{-1}@f$ for the eigenvalue enclosures.
+     */
+    double                mass_floor = 0;
 
     /**
      * Eigenvalues at or above this belong to the constrained rows: the midpoint

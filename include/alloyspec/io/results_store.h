@@ -24,8 +24,21 @@ namespace alloyspec
      * local-trace estimator of the IDS, @f$E[\operatorname{tr}(\chi_0 P_{(-\infty,E]}\chi_0)]@f$.
      */
     std::vector<double> central_weights;
-    double              complete_up_to = 0; ///< all eigenvalues ≤ this are listed (inertia-verified)
+    /**
+     * Guaranteed interval per eigenvalue (NaN where none was computed);
+     * empty in folders of earlier versions.
+     */
+    std::vector<double> enclosure_lower, enclosure_upper;
+    /** All eigenvalues ≤ this are listed: checked by an inertia count, or assumed (verified_by). */
+    double              complete_up_to = 0;
+    /** Negative pivots at complete_up_to; 0 and written as missing when verified_by is "enclosure". */
     std::uint64_t       inertia_count  = 0;
+    /**
+     * "inertia": an inertia count confirmed the list up to complete_up_to.
+     * "enclosure": no count was made; the list's completeness up to
+     * complete_up_to is the assumption of its enclosures.
+     */
+    std::string         verified_by = "inertia";
     double              potential_min  = 0;
     double              potential_max  = 0;
     double              solve_seconds  = 0;
@@ -60,10 +73,11 @@ namespace alloyspec
      * unit in a reduced-unit study), and their column names say so.
      */
     static constexpr const char *eigenvalue_header =
-      "realisation,boundary,index,eigenvalue_reduced,residual,error_reduced,ipr,central_weight";
+      "realisation,boundary,index,eigenvalue_reduced,residual,error_reduced,ipr,central_weight,"
+      "enclosure_lower,enclosure_upper";
     static constexpr const char *summary_header =
       "realisation,boundary,n_eigenvalues,complete_up_to_reduced,inertia_count,"
-      "potential_min_reduced,potential_max_reduced,solve_seconds,attempts,log_weight";
+      "potential_min_reduced,potential_max_reduced,solve_seconds,attempts,log_weight,verified_by";
 
     /**
      * The effective parameters of a study, in deal.II's short format, written

@@ -28,8 +28,20 @@ namespace alloyspec
     std::optional<double> energy_cutoff;
     /** Relative convergence tolerance of the Krylov–Schur iteration. */
     double                tolerance = 1e-12;
-    /** "tuned" or "baseline" (plain library defaults, for benchmarks). */
+    /**
+     * "tuned", "baseline" (plain library defaults, for benchmarks),
+     * "iterative" (LOBPCG with algebraic multigrid, lobpcg.h) or "auto"
+     * (iterative from auto_crossover unknowns on, tuned below).
+     */
     std::string           method = "tuned";
+    /**
+     * Largest number of unknowns at which an iterative list is checked by an
+     * inertia count (a sparse LDLᵀ factor, memory growing like N^{4/3});
+     * beyond it a list is verified by its enclosures only.
+     */
+    std::size_t           inertia_limit = 300000;
+    /** Unknowns from which "auto" uses the iterative solver. */
+    std::size_t           auto_crossover = 60000;
     /** Largest number of eigenpairs one solve may be asked for. */
     unsigned int          max_eigenvalues = 5000;
 
@@ -94,6 +106,20 @@ namespace alloyspec
     unsigned int                     attempts = 0;
     /** Factor work of this solve (on a team, of the whole team's distributed factor). */
     SolveWork                        work;
+    /**
+     * How the list was checked to be complete up to complete_up_to:
+     * "inertia" (an inertia count was made) or "enclosure" (no count was made;
+     * completeness is the assumption of the enclosures, eigen_enclosure.h).
+     */
+    std::string                      verified_by = "inertia";
+    /**
+     * Guaranteed intervals per eigenvalue (eigen_enclosure.h), empty when none
+     * were computed. On an "inertia" list they hold without assumption; on an
+     * "enclosure" list they rest on λ_{k+1} ≥ complete_up_to.
+     */
+    std::vector<double>              enclosure_lower, enclosure_upper;
+    /** The method that made the list ("tuned", "baseline" or "iterative"; "auto" resolved). */
+    std::string                      method;
   };
 
   /**
@@ -131,6 +157,13 @@ namespace alloyspec
      */
     void use_teams(RealisationTeams *teams);
 
+    /**
+     * The method for @p problem: "auto" resolved by its number of unknowns
+     * (the iterative path itself falls back to "tuned" for problems too small
+     * for its block; EigenResult::method says what ran).
+     */
+    std::string method_for(const SpectralProblem &problem) const;
+
 
     const EigenSolverSettings &settings() const { return settings_; }
 
@@ -141,6 +174,8 @@ namespace alloyspec
     /** The matrices worked on and their problem; defined in the .cc. */
     struct Pencil;
     EigenResult solve_pencil(const Pencil &pencil);
+    /** The iterative path (iterative_solve.cc): LOBPCG with AMG, checked by inertia or by enclosures. */
+    EigenResult solve_iterative(const Pencil &pencil);
     /** Inertia count for the list check: reuses one symbolic factorisation per problem ("tuned"). */
     std::size_t verified_count(const Pencil &pencil, double energy);
     /** Factor work of the solve in progress (reset by solve()). */
@@ -150,6 +185,8 @@ namespace alloyspec
     struct Workspace;
 
     EigenSolverSettings settings_;
+    /** The method of the solve in progress ("auto" resolved by method_for()). */
+    std::string         method_;
     RealisationTeams   *teams_ = nullptr;
     /** One workspace per problem: EPS/ST/KSP and the MUMPS analysis live across realisations. */
     std::map<const SpectralProblem *, std::unique_ptr<Workspace>> workspaces_;
@@ -159,6 +196,9 @@ namespace alloyspec
      * both, kept across realisations.
      */
     std::map<const SpectralProblem *, std::unique_ptr<BlockFactor>> block_factors_;
+    /** The iterative path's AMG hierarchy per problem; defined in iterative_solve.cc. */
+    struct IterativeWorkspace;
+    std::map<const SpectralProblem *, std::unique_ptr<IterativeWorkspace>> iterative_;
     /**
      * Problems in the order first solved, the same on every rank. Destroying
      * a distributed MUMPS factor is collective, so the kept objects are

@@ -11,6 +11,7 @@
 
 #include <gtest/gtest.h>
 
+#include <cmath>
 #include <filesystem>
 #include <fstream>
 #include <sstream>
@@ -342,4 +343,76 @@ TEST(ResultsStore, StoredParameterFileUnderEitherName)
             (folder.path / ResultsStore::parameters_file).string());
   EXPECT_NE(ResultsStore::read_stored_parameters(dir).find("set cells = 4"), std::string::npos);
   EXPECT_STREQ(ResultsStore::parameters_file, "as_run.prm");
+}
+
+TEST(ResultsStore, EnclosuresAndVerificationRoundTrip)
+{
+  // An enclosure-verified list: no inertia count was made, so the count is
+  // written missing and read back as 0, never as a claimed count.
+  auto records = sample_records();
+  for (auto &r : records)
+    {
+      r.verified_by = r.boundary == "neumann" ? "enclosure" : "inertia";
+      for (const double x : r.eigenvalues)
+        {
+          r.enclosure_lower.push_back(x - 1e-11);
+          r.enclosure_upper.push_back(x + 3e-12);
+        }
+      if (r.verified_by == "enclosure")
+        r.inertia_count = 0;
+    }
+  TemporaryFolder folder("enclosures");
+  ResultsStore    store(folder.path.string(), false);
+  for (const auto &r : records)
+    store.append(r);
+  const std::string summary = slurp(folder.path / "realisations.csv");
+  EXPECT_NE(summary.find(",nan,"), std::string::npos); // the missing count
+  const auto back = read_stored_records(folder.path.string());
+  ASSERT_EQ(back.records.size(), records.size());
+  for (std::size_t i = 0; i < records.size(); ++i)
+    {
+      expect_same(records[i], back.records[i]);
+      EXPECT_EQ(records[i].verified_by, back.records[i].verified_by);
+      EXPECT_EQ(records[i].enclosure_lower, back.records[i].enclosure_lower);
+      EXPECT_EQ(records[i].enclosure_upper, back.records[i].enclosure_upper);
+    }
+  // A missing count on an inertia-verified line is damage, not an absent count.
+  std::string damaged = summary;
+  const std::size_t at = damaged.find(",inertia\n");
+  ASSERT_NE(at, std::string::npos);
+  const std::size_t line_start = damaged.rfind('\n', at) + 1;
+  std::string       line = damaged.substr(line_start, at - line_start);
+  std::vector<std::string> f;
+  for (std::size_t s = 0, c; ; s = c + 1)
+    {
+      c = line.find(',', s);
+      f.push_back(line.substr(s, c - s));
+      if (c == std::string::npos)
+        break;
+    }
+  f[4] = "nan";
+  std::string rebuilt;
+  for (std::size_t k = 0; k < f.size(); ++k)
+    rebuilt += (k ? "," : "") + f[k];
+  damaged.replace(line_start, at - line_start, rebuilt);
+  spit(folder.path / "realisations.csv", damaged);
+  EXPECT_NE(refusal(folder.path).find("inertia_count"), std::string::npos);
+}
+
+TEST(ResultsStore, FoldersWithoutEnclosureColumnsReadAsInertiaChecked)
+{
+  TemporaryFolder folder("earlier");
+  spit(folder.path / "eigenvalues.csv",
+       "realisation,boundary,index,eigenvalue_reduced,residual,error_reduced,ipr,central_weight\n"
+       "0,dirichlet,0,1.5,1e-13,nan,0.01,0.02\n");
+  spit(folder.path / "realisations.csv",
+       "realisation,boundary,n_eigenvalues,complete_up_to_reduced,inertia_count,"
+       "potential_min_reduced,potential_max_reduced,solve_seconds,attempts,log_weight\n"
+       "0,dirichlet,1,2,1,0,1,0.5,1,0\n");
+  const auto back = read_stored_records(folder.path.string());
+  ASSERT_EQ(back.records.size(), 1u);
+  EXPECT_EQ(back.records[0].verified_by, "inertia");
+  EXPECT_EQ(back.records[0].inertia_count, 1u);
+  ASSERT_EQ(back.records[0].enclosure_lower.size(), 1u);
+  EXPECT_TRUE(std::isnan(back.records[0].enclosure_lower[0]));
 }
