@@ -360,7 +360,7 @@ namespace alloyspec
         for (std::size_t i = 0; i < c.pilot_cells.size(); ++i)
           std::cout << (i ? " x " : "") << c.pilot_cells[i];
         std::cout << " of its cells, Neumann faces, " << c.pilot_eigenvalues
-                  << " eigenvalues up to the study's highest, "
+                  << " eigenvalues up to " << pilot_energy_margin << " times the study's highest, "
                   << short_number(model_.units().to_user_energy(c.energy_ceiling), 4) << ' '
                   << model_.units().energy_label() << "; memory budget " << gibibytes(budget_bytes) << "):\n"
                   << c.log << "Chosen: degree " << model_.discretisation().degree
