@@ -187,16 +187,23 @@ namespace alloyspec
     choice.log        = log.str();
     if (!choice.met)
       {
-        double best = std::numeric_limits<double>::infinity();
+        double best        = std::numeric_limits<double>::infinity();
+        bool   over_budget = false;
         for (const PilotCandidate &c : candidates)
-          if (c.skipped.empty() && std::isfinite(c.bound) && c.study_box.bytes <= budget_bytes)
-            best = std::min(best, c.bound);
-        throw InputError("parameter 'discretisation/accuracy' = " + short_number(target, 3) +
-                         " cannot be met within the memory budget of " + gib(budget_bytes) +
-                         " (--memory-budget): the best estimated relative error within it is " +
-                         short_number(best, 3) + ". Candidates tried:\n" + choice.log +
-                         "Allowed range of the target: [1e-12, 0.1]; loosen it, or raise the "
-                         "budget.");
+          {
+            over_budget = over_budget || !c.skipped.empty() || c.study_box.bytes > budget_bytes;
+            if (c.skipped.empty() && std::isfinite(c.bound) && c.study_box.bytes <= budget_bytes)
+              best = std::min(best, c.bound);
+          }
+        const std::string why =
+          over_budget ? "cannot be met within the memory budget of " + gib(budget_bytes) +
+                          " (--memory-budget): the best estimated relative error within it is " :
+                        "is finer than any candidate up to degree 4 with 8 elements per cell "
+                        "reaches on the pilot box: the best estimated relative error is ";
+        throw InputError("parameter 'discretisation/accuracy' = " + short_number(target, 3) + " " +
+                         why + short_number(best, 3) + ". Candidates tried:\n" + choice.log +
+                         "Allowed range of the target: [1e-12, 0.1]; loosen it" +
+                         (over_budget ? ", or raise the budget." : ", or ask for fewer eigenvalues."));
       }
     return choice;
   }

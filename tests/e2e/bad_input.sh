@@ -41,6 +41,7 @@ expect_error "'-1 to 2 by 0.5'"   run "${tiny[@]}" --set "study/energies=-1:0.5:
 expect_error "study/seed"         run "${tiny[@]}" --seed=-4 --output "$work/a"
 expect_error "'--memory-budget'"  run "${tiny[@]}" --memory-budget 0 --output "$work/a"
 # A target the budget cannot hold is refused with the estimate, before anything is solved for good.
+expect_error "finer than any candidate" run "${tiny[@]}" --set "lattice/cells=16" --set spectrum/eigenvalues=50 --set "discretisation/accuracy=1e-7" --output "$work/a"
 expect_error "(--memory-budget)"  run "${tiny[@]}" --set "discretisation/accuracy=1e-11" --memory-budget 0.3 --output "$work/a"
 expect_error "sampling/tilt window" run "${tiny[@]}" --set sampling/method=tilted --set sampling/tilt=0.3 --set "sampling/tilt window=2.5" --output "$work/a"
 expect_error "sampling/tilt window" run "${tiny[@]}" --set sampling/method=tilted --set sampling/tilt=auto --set "sampling/target energy=1" --set "sampling/tilt window=2" --output "$work/a"
