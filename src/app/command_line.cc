@@ -347,6 +347,11 @@ end
                     "ranks; default 1: each rank solves its own realisations). The sparse "
                     "factorisation and the Krylov iteration are then distributed; the mesh and "
                     "assembly are repeated on each rank of a team.");
+    double memory_budget_gib = -1; // -1: not given
+    run->add_option("--memory-budget", memory_budget_gib,
+                    "GiB of memory one rank may use for the discretisation that "
+                    "'discretisation/accuracy' chooses (default: half the machine's memory, "
+                    "shared by the ranks on it).");
     run->add_flag("--print-parameters", print_only,
                   "Print the effective parameters and stop without computing.");
 
@@ -539,11 +544,15 @@ end
                 std::size_t k = 0;
                 for (auto &model : models)
                   {
-                    std::vector<std::pair<double, double>> mixture;
+                    // Each component is one study's own sampling law (tilt and window).
+                    std::vector<StudyModel::TiltComponent> mixture;
                     for (std::size_t j = 0; j < stored.size(); ++j)
                       if (box_of(j) == box_of(k))
-                        mixture.emplace_back(tilts[j],
-                                             double(sizes[j]) / double(total.at(box_of(k))));
+                        {
+                          const auto &sj = models[j].sampling();
+                          mixture.push_back({tilts[j], double(sizes[j]) / double(total.at(box_of(k))),
+                                             sj.is_tilted() ? sj.tilt_window : 0u, sj.untilted_share});
+                        }
                     model.apply_tilt_mixture(stored[k], mixture);
                     ++k;
                   }
@@ -651,6 +660,10 @@ end
         options.output_directory = output;
         options.resume           = resume;
         options.ranks_per_realisation = ranks_per_realisation;
+        if (memory_budget_gib != -1 && !(memory_budget_gib >= 0.01 && memory_budget_gib <= 1048576))
+          throw InputError("option '--memory-budget': " + std::to_string(memory_budget_gib) +
+                           " GiB is out of range; allowed: 0.01 to 1048576 (GiB per rank)");
+        options.memory_budget_bytes = memory_budget_gib > 0 ? memory_budget_gib * 1073741824.0 : 0.0;
         options.progress         = !no_progress && Progress::stderr_is_terminal();
         options.parameters_json  = to_json(prm);
         options.parameters_prm   = to_short_prm(prm);

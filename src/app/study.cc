@@ -233,7 +233,8 @@ namespace alloyspec
         if (model_.error_estimate().accuracy)
           {
             ScopedTimer t(timings_, "pilot_choice");
-            choose_for_accuracy(root);
+            choose_for_accuracy(root, options.memory_budget_bytes > 0 ? options.memory_budget_bytes :
+                                                                        default_memory_budget());
           }
         // The labels users see (console, run.json) say what each phase produces.
         { ScopedTimer t(timings_, "mesh");         make_grid(); }
@@ -326,21 +327,46 @@ namespace alloyspec
         }
   }
 
-  void Study::choose_for_accuracy(const bool root)
+  double Study::default_memory_budget()
+  {
+    MPI_Comm node;
+    MPI_Comm_split_type(MPI_COMM_WORLD, MPI_COMM_TYPE_SHARED, 0, MPI_INFO_NULL, &node);
+    int ranks_here = 1;
+    MPI_Comm_size(node, &ranks_here);
+    MPI_Comm_free(&node);
+    const double memory = physical_memory_bytes();
+    // Unknown memory: the smallest machine the README supports.
+    return 0.5 * (memory > 0 ? memory : 8.0 * 1073741824.0) / std::max(ranks_here, 1);
+  }
+
+  void Study::choose_for_accuracy(const bool root, const double budget_bytes)
   {
     const Boundary bc = model_.boundaries().front();
     discretisation_choice_ = choose_discretisation(
-      model_.lattice(), model_.discretisation(), model_.geometry().conditions(bc, model_.lattice().dimension()),
-      model_.solver(), model_.solver_cell_values(model_.study().first_realisation), *model_.error_estimate().accuracy);
-    model_.set_discretisation(discretisation_choice_->settings);
+      model_.lattice(), model_.geometry().conditions(bc, model_.lattice().dimension()),
+      model_.solver(), model_.solver_cell_values(model_.study().first_realisation),
+      *model_.error_estimate().accuracy, budget_bytes);
+    // Only degree and r change: the error estimate and the target stay as given.
+    DiscretisationSettings chosen = model_.discretisation();
+    chosen.degree                 = discretisation_choice_->settings.degree;
+    chosen.elements_per_cell      = discretisation_choice_->settings.elements_per_cell;
+    model_.set_discretisation(chosen);
     if (root)
-      std::cout << "Pilot solve for 'discretisation/accuracy' = " << *model_.error_estimate().accuracy
-                << " (realisation " << model_.study().first_realisation << ", " << to_string(bc)
-                << "):\n"
-                << discretisation_choice_->log << "Chosen: degree " << model_.discretisation().degree
-                << ", elements per cell " << model_.discretisation().elements_per_cell
-                << (discretisation_choice_->met ? "" : " (target not met: the finest tried)")
-                << std::endl;
+      {
+        const DiscretisationChoice &c = *discretisation_choice_;
+        std::cout << "Choosing degree and elements per cell for 'discretisation/accuracy' = "
+                  << *model_.error_estimate().accuracy << " (realisation "
+                  << model_.study().first_realisation << "; error estimated on a pilot box of ";
+        for (std::size_t i = 0; i < c.pilot_cells.size(); ++i)
+          std::cout << (i ? " x " : "") << c.pilot_cells[i];
+        std::cout << " of its cells, Neumann faces, " << c.pilot_eigenvalues
+                  << " eigenvalues up to " << pilot_energy_margin << " times the study's highest, "
+                  << short_number(model_.units().to_user_energy(c.energy_ceiling), 4) << ' '
+                  << model_.units().energy_label() << "; memory budget " << gibibytes(budget_bytes) << "):\n"
+                  << c.log << "Chosen: degree " << model_.discretisation().degree
+                  << ", elements per cell " << model_.discretisation().elements_per_cell
+                  << std::endl;
+      }
   }
 
   RealisationRecord Study::solve_one(std::uint64_t realisation, std::size_t b)
@@ -617,6 +643,8 @@ namespace alloyspec
       {"tilt", json_number(sampling.is_tilted() ? sampling.tilt : 0.0)},
       {"tilt_choice", sampling.is_tilted() ? (sampling.automatic ? "auto" : "given") : "none"},
       {"target_energy", sampling.target_energy ? json_number(*sampling.target_energy) : Json()},
+      {"tilt_window", sampling.is_tilted() && sampling.tilt_window > 0 ? Json(sampling.tilt_window) : Json("box")},
+      {"untilted_share", sampling.is_tilted() && sampling.tilt_window > 0 ? json_number(sampling.untilted_share) : Json()},
       {"pilot", tilt_log_}};
     {
       // Kong's effective sample size of the weights, (Σw)²/Σw², per boundary
@@ -674,6 +702,26 @@ namespace alloyspec
       {"accuracy_target", estimate.accuracy ? json_number(*estimate.accuracy) : Json()},
       {"accuracy_achieved",
        discretisation_choice_ ? json_number(discretisation_choice_->achieved) : Json()}};
+    if (discretisation_choice_)
+      {
+        const DiscretisationChoice &c = *discretisation_choice_;
+        Json candidates = Json::array();
+        for (const PilotCandidate &k : c.candidates)
+          candidates.push_back(
+            {{"degree", k.settings.degree},
+             {"elements_per_cell", k.settings.elements_per_cell},
+             {"unknowns", k.study_box.dofs},
+             {"estimated_memory_mib", json_number(k.study_box.bytes / 1048576.0)},
+             {"largest_relative_error_bound", k.skipped.empty() ? json_number(k.bound) : Json()},
+             {"not_solved_because", k.skipped.empty() ? Json() : Json(k.skipped)}});
+        manifest["discretisation"]["accuracy_pilot"] = {
+          {"pilot_cells", c.pilot_cells},
+          {"pilot_boundary", "neumann"},
+          {"pilot_eigenvalues", c.pilot_eigenvalues},
+          {"energy_ceiling", json_number(model_.units().to_user_energy(c.energy_ceiling))},
+          {"memory_budget_mib", json_number(c.budget_bytes / 1048576.0)},
+          {"candidates", candidates}};
+      }
     Json phases = Json::object();
     for (const auto &[name, seconds] : timings_)
       phases[name] = json_number(seconds);

@@ -125,6 +125,7 @@ namespace alloyspec
                            "gives one fixed potential (use sampling/method = plain)");
         if (!sampling_.automatic)
           potential_.set_tilt(sampling_.tilt);
+        potential_.set_tilt_window(sampling_.tilt_window, sampling_.untilted_share);
       }
     if (geometry_.has_mesh())
       for (const Boundary bc : spectrum_.boundaries)
@@ -418,19 +419,21 @@ namespace alloyspec
     return stored;
   }
 
-  void StudyModel::apply_tilt_mixture(StoredStudy                                  &stored,
-                                      const std::vector<std::pair<double, double>> &mixture) const
+  void StudyModel::apply_tilt_mixture(StoredStudy &stored,
+                                      const std::vector<TiltComponent> &mixture) const
   {
     PotentialModel drawn = potential_;
     if (sampling_.is_tilted())
       drawn.set_tilt(stored_tilt(stored.directory));
     std::vector<PotentialModel> components;
     std::vector<double>         shares;
-    for (const auto &[theta, share] : mixture)
+    for (const auto &c : mixture)
       {
+        // Each component is that study's own sampling law: its θ and its windows.
         components.push_back(potential_);
-        components.back().set_tilt(theta);
-        shares.push_back(share);
+        components.back().set_tilt_window(c.theta != 0.0 ? c.window : 0, c.untilted_share);
+        components.back().set_tilt(c.theta);
+        shares.push_back(c.share);
       }
     std::set<std::uint64_t> realisations;
     for (const auto &r : stored.input.records)

@@ -341,6 +341,8 @@ namespace alloyspec
     tilted_law_.reset();
     theta_ = log_moment_ = 0;
     n_cells_ = lattice.n_cells();
+    cells_   = lattice.cells();
+    windows_.reset();
     fixed_values_.clear();
     fixed_source_.clear();
   }
@@ -372,9 +374,36 @@ namespace alloyspec
       }
     const SingleSiteLaw &law = *sampling_law();
     std::vector<double>  q(n_cells_);
+    if (windows_ && tilted_law_)
+      {
+        // The mixture component from its own uniform, then each cell from its
+        // uniform as always: tilted inside the window, from the model law outside.
+        const long window = windows_->component(uniform_open01(seed, realisation, 0, window_draw));
+        for (std::size_t n = 0; n < n_cells_; ++n)
+          {
+            const bool tilted = window >= 0 && windows_->contains(std::size_t(window), n);
+            q[n] = (tilted ? *tilted_law_ : *law_).quantile(uniform_open01(seed, realisation, n));
+          }
+        return q;
+      }
     for (std::size_t n = 0; n < n_cells_; ++n)
       q[n] = law.quantile(uniform_open01(seed, realisation, n));
     return q;
+  }
+
+  void PotentialModel::set_tilt_window(const unsigned int edge, const double untilted_share)
+  {
+    if (edge == 0)
+      {
+        windows_.reset();
+        return;
+      }
+    if (!law_)
+      throw InputError("sampling/tilt window needs a random law; potential/law = file gives one "
+                       "fixed potential");
+    if (!(untilted_share > 0.0 && untilted_share < 1.0))
+      throw InputError("sampling/untilted share: must lie strictly between 0 and 1");
+    windows_ = std::make_shared<const TiltWindows>(cells_, edge, untilted_share);
   }
 
 
@@ -398,6 +427,14 @@ namespace alloyspec
   {
     if (!tilted_law_)
       return 0.0;
+    if (windows_)
+      {
+        // Per-cell log ratios ln p/p_θ = θ q + ln M, then the exact mixture ratio.
+        std::vector<double> t(q.size());
+        for (std::size_t n = 0; n < q.size(); ++n)
+          t[n] = theta_ * q[n] + log_moment_;
+        return windows_->log_weight(t);
+      }
     // Neumaier's compensated sum of θ q_n + ln M over the cells.
     double sum = 0, compensation = 0;
     for (const double value : q)

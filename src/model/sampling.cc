@@ -49,6 +49,17 @@ namespace alloyspec
     prm.declare_entry("target energy", "", dealii::Patterns::Anything(),
                       "Energy (in the study's energy unit) whose IDS the automatic tilt "
                       "should estimate best; needed with tilt = auto. Empty: not set.");
+    prm.declare_entry("tilt window", "box", dealii::Patterns::Anything(),
+                      "box: method = tilted tilts every cell of the box. A whole number ℓ "
+                      "(1 to 100000): each realisation tilts only the cells of one window of ℓ "
+                      "cells per direction (fewer where the box is shorter), at a position inside "
+                      "the box drawn uniformly, or no cell at all with probability 'untilted share'; the "
+                      "weight is the exact ratio of the model law to this mixture (at most "
+                      "1/untilted share). Suits tails made by a local region of low cells in "
+                      "a long chain or a large box; needs tilt as a number.");
+    prm.declare_entry("untilted share", "0.2", dealii::Patterns::Double(0.01, 0.99),
+                      "With a tilt window: the share of realisations drawn untilted (0.01 to "
+                      "0.99); it bounds every weight by 1/share.");
     prm.declare_entry("pilot realisations", "40", dealii::Patterns::Integer(8, 10000),
                       "Realisations of the pilot that chooses tilt = auto (8 to 10000). "
                       "They are solved at trial tilts and not kept in the sample.");
@@ -63,7 +74,21 @@ namespace alloyspec
     const std::string tilt_text   = trimmed(prm.get("tilt"));
     const std::string target_text = trimmed(prm.get("target energy"));
     pilot_realisations        = static_cast<unsigned int>(prm.get_integer("pilot realisations"));
+    const std::string window_text = trimmed(prm.get("tilt window"));
+    untilted_share            = prm.get_double("untilted share");
     prm.leave_subsection();
+
+    tilt_window = 0;
+    if (window_text != "box")
+      {
+        double value = 0;
+        if (!parse_number(window_text, value) || value != std::floor(value) || value < 1 ||
+            value > 100000)
+          throw InputError("sampling/tilt window: '" + window_text +
+                           "' is not allowed; allowed are box or a whole number of cells from 1 "
+                           "to 100000");
+        tilt_window = static_cast<unsigned int>(value);
+      }
 
     automatic = false;
     tilt      = 0.0;
@@ -87,6 +112,9 @@ namespace alloyspec
                            "' is not allowed; allowed are auto or a number in [-1e6, 1e6]");
         tilt = value;
       }
+    if (method == SamplingMethod::tilted && automatic && tilt_window > 0)
+      throw InputError("sampling/tilt window: a window needs sampling/tilt as a number (the "
+                       "automatic choice tilts the whole box; allowed with tilt = auto: box)");
     if (method == SamplingMethod::tilted && automatic && !target_energy)
       throw InputError("sampling/target energy: must be set when sampling/method = tilted and "
                        "sampling/tilt = auto (or give sampling/tilt as a number)");

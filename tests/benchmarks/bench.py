@@ -14,11 +14,12 @@
      bandwidth and matrix-product rate (roofline_probe), the passes over the
      factor the solve made, the lower bound on its time that follows, and the
      measured time as a ratio to it;
-  6. the deep band tail (tilted sampling): the variance reduction at equal
-     solve time for N(E) ~ 1e-5 (3D, L = 6, binary alloy), the depth reached
-     (smallest N with a relative 95 % half-width <= 30 %) and its time in 1D
-     (200-cell chains) and 3D, the band-edge time per realisation against one
-     factorisation, and the 1D deep-tail Lifshitz exponent against 1/2;
+  6. the deep band tail (tilted sampling, of every cell and of windows): the
+     variance reduction at equal solve time for N(E) ~ 1e-5 (3D, L = 6, binary
+     alloy; and 1D), the depth reached (smallest N with a relative 95 %
+     half-width <= 30 %) and its time in 1D (200-cell chains) and 3D, the
+     band-edge time per realisation against one factorisation, and the 1D
+     deep-tail Lifshitz exponent against 1/2;
   7. the iterative eigen-solver (LOBPCG with algebraic multigrid): time and
      memory against the direct path by box size and the crossover between
      them, the growth of its time with the number of unknowns (L = 16 to 48),
@@ -507,122 +508,144 @@ def depth_reached(folder, boundary):
     return best
 
 
+def variance_ratio(work, tilted_name, plain_name, energies, volume, target=1e-5):
+    """At the grid energy whose tilted estimate is nearest @target (in log): the variance per
+    realisation of the tilted summands w N and of plain N (measured, and from the tilted sample as
+    E_p[N^2] - E_p[N]^2), the times per realisation, and the ratios at equal solve time."""
+    ts, tsec = read_weighted_counts(os.path.join(work, tilted_name), "dirichlet", energies, volume)
+    ps, psec = read_weighted_counts(os.path.join(work, plain_name), "dirichlet", energies, volume)
+    t_t, t_p = sum(tsec) / len(tsec), sum(psec) / len(psec)
+    best = None
+    for i in range(len(energies)):
+        m, v, m2 = weighted_moments(ts, i)
+        if m > 0 and (best is None or abs(math.log(m / target)) < abs(math.log(best[1] / target))):
+            best = (i, m, v, m2)
+    if best is None:
+        print(f"  {tilted_name}: no positive estimate on the grid")
+        return
+    i, m, v_t, m2 = best
+    pm, pv_direct, _ = weighted_moments(ps, i)
+    hits = sum(1 for _, n in ps if n[i] > 0)
+    pv_from_tilted = max(m2 - m * m, 0.0)
+    print(f"  {tilted_name} at E = {energies[i]:.3f}: N = {m:.3e} +- {math.sqrt(v_t / len(ts)):.2e} "
+          f"({len(ts)} realisations, {t_t:.3f} s each); plain N = {pm:.3e} ({hits} of {len(ps)} with a "
+          f"state, {t_p:.3f} s each)")
+    print(f"    variance per realisation: tilted {v_t:.3e}; plain {pv_direct:.3e} measured, "
+          f"{pv_from_tilted:.3e} from the tilted sample (E_p[N^2] - E_p[N]^2)")
+    for label, pv in (("measured plain variance", pv_direct), ("plain variance from the tilted sample", pv_from_tilted)):
+        if v_t > 0 and pv > 0:
+            ratio = (pv * t_p) / (v_t * t_t)
+            print(f"    variance ratio at equal solve time ({label}): {ratio:.1f}x "
+                  f"(GOAL >= 100x: {'MET' if ratio >= 100 else 'NOT met'})")
+        else:
+            print(f"    variance ratio at equal solve time ({label}): not measurable (a variance is 0)")
+
+
+def print_depth(work, name, boundary, unit):
+    d = depth_reached(os.path.join(work, name), boundary)
+    with open(os.path.join(work, name, "realisations.csv")) as f:
+        secs = sum(float(r["solve_seconds"]) for r in csv.DictReader(f) if r["boundary"] == boundary)
+    with open(os.path.join(work, name, "run.json")) as f:
+        m = json.load(f)
+    wall = sum(v for v in m["timings_seconds"].values() if isinstance(v, (int, float)))
+    print(f"  depth, {name}: " + (f"N = {d[1]:.2e} {unit} at E = {d[0]:.3f} (half-width {100 * d[2]:.0f} %, "
+                                  f"ESS {d[3]:.0f})" if d else "nothing resolved to 30 %") +
+          f"; solve time {secs:.0f} s, run phases {wall:.0f} s")
+
+
+def print_exponent(work, name):
+    with open(os.path.join(work, name, "deep_tail.json")) as f:
+        fit = json.load(f)["boundaries"]["dirichlet"]
+    a, b = fit["log_log_form"], fit["power_form_free_exponent"]
+    if not fit["fitted"]:
+        print(f"  deep-tail exponent, {name}: not fitted ({fit['reason']})")
+        return
+    def num(x):
+        return "nan" if x is None else f"{x:.3f}"
+    print(f"  deep-tail exponent, {name}: ln(-ln n) form {num(a['exponent'])} [{num(a['interval'][0])}, "
+          f"{num(a['interval'][1])}], free power form {num(b['exponent'])} [{num(b['interval'][0])}, "
+          f"{num(b['interval'][1])}] against 1/2 (GOAL within 10 %: "
+          f"{'MET' if a['exponent'] is not None and abs(a['exponent'] - 0.5) <= 0.05 else 'NOT met'}); window "
+          f"[{num(fit['window'][0])}, {num(fit['window'][1])}], {fit['points']} points, n from "
+          f"{fit['n_per_cell_range'][0]:.2e} to {fit['n_per_cell_range'][1]:.2e}; asymptotic: {fit['asymptotic']}")
+    for why in fit["not_asymptotic_because"]:
+        print(f"    not asymptotic: {why}")
+
+
 def deep_tail_goals(exe, work, quick):
     section("6. deep band tail: tilted sampling against plain sampling (measured side by side)")
     print(f"load average before: {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
     here = os.path.dirname(os.path.abspath(__file__))
     configs = os.path.join(here, "..", "..", "configs")
-    results = {}
-    # --- 3D, L = 6, the invented binary alloy of binary_alloy_band_edge.prm (30 % barriers of 2).
+    # --- 3D, the invented binary alloy of binary_alloy_band_edge.prm (30 % barriers of 2), Q2.
     L = 4 if quick else 6
     r3 = 150 if quick else 500
-    target = 1.3 if quick else 1.0
-    grid = "0.85 to 1.15 by 0.01" if not quick else "1.0 to 1.6 by 0.02"
-    cutoff = 1.15 if not quick else 1.6
+    # The cutoff must let the pilot's first level (tilt 0) see some eigenvalues.
+    target = 2.0 if quick else 1.0
+    grid = "0.85 to 1.3 by 0.01" if not quick else "1.8 to 2.6 by 0.02"
+    cutoff = 1.3 if not quick else 2.6
     alloy = [os.path.join(configs, "binary_alloy_band_edge.prm")]
     common3 = [f"lattice/cells={L},{L},{L}", "discretisation/elements per cell=1",
                "spectrum/boundary conditions=dirichlet", f"spectrum/energy cutoff={cutoff}",
                f"study/energies={grid}", "analysis/figure formats=", f"study/realisations={r3}"]
     volume3 = float(L ** 3)
-    t0 = time.perf_counter()
-    tilted3 = run_study(exe, work, "tail3d_tilted", common3 + ["sampling/method=tilted", "sampling/tilt=auto",
-                                                               f"sampling/target energy={target}",
-                                                               "study/seed=31"], cli=alloy)
-    wall_t3 = time.perf_counter() - t0
-    t0 = time.perf_counter()
-    plain3 = run_study(exe, work, "tail3d_plain", common3 + ["study/seed=32"], cli=alloy)
-    wall_p3 = time.perf_counter() - t0
+    run_study(exe, work, "tail3d_tilted", common3 + ["sampling/method=tilted", "sampling/tilt=auto",
+                                                     f"sampling/target energy={target}", "study/seed=31"], cli=alloy)
+    run_study(exe, work, "tail3d_plain", common3 + ["study/seed=32"], cli=alloy)
+    run_study(exe, work, "tail3d_window", common3 + ["sampling/method=tilted", "sampling/tilt=0.6",
+                                                     "sampling/tilt window=5", "study/seed=33"], cli=alloy)
     with open(os.path.join(work, "tail3d_tilted", "run.json")) as f:
         manifest3 = json.load(f)
-    theta3 = manifest3["sampling"]["tilt"]
-    pilot3 = manifest3["timings_seconds"].get("tilt_search", float("nan"))
-    energies3 = []
     with open(os.path.join(work, "tail3d_tilted", "tail.csv")) as f:
         energies3 = [float(r["energy"]) for r in csv.DictReader(f)]
-    ts, tsec = read_weighted_counts(os.path.join(work, "tail3d_tilted"), "dirichlet", energies3, volume3)
-    ps, psec = read_weighted_counts(os.path.join(work, "tail3d_plain"), "dirichlet", energies3, volume3)
-    t_t, t_p = sum(tsec) / len(tsec), sum(psec) / len(psec)
-    # The energy whose tilted estimate is nearest 1e-5 (in log), among positive ones.
-    best = None
-    for i, e in enumerate(energies3):
-        m, v, m2 = weighted_moments(ts, i)
-        if m > 0 and (best is None or abs(math.log(m / 1e-5)) < abs(math.log(best[1] / 1e-5))):
-            best = (i, m, v, m2)
-    i, m, v_t, m2 = best
-    e = energies3[i]
-    pm, pv_direct, _ = weighted_moments(ps, i)
-    hits = sum(1 for _, n in ps if n[i] > 0)
-    pv_from_tilted = max(m2 - m * m, 0.0)  # Var_p(N) = E_p[N^2] - E_p[N]^2, both estimated from the tilted sample
-    print(f"3D, L = {L}, {r3} realisations each, Dirichlet, band-edge mode (cutoff {cutoff}); automatic tilt "
-          f"theta = {theta3} for target {target} (pilot {pilot3:.0f} s)")
-    print(f"  time per realisation: plain {t_p:.3f} s, tilted {t_t:.3f} s (solve_seconds); study wall: plain "
-          f"{wall_p3:.0f} s, tilted {wall_t3:.0f} s including the pilot")
-    print(f"  at E = {e:.3f}: tilted N = {m:.3e} +- {math.sqrt(v_t / len(ts)):.2e}; plain N = {pm:.3e} "
-          f"({hits} of {len(ps)} realisations with a state)")
-    print(f"  per-realisation variance: tilted {v_t:.3e}; plain {pv_direct:.3e} measured, "
-          f"{pv_from_tilted:.3e} from the tilted sample (E_p[N^2] - E_p[N]^2)")
-    for label, pv in (("measured plain variance", pv_direct), ("plain variance from the tilted sample", pv_from_tilted)):
-        if v_t > 0 and pv > 0:
-            ratio = (pv * t_p) / (v_t * t_t)
-            print(f"  variance ratio at equal solve time ({label}): {ratio:.1f}x "
-                  f"(GOAL >= 100x: {'MET' if ratio >= 100 else 'NOT met'})")
-        else:
-            print(f"  variance ratio at equal solve time ({label}): not measurable (variance 0)")
-    results["3d"] = (e, m, v_t, pv_direct, pv_from_tilted, t_t, t_p)
-    for name, folder, secs, wall in (("tilted", "tail3d_tilted", sum(tsec), wall_t3),
-                                     ("plain", "tail3d_plain", sum(psec), wall_p3)):
-        d = depth_reached(os.path.join(work, folder), "dirichlet")
-        print(f"  depth, {name}: " + (f"N = {d[1]:.2e} at E = {d[0]:.3f} (half-width {100 * d[2]:.0f} %, "
-                                      f"ESS {d[3]:.0f})" if d else "nothing resolved to 30 %") +
-              f", solve time {secs:.0f} s, study wall {wall:.0f} s")
+    print(f"3D, L = {L}, {r3} realisations per study, Dirichlet, Q2, band-edge mode (cutoff {cutoff}); "
+          f"tail3d_tilted: automatic tilt theta = {manifest3['sampling']['tilt']} for target {target} "
+          f"(pilot {manifest3['timings_seconds'].get('tilt_search', float('nan')):.0f} s, not counted below); "
+          f"tail3d_window: theta = 0.6 on windows of 5 cells per direction, untilted share 0.2")
+    variance_ratio(work, "tail3d_tilted", "tail3d_plain", energies3, volume3)
+    variance_ratio(work, "tail3d_window", "tail3d_plain", energies3, volume3)
+    for name in ("tail3d_tilted", "tail3d_window", "tail3d_plain"):
+        print_depth(work, name, "dirichlet", "per unit volume")
     # Band-edge mode: time per realisation against one numeric factorisation.
-    per = manifest3.get("factor_work", {}).get("per_realisation", [])
+    per = []
+    for name in ("tail3d_tilted", "tail3d_plain"):
+        with open(os.path.join(work, name, "run.json")) as f:
+            per += json.load(f).get("factor_work", {}).get("per_realisation", [])
     zero = [p for p in per if p.get("solve_calls", 0) == 0]
     some = [p for p in per if p.get("solve_calls", 0) > 0]
-    def one_factor(p):
-        return p["factorisation_seconds"] / max(p["numeric_factorisations"], 1)
-    for label, group in (("no eigenvalue below the cutoff", zero), ("with eigenvalues", some)):
+    for label, group in (("no eigenvalue below the cutoff", zero), ("with eigenvalues below it", some)):
         if group:
             real = median([p["realisation_seconds"] for p in group if p.get("realisation_seconds") is not None] or [float("nan")])
-            fac = median([one_factor(p) for p in group])
+            fac = median([p["factorisation_seconds"] / max(p["numeric_factorisations"], 1) for p in group])
             print(f"  band-edge mode, {label}: {len(group)} realisations, median {real:.4f} s per realisation, "
                   f"one numeric factorisation {fac:.4f} s, ratio {real / fac:.1f}")
 
-    # --- 1D: chains of 200 cells (deep_tail_chain.prm), Dirichlet.
-    r1 = 500 if quick else 3000
+    # --- 1D: chains of 200 cells (deep_tail_chain.prm), Dirichlet, per cell.
+    r1 = 500 if quick else 2000
     chain = [os.path.join(configs, "deep_tail_chain.prm")]
-    common1 = ["spectrum/boundary conditions=dirichlet", "analysis/figure formats=", f"study/realisations={r1}"]
-    t0 = time.perf_counter()
-    run_study(exe, work, "tail1d_tilted", common1 + ["study/seed=41"], cli=chain)
-    wall_t1 = time.perf_counter() - t0
-    t0 = time.perf_counter()
+    common1 = ["spectrum/boundary conditions=dirichlet", "analysis/figure formats=", f"study/realisations={r1}",
+               "study/energies=0.005 to 0.4 by 0.005"]
     run_study(exe, work, "tail1d_plain", common1 + ["sampling/method=plain", "study/seed=42"], cli=chain)
-    wall_p1 = time.perf_counter() - t0
+    run_study(exe, work, "tail1d_tilted", common1 + ["study/seed=41"], cli=chain)
+    run_study(exe, work, "tail1d_window", common1 + ["sampling/tilt=1.0", "sampling/tilt window=30",
+                                                     "study/seed=43"], cli=chain)
     with open(os.path.join(work, "tail1d_tilted", "run.json")) as f:
         manifest1 = json.load(f)
-    print(f"1D, 200-cell chains (deep_tail_chain.prm), {r1} realisations each, Dirichlet; automatic tilt "
-          f"theta = {manifest1['sampling']['tilt']} (target {manifest1['sampling'].get('target_energy')})")
-    for name, folder, wall in (("tilted", "tail1d_tilted", wall_t1), ("plain", "tail1d_plain", wall_p1)):
-        d = depth_reached(os.path.join(work, folder), "dirichlet")
-        with open(os.path.join(work, folder, "realisations.csv")) as f:
-            secs = sum(float(r["solve_seconds"]) for r in csv.DictReader(f))
-        print(f"  depth, {name}: " + (f"N = {d[1]:.2e} per cell at E = {d[0]:.3f} (half-width {100 * d[2]:.0f} %, "
-                                      f"ESS {d[3]:.0f})" if d else "nothing resolved to 30 %") +
-              f", solve time {secs:.0f} s, study wall {wall:.0f} s")
-        with open(os.path.join(work, folder, "deep_tail.json")) as f:
-            fit = json.load(f)["boundaries"]["dirichlet"]
-        a = fit["log_log_form"]
-        b = fit["power_form_free_exponent"]
-        if fit["fitted"]:
-            print(f"  deep-tail exponent, {name}: ln(-ln n) form {a['exponent']:.3f} [{a['interval'][0]:.3f}, "
-                  f"{a['interval'][1]:.3f}], free power form {b['exponent']:.3f} [{b['interval'][0]:.3f}, "
-                  f"{b['interval'][1]:.3f}] against 1/2 (GOAL within 10 %: "
-                  f"{'MET' if abs(a['exponent'] - 0.5) <= 0.05 else 'NOT met'}); window {fit['window']}, "
-                  f"{fit['points']} points, asymptotic: {fit['asymptotic']} {fit['not_asymptotic_because']}")
-        else:
-            print(f"  deep-tail exponent, {name}: not fitted ({fit['reason']})")
+    with open(os.path.join(work, "tail1d_tilted", "tail.csv")) as f:
+        energies1 = [float(r["energy"]) for r in csv.DictReader(f)]
+    print(f"1D, 200-cell chains (deep_tail_chain.prm), {r1} realisations per study, Dirichlet, Q3; tail1d_tilted: "
+          f"automatic tilt theta = {manifest1['sampling']['tilt']} of every cell (target "
+          f"{manifest1['sampling'].get('target_energy')}); tail1d_window: theta = 1.0 on windows of 30 cells, "
+          f"untilted share 0.2")
+    variance_ratio(work, "tail1d_tilted", "tail1d_plain", energies1, 200.0)
+    variance_ratio(work, "tail1d_window", "tail1d_plain", energies1, 200.0)
+    variance_ratio(work, "tail1d_window", "tail1d_plain", energies1, 200.0, target=1e-8)
+    for name in ("tail1d_plain", "tail1d_tilted", "tail1d_window"):
+        print_depth(work, name, "dirichlet", "per cell")
+    for name in ("tail1d_plain", "tail1d_tilted", "tail1d_window"):
+        print_exponent(work, name)
     print("GOAL depth: N = 1e-8 per cell in 1D and 1e-6 in 3D with a 30 % half-width within one hour: compare "
-          "the depths above (reached in the solve times shown) with the targets")
+          "the depths above with the targets (solve times as printed)")
     print(f"load average after: {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
 
 

@@ -39,6 +39,13 @@ printf 'subsection study\n  set energies = 0:0.05:3\nend\n' > "$work/colon_grid.
 expect_error "'0 to 3 by 0.05'"   run "$work/colon_grid.prm" "${tiny[@]}" --output "$work/a"
 expect_error "'-1 to 2 by 0.5'"   run "${tiny[@]}" --set "study/energies=-1:0.5:2" --output "$work/a"
 expect_error "study/seed"         run "${tiny[@]}" --seed=-4 --output "$work/a"
+expect_error "'--memory-budget'"  run "${tiny[@]}" --memory-budget 0 --output "$work/a"
+# A target the budget cannot hold is refused with the estimate, before anything is solved for good.
+expect_error "finer than any candidate" run "${tiny[@]}" --set "lattice/cells=16" --set spectrum/eigenvalues=50 --set "discretisation/accuracy=1e-7" --output "$work/a"
+expect_error "(--memory-budget)"  run "${tiny[@]}" --set "discretisation/accuracy=1e-11" --memory-budget 0.3 --output "$work/a"
+expect_error "sampling/tilt window" run "${tiny[@]}" --set sampling/method=tilted --set sampling/tilt=0.3 --set "sampling/tilt window=2.5" --output "$work/a"
+expect_error "sampling/tilt window" run "${tiny[@]}" --set sampling/method=tilted --set sampling/tilt=auto --set "sampling/target energy=1" --set "sampling/tilt window=2" --output "$work/a"
+expect_error "untilted share"     run "${tiny[@]}" --set sampling/method=tilted --set sampling/tilt=0.3 --set "sampling/tilt window=2" --set "sampling/untilted share=1" --output "$work/a"
 expect_error "no such entry 'colour'"      run "${tiny[@]}" --set "lattice/colour=red" --output "$work/a"
 expect_error "section/entry=value" run "${tiny[@]}" --set "lattice" --output "$work/a"
 expect_error "does not exist"     run "$work/missing.prm" --output "$work/a"

@@ -22,4 +22,22 @@ grep -q "balance heuristic" "$work/merged.log" || fail "no note of the mixture: 
 for f in ids.csv tail.csv deep_tail.json report.html; do
   [ -f "$work/merged/$f" ] || fail "summarise wrote no $f"
 done
-echo "mixed tilts: summarise combined a plain and a tilted study"
+# Tilt windows: two windowed studies at different θ, and a windowed with a plain
+# one, are combined (each component is its study's own law); a resume with
+# another window is refused.
+w=(--set "lattice/cells=30" --set study/realisations=8 --set "study/energies=0.05 to 0.6 by 0.05"
+   --set "spectrum/energy cutoff=0.8" --set sampling/method=tilted --set "sampling/tilt window=10"
+   --set "analysis/figure formats=" --no-progress)
+"$exe" run "$config" "${w[@]}" --set sampling/tilt=0.5 --set study/seed=3 --output "$work/window_a" \
+  > "$work/window_a.log" 2>&1 || fail "windowed run: $(cat "$work/window_a.log")"
+"$exe" run "$config" "${w[@]}" --set sampling/tilt=1.0 --set study/seed=4 --output "$work/window_b" \
+  > "$work/window_b.log" 2>&1 || fail "windowed run: $(cat "$work/window_b.log")"
+"$exe" summarise "$work/window_a" "$work/window_b" --output "$work/window_merged" \
+  > "$work/window_merged.log" 2>&1 || fail "windowed studies not combined: $(cat "$work/window_merged.log")"
+"$exe" summarise "$work/window_a" "$work/plain" --output "$work/window_plain" > "$work/wp.log" 2>&1 \
+  || fail "windowed + plain not combined: $(cat "$work/wp.log")"
+grep -q "balance heuristic" "$work/wp.log" || fail "no note of the mixture: $(cat "$work/wp.log")"
+"$exe" run "$config" "${w[@]}" --set sampling/tilt=0.5 --set study/seed=3 --set "sampling/tilt window=12" \
+  --output "$work/window_a" --resume > "$work/wr.log" 2>&1
+[ $? -eq 2 ] && grep -q "tilt window" "$work/wr.log" || fail "resume with another window not refused: $(cat "$work/wr.log")"
+echo "mixed tilts: summarise combined a plain and a tilted study, two windowed ones, a windowed and a plain one"

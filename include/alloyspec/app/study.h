@@ -3,6 +3,7 @@
 
 #include <alloyspec/analysis/spectral_analysis.h>
 #include <alloyspec/app/study_model.h>
+#include <alloyspec/solver/discretisation_pilot.h>
 #include <alloyspec/solver/error_estimate.h>
 
 #include <cstdint>
@@ -37,6 +38,11 @@ namespace alloyspec
      * distributed over them (team.h). 1: every rank solves its own.
      */
     unsigned int ranks_per_realisation = 1;
+    /**
+     * `--memory-budget`: bytes one rank may use for the solve that
+     * `discretisation/accuracy` chooses; 0: default_memory_budget().
+     */
+    double memory_budget_bytes = 0;
     /** Effective parameters as JSON, copied into run.json. */
     std::string parameters_json;
     /** Effective parameters in deal.II's short format, stored as ResultsStore::parameters_file. */
@@ -115,8 +121,18 @@ namespace alloyspec
      */
     void choose_tilt(const ResultsStore &store, const RunOptions &options, bool root);
 
-    /** Pilot solve for `discretisation/accuracy`: sets degree and elements per cell. */
-    void choose_for_accuracy(bool root);
+    /**
+     * Pilot for `discretisation/accuracy` (choose_discretisation()): sets
+     * degree and elements per cell, within @p budget_bytes per rank.
+     */
+    void choose_for_accuracy(bool root, double budget_bytes);
+
+    /**
+     * Half the machine's physical memory, shared by the ranks on this node:
+     * room for the operating system, the other ranks and the tables, and a
+     * margin on the memory model (common practice, no source).
+     */
+    static double default_memory_budget();
 
     /** Writes the requested eigenfunctions of one solve as VTU (see StudySettings). */
     void export_eigenfunctions(std::uint64_t realisation, std::size_t boundary_index,

@@ -144,16 +144,25 @@ namespace alloyspec
     StoredStudy describe_stored(const std::string &directory, const std::string &parameters_prm,
                                 const std::vector<double> *grid = nullptr) const;
 
+    /** One study of a merge, as a component of the balance heuristic. */
+    struct TiltComponent
+    {
+      double       theta = 0;          ///< θ_k (0 for plain)
+      double       share = 0;          ///< n_k/n
+      unsigned int window = 0;         ///< `sampling/tilt window` (0: every cell)
+      double       untilted_share = 0; ///< `sampling/untilted share` (with a window)
+    };
+
     /**
      * Gives the realisations of @p stored (drawn by this model at its stored
      * tilt) their balance-heuristic weights over the studies of a merge
      * (balance_log_weight(), model/tilt_mixture.h): @p mixture lists each
-     * study's tilt θ_k (0 for plain) and share n_k/n. The cell values are
+     * study's sampling law (its tilt θ_k, 0 for plain, and its tilt window)
+     * and share n_k/n. The cell values are
      * regenerated, ℓ_k(q) computed at every θ_k, every record's log_weight and
      * the semiclassical sum replaced, and stored.tilt_mixture set.
      */
-    void apply_tilt_mixture(StoredStudy &stored,
-                            const std::vector<std::pair<double, double>> &mixture) const;
+    void apply_tilt_mixture(StoredStudy &stored, const std::vector<TiltComponent> &mixture) const;
 
     /**
      * What the analysis needs to know of the model (box, boundaries, energy

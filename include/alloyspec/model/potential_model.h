@@ -2,6 +2,7 @@
 #pragma once
 
 #include <alloyspec/model/single_site_laws.h>
+#include <alloyspec/model/tilt_window.h>
 
 #include <cstdint>
 #include <memory>
@@ -49,6 +50,9 @@ namespace alloyspec
   class PotentialModel
   {
   public:
+    /** The draw index (random_stream.h) of the uniform that picks a realisation's tilt window. */
+    static constexpr std::uint32_t window_draw = 0xfffffff0u;
+
     static void declare_parameters(dealii::ParameterHandler &prm);
     /** Reads subsection `potential`; for law = file also reads and checks the file. */
     void parse_parameters(dealii::ParameterHandler &prm, const Lattice &lattice);
@@ -73,8 +77,21 @@ namespace alloyspec
     void   set_tilt(double theta);
     double tilt() const { return theta_; }
     /**
+     * Tilt only the cells of one window of @p edge cells per direction, at a
+     * random position, or (with probability @p untilted_share) none: the
+     * defensive mixture of TiltWindows (tilt_window.h). @p edge = 0 restores
+     * the tilt of every cell. Kept across set_tilt(). The component of a
+     * realisation is drawn from its own uniform (draw window_draw of cell 0),
+     * so cell values stay a pure function of (seed, realisation, cell, tilt,
+     * window).
+     */
+    void set_tilt_window(unsigned int edge, double untilted_share);
+    /** The window edge in cells; 0 when the whole box is tilted. */
+    unsigned int tilt_window() const { return windows_ ? windows_->edge() : 0; }
+    /**
      * @f$\ln w = \ln\prod_n p(q_n)/p_\theta(q_n) = \theta\sum_n q_n + N\ln M(\theta)@f$
-     * of values @p q drawn by cell_values() (the law's units); exactly 0 for
+     * of values @p q drawn by cell_values() (the law's units); with a tilt
+     * window the exact mixture ratio of TiltWindows::log_weight(); exactly 0 for
      * plain sampling. The sum is compensated (Neumaier), so that ln w keeps
      * full precision when θΣq and N ln M nearly cancel.
      */
@@ -106,6 +123,10 @@ namespace alloyspec
     double                               log_moment_ = 0;
     std::vector<double>                  fixed_values_;
     std::size_t                          n_cells_ = 0;
+    /** Cells per direction of the lattice (for the windows). */
+    std::vector<unsigned int>            cells_;
+    /** Set by set_tilt_window() with an edge ≥ 1. */
+    std::shared_ptr<const TiltWindows>   windows_;
     /** Where fixed values came from (for description()). */
     std::string                          fixed_source_;
   };

@@ -33,7 +33,11 @@ namespace alloyspec
    *   (θ > 0 favours low cell values, i.e. the band bottom);
    * - `target energy` = E in the study's energy unit, for `tilt = auto`: the
    *   tilt is chosen by a short pilot to estimate N(E) best (tilt_choice.h);
-   * - `pilot realisations`: size of that pilot.
+   * - `pilot realisations`: size of that pilot;
+   * - `tilt window` = box | ℓ: tilt every cell, or only a window of ℓ cells
+   *   per direction at a random position (a defensive mixture with the
+   *   untilted law, tilt_window.h); a window needs a given θ;
+   * - `untilted share` = α in [0.01, 0.99]: the mixture's untilted share.
    */
   struct SamplingSettings
   {
@@ -43,6 +47,14 @@ namespace alloyspec
     double                tilt      = 0.0;
     std::optional<double> target_energy;
     unsigned int          pilot_realisations = 40;
+    /**
+     * `tilt window`: box (0, every cell tilted) or the edge ℓ ≥ 1 in cells of
+     * the window that one realisation tilts, at a random position, in the
+     * defensive mixture of TiltWindows (tilt_window.h).
+     */
+    unsigned int          tilt_window = 0;
+    /** `untilted share`: the mixture's share α of untilted realisations (window only). */
+    double                untilted_share = 0.2;
 
     static void declare_parameters(dealii::ParameterHandler &prm);
     /** Reads subsection `sampling`; InputError naming the entry on bad input. */

@@ -124,26 +124,4 @@ namespace alloyspec
   /** Degree p+1 (RicherSpace::degree) or 2r elements per cell (RicherSpace::mesh). */
   DiscretisationSettings richer_settings(const DiscretisationSettings &coarse, RicherSpace space);
 
-  /** Outcome of the pilot solve that picks degree and elements per cell for a target accuracy. */
-  struct DiscretisationChoice
-  {
-    DiscretisationSettings settings;
-    double                 achieved = 0; ///< max relative error bound of realisation 0
-    bool                   met      = false;
-    std::string            log;          ///< one line per candidate tried
-  };
-
-  /**
-   * Pilot: solves realisation 0 (values @p cell_values, first boundary condition)
-   * for candidates of increasing cost — degree p, p+1, …, 4 with the given r,
-   * then r doubled, up to r = 8 — until the largest relative error bound
-   * @f$\mathrm{err}_i/\max(|\lambda_i|,1)@f$ of all eigenvalues asked for meets
-   * @p target. Returns the first candidate that does (or the last tried).
-   */
-  DiscretisationChoice choose_discretisation(const Lattice &lattice,
-                                             const DiscretisationSettings &start,
-                                             const BoundaryConditions &bcs,
-                                             const EigenSolverSettings &solver,
-                                             const std::vector<double> &cell_values,
-                                             double target);
 } // namespace alloyspec

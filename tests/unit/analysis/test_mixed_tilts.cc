@@ -54,12 +54,13 @@ namespace
    * combination is not), so the interval can only be conservative: its
    * coverage must reach 93 %.
    */
-  TEST(MixedTilts, BalanceHeuristicEstimateIsUnbiasedAndCovers)
+  void check_plain_and_tilted_combined(const unsigned int window)
   {
     const Lattice  lattice(std::vector<unsigned int>{chain_cells});
     PotentialModel plain, tilted;
     plain.set_law(make_bernoulli_law(concentration, barrier, 0.0), lattice);
     tilted.set_law(make_bernoulli_law(concentration, barrier, 0.0), lattice);
+    tilted.set_tilt_window(window, 0.2);
     tilted.set_tilt(strong_tilt);
 
     std::vector<std::size_t> count(1u << chain_cells);
@@ -110,4 +111,14 @@ namespace
     const double spread = std::sqrt(std::max(0.0, mean_sq - mean * mean));
     EXPECT_NEAR(mean, exact, 4 * spread / std::sqrt(double(repetitions)));
   }
+
+  TEST(MixedTilts, BalanceHeuristicEstimateIsUnbiasedAndCovers) { check_plain_and_tilted_combined(0); }
+
+  /**
+   * The same with the tilted study drawn with tilt windows of 4 cells (an
+   * untilted share of 0.2): its component of the balance heuristic is its own
+   * window mixture (PotentialModel::log_weight with the window), as summarise
+   * builds it (StudyModel::apply_tilt_mixture).
+   */
+  TEST(MixedTilts, PlainAndWindowedStudiesCombined) { check_plain_and_tilted_combined(4); }
 } // namespace
