@@ -171,7 +171,6 @@ namespace alloyspec
             choice.achieved = c.bound;
             if (c.study_box.bytes > budget_bytes)
               {
-                choice.candidates = candidates;
                 throw InputError(
                   "parameter 'discretisation/accuracy' = " + short_number(target, 3) +
                   ": the cheapest space that meets it, degree " + std::to_string(p) + " with " +
