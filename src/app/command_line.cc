@@ -551,7 +551,8 @@ end
                         {
                           const auto &sj = models[j].sampling();
                           mixture.push_back({tilts[j], double(sizes[j]) / double(total.at(box_of(k))),
-                                             sj.is_tilted() ? sj.tilt_window : 0u, sj.untilted_share});
+                                             sj.is_tilted() ? sj.tilt_window : 0u, sj.untilted_share,
+                                             sj.tilt_shape});
                         }
                     model.apply_tilt_mixture(stored[k], mixture);
                     ++k;

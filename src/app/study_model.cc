@@ -123,6 +123,7 @@ namespace alloyspec
         if (!potential_.is_random())
           throw InputError("sampling/method = tilted needs a random law; potential/law = file "
                            "gives one fixed potential (use sampling/method = plain)");
+        potential_.set_tilt_shape(sampling_.tilt_shape);
         if (!sampling_.automatic)
           potential_.set_tilt(sampling_.tilt);
         potential_.set_tilt_window(sampling_.tilt_window, sampling_.untilted_share);
@@ -431,6 +432,7 @@ namespace alloyspec
       {
         // Each component is that study's own sampling law: its θ and its windows.
         components.push_back(potential_);
+        components.back().set_tilt_shape(c.shape);
         components.back().set_tilt_window(c.theta != 0.0 ? c.window : 0, c.untilted_share);
         components.back().set_tilt(c.theta);
         shares.push_back(c.share);

@@ -72,8 +72,7 @@ namespace alloyspec
           {
             const std::uint64_t r = first_pilot_realisation + level * pilot + p;
             const std::vector<double> q_user = model_.potential().cell_values(model_.study().seed, r);
-            samples[p].mean_cell_value =
-              std::accumulate(q_user.begin(), q_user.end(), 0.0) / q_user.size();
+            samples[p].mean_cell_value = model_.potential().profile_mean(q_user);
             samples[p].log_weight = model_.potential().log_weight(q_user);
             discretisations_[0]->assemble_potential(model_.units().to_solver_energies(q_user),
                                                     *problems_[0]);
@@ -95,7 +94,8 @@ namespace alloyspec
           if (scores[p] <= level_energy)
             elite.push_back(samples[p]);
         reached = level_energy <= target;
-        const double next = cross_entropy_tilt(*model_.potential().law(), elite, max_tilt);
+        const double next = cross_entropy_tilt(*model_.potential().law(), elite, max_tilt,
+                                               &model_.potential().tilt_profile());
         log << "level " << level << ": tilt " << theta << ", elite " << elite.size() << " of "
             << pilot << " with lowest eigenvalue <= " << model_.units().to_user_energy(level_energy)
             << ", next tilt " << next << "; ";

@@ -338,12 +338,13 @@ namespace alloyspec
     if (!law)
       throw std::invalid_argument("PotentialModel::set_law: null law");
     law_     = std::move(law);
-    tilted_law_.reset();
-    theta_ = log_moment_ = 0;
+    levels_.clear();
+    theta_   = 0;
     n_cells_ = lattice.n_cells();
     cells_   = lattice.cells();
     windows_.reset();
     fixed_values_.clear();
+    rebuild_tilt();
     fixed_source_.clear();
   }
 
@@ -355,8 +356,9 @@ namespace alloyspec
                                   std::to_string(values.size()) + " values for " +
                                   std::to_string(lattice.n_cells()) + " cells");
     law_.reset();
-    tilted_law_.reset();
-    theta_ = log_moment_ = 0;
+    levels_.clear();
+    theta_ = 0;
+    profile_.reset();
     fixed_values_ = std::move(values);
     n_cells_      = fixed_values_.size();
     fixed_source_ = "given values";
@@ -372,22 +374,35 @@ namespace alloyspec
           throw std::logic_error("PotentialModel::cell_values: no law and no values set");
         return fixed_values_;
       }
-    const SingleSiteLaw &law = *sampling_law();
-    std::vector<double>  q(n_cells_);
-    if (windows_ && tilted_law_)
+    std::vector<double> q(n_cells_);
+    if (levels_.empty())
+      {
+        for (std::size_t n = 0; n < n_cells_; ++n)
+          q[n] = law_->quantile(uniform_open01(seed, realisation, n));
+        return q;
+      }
+    // Cell n keeps its own uniform under every law (a monotone coupling); only
+    // the law it is mapped through depends on the tilt and the window.
+    const auto tilted = [&](const std::size_t n, const std::size_t j) {
+      return levels_[profile_->level(j)].law->quantile(uniform_open01(seed, realisation, n));
+    };
+    if (windows_)
       {
         // The mixture component from its own uniform, then each cell from its
         // uniform as always: tilted inside the window, from the model law outside.
         const long window = windows_->component(uniform_open01(seed, realisation, 0, window_draw));
         for (std::size_t n = 0; n < n_cells_; ++n)
-          {
-            const bool tilted = window >= 0 && windows_->contains(std::size_t(window), n);
-            q[n] = (tilted ? *tilted_law_ : *law_).quantile(uniform_open01(seed, realisation, n));
-          }
+          q[n] = law_->quantile(uniform_open01(seed, realisation, n));
+        if (window >= 0)
+          for (std::size_t j = 0; j < windows_->window_size(); ++j)
+            {
+              const std::size_t n = windows_->cell(std::size_t(window), j);
+              q[n]                = tilted(n, j);
+            }
         return q;
       }
     for (std::size_t n = 0; n < n_cells_; ++n)
-      q[n] = law.quantile(uniform_open01(seed, realisation, n));
+      q[n] = tilted(n, n);
     return q;
   }
 
@@ -396,6 +411,7 @@ namespace alloyspec
     if (edge == 0)
       {
         windows_.reset();
+        rebuild_tilt();
         return;
       }
     if (!law_)
@@ -404,6 +420,7 @@ namespace alloyspec
     if (!(untilted_share > 0.0 && untilted_share < 1.0))
       throw InputError("sampling/untilted share: must lie strictly between 0 and 1");
     windows_ = std::make_shared<const TiltWindows>(cells_, edge, untilted_share);
+    rebuild_tilt();
   }
 
 
@@ -412,34 +429,84 @@ namespace alloyspec
     if (!law_)
       throw InputError("sampling/method = tilted needs a random law; potential/law = file gives "
                        "one fixed potential (use sampling/method = plain)");
-    tilted_law_.reset();
-    theta_ = log_moment_ = 0;
-    if (theta == 0.0)
+    theta_ = theta;
+    rebuild_tilt();
+  }
+
+
+  void PotentialModel::set_tilt_shape(const TiltShape shape)
+  {
+    shape_ = shape;
+    if (law_)
+      rebuild_tilt();
+  }
+
+
+  void PotentialModel::rebuild_tilt()
+  {
+    profile_ = std::make_shared<const TiltProfile>(windows_ ? windows_->window_extent() : cells_, shape_);
+    levels_.clear();
+    if (theta_ == 0.0)
       return;
-    TiltedLaw tilted = law_->tilted(theta);
-    tilted_law_      = std::move(tilted.law);
-    theta_           = tilted.theta;
-    log_moment_      = tilted.log_moment;
+    double base = theta_;
+    for (const double phi : profile_->levels())
+      {
+        TiltedLaw tilted = law_->tilted(theta_ * phi);
+        if (phi == 1.0)
+          base = tilted.theta; // the law's own θ (it may round a tilt it cannot represent)
+        levels_.push_back({std::move(tilted.law), tilted.theta, tilted.log_moment});
+      }
+    theta_ = base;
+  }
+
+
+  double PotentialModel::profile_mean(const std::vector<double> &q) const
+  {
+    if (windows_ || q.size() != n_cells_)
+      throw std::logic_error("PotentialModel::profile_mean: a box tilt and one value per cell are needed");
+    const TiltProfile box(cells_, shape_);
+    double            sum = 0, norm = 0;
+    for (std::size_t n = 0; n < q.size(); ++n)
+      sum += box.value(n) * q[n], norm += box.value(n);
+    return sum / norm;
   }
 
 
   double PotentialModel::log_weight(const std::vector<double> &q) const
   {
-    if (!tilted_law_)
+    if (levels_.empty())
       return 0.0;
-    if (windows_)
+    const auto ratio = [&](const std::size_t n, const std::size_t j) {
+      const TiltLevel &level = levels_[profile_->level(j)];
+      return level.theta * q[n] + level.log_moment;
+    };
+    if (windows_ && shape_ == TiltShape::flat)
       {
         // Per-cell log ratios ln p/p_θ = θ q + ln M, then the exact mixture ratio.
         std::vector<double> t(q.size());
         for (std::size_t n = 0; n < q.size(); ++n)
-          t[n] = theta_ * q[n] + log_moment_;
+          t[n] = ratio(n, 0);
         return windows_->log_weight(t);
       }
-    // Neumaier's compensated sum of θ q_n + ln M over the cells.
-    double sum = 0, compensation = 0;
-    for (const double value : q)
+    if (windows_)
       {
-        const double term = theta_ * value + log_moment_;
+        // ℓ_c with the tilts of window c's own cells (position in the window
+        // decides the level), then the exact mixture ratio.
+        std::vector<double> ell(windows_->count());
+        for (std::size_t c = 0; c < ell.size(); ++c)
+          {
+            double sum = 0;
+            for (std::size_t j = 0; j < windows_->window_size(); ++j)
+              sum += ratio(windows_->cell(c, j), j);
+            ell[c] = sum;
+          }
+        return windows_->mixture_log_weight(ell);
+      }
+    // Neumaier's compensated sum of θ_n q_n + ln M(θ_n) over the cells.
+    double sum = 0, compensation = 0;
+    for (std::size_t n = 0; n < q.size(); ++n)
+      {
+        const double term = ratio(n, n);
         const double t    = sum + term;
         compensation += std::abs(sum) >= std::abs(term) ? (sum - t) + term : (term - t) + sum;
         sum = t;

@@ -60,6 +60,13 @@ namespace alloyspec
     prm.declare_entry("untilted share", "0.2", dealii::Patterns::Double(0.01, 0.99),
                       "With a tilt window: the share of realisations drawn untilted (0.01 to "
                       "0.99); it bounds every weight by 1/share.");
+    prm.declare_entry("tilt shape", "flat", dealii::Patterns::Selection("flat|lowest mode"),
+                      "How the tilt is spread over the tilted cells (the box, or the window). "
+                      "flat: every tilted cell by θ. lowest mode: cell j by θ·φ_j, where φ is "
+                      "the lowest mode of the empty box (or window) with walls, "
+                      "∏ sin²(π x_i / s_i) integrated over each cell and scaled to 1 in the "
+                      "centre: cells where a band-edge state lives are tilted most, cells by "
+                      "the walls hardly at all. The weights stay exact either way.");
     prm.declare_entry("pilot realisations", "40", dealii::Patterns::Integer(8, 10000),
                       "Realisations of the pilot that chooses tilt = auto (8 to 10000). "
                       "They are solved at trial tilts and not kept in the sample.");
@@ -76,6 +83,7 @@ namespace alloyspec
     pilot_realisations        = static_cast<unsigned int>(prm.get_integer("pilot realisations"));
     const std::string window_text = trimmed(prm.get("tilt window"));
     untilted_share            = prm.get_double("untilted share");
+    tilt_shape = prm.get("tilt shape") == "lowest mode" ? TiltShape::lowest_mode : TiltShape::flat;
     prm.leave_subsection();
 
     tilt_window = 0;

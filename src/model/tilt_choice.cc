@@ -11,12 +11,24 @@ namespace alloyspec
 {
   namespace
   {
-    /** E_θ[q], or NaN when the law cannot be tilted that far. */
-    double tilted_mean(const SingleSiteLaw &law, const double theta)
+    /**
+     * Σ_l c_l φ_l E_{θφ_l}[q] / Σ_l c_l φ_l (E_θ[q] without a profile), or NaN
+     * when the law cannot be tilted that far.
+     */
+    double tilted_mean(const SingleSiteLaw &law, const double theta, const TiltProfile *profile)
     {
       try
         {
-          return law.tilted(theta).law->mean();
+          if (!profile)
+            return law.tilted(theta).law->mean();
+          double sum = 0, norm = 0;
+          for (std::size_t l = 0; l < profile->levels().size(); ++l)
+            {
+              const double weight = double(profile->multiplicities()[l]) * profile->levels()[l];
+              sum += weight * law.tilted(theta * profile->levels()[l]).law->mean();
+              norm += weight;
+            }
+          return sum / norm;
         }
       catch (const InputError &)
         {
@@ -26,7 +38,7 @@ namespace alloyspec
   } // namespace
 
   double cross_entropy_tilt(const SingleSiteLaw &law, const std::vector<PilotSample> &elite,
-                            const double max_abs_tilt)
+                            const double max_abs_tilt, const TiltProfile *profile)
   {
     if (elite.empty())
       throw std::invalid_argument("cross_entropy_tilt: no elite sample");
@@ -49,7 +61,7 @@ namespace alloyspec
     if (wanted < m0)
       for (double t = 1e-3; t <= max_abs_tilt; t *= 2)
         {
-          const double m = tilted_mean(law, t);
+          const double m = tilted_mean(law, t, profile);
           if (std::isnan(m))
             break;
           hi = t;
@@ -59,7 +71,7 @@ namespace alloyspec
     else
       for (double t = 1e-3; t <= max_abs_tilt; t *= 2)
         {
-          const double m = tilted_mean(law, -t);
+          const double m = tilted_mean(law, -t, profile);
           if (std::isnan(m))
             break;
           lo = -t;
@@ -70,7 +82,7 @@ namespace alloyspec
     for (int i = 0; i < 60 && hi - lo > 1e-12 * std::max(1.0, std::abs(hi)); ++i)
       {
         const double middle = 0.5 * (lo + hi);
-        const double m      = tilted_mean(law, middle);
+        const double m      = tilted_mean(law, middle, profile);
         if (std::isnan(m))
           break;
         if (m > wanted)

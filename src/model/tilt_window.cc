@@ -82,13 +82,20 @@ namespace alloyspec
         shape[i] = corners;
         below *= corners;
       }
+    return mixture_log_weight(sums);
+  }
+
+  double TiltWindows::mixture_log_weight(const std::vector<double> &ell) const
+  {
+    if (ell.size() != count_)
+      throw std::invalid_argument("TiltWindows::mixture_log_weight: one log ratio per window is needed");
     // −ln(α + (1 − α)/K Σ_c e^{−ℓ_c}) as a log-sum-exp over the K + 1 terms.
     std::vector<double> terms;
     terms.reserve(count_ + 1);
     terms.push_back(std::log(alpha_));
     const double log_share = std::log1p(-alpha_) - std::log(double(count_));
-    for (const double ell : sums)
-      terms.push_back(log_share - ell);
+    for (const double x : ell)
+      terms.push_back(log_share - x);
     const double top = *std::max_element(terms.begin(), terms.end());
     if (!std::isfinite(top))
       throw std::invalid_argument("TiltWindows::log_weight: log ratios must be finite");
@@ -96,5 +103,33 @@ namespace alloyspec
     for (const double x : terms)
       s += std::exp(x - top);
     return -(top + std::log(s));
+  }
+
+  std::size_t TiltWindows::cell(const std::size_t c, const std::size_t j) const
+  {
+    std::size_t a = c, b = j, n = 0, stride = 1;
+    for (const unsigned int l : cells_)
+      {
+        const unsigned int s = span(l), corners = l - s + 1;
+        n += (a % corners + b % s) * stride;
+        a /= corners, b /= s, stride *= l;
+      }
+    return n;
+  }
+
+  std::size_t TiltWindows::window_size() const
+  {
+    std::size_t n = 1;
+    for (const unsigned int l : cells_)
+      n *= span(l);
+    return n;
+  }
+
+  std::vector<unsigned int> TiltWindows::window_extent() const
+  {
+    std::vector<unsigned int> extent;
+    for (const unsigned int l : cells_)
+      extent.push_back(span(l));
+    return extent;
   }
 } // namespace alloyspec

@@ -151,6 +151,7 @@ namespace alloyspec
       double       share = 0;          ///< n_k/n
       unsigned int window = 0;         ///< `sampling/tilt window` (0: every cell)
       double       untilted_share = 0; ///< `sampling/untilted share` (with a window)
+      TiltShape    shape = TiltShape::flat; ///< `sampling/tilt shape`
     };
 
     /**

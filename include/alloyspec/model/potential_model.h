@@ -2,6 +2,7 @@
 #pragma once
 
 #include <alloyspec/model/single_site_laws.h>
+#include <alloyspec/model/tilt_profile.h>
 #include <alloyspec/model/tilt_window.h>
 
 #include <cstdint>
@@ -77,6 +78,26 @@ namespace alloyspec
     void   set_tilt(double theta);
     double tilt() const { return theta_; }
     /**
+     * How the tilt is spread over the tilted cells (tilt_profile.h): flat
+     * (every cell by θ, the default) or following the lowest mode of the
+     * empty tilted region (the box, or the window), cell j by θ φ_j. Kept
+     * across set_tilt() and set_tilt_window().
+     */
+    void      set_tilt_shape(TiltShape shape);
+    TiltShape tilt_shape() const { return shape_; }
+    /**
+     * The relative tilts of the tilted region: the box, or one window (cells
+     * numbered inside the window).
+     */
+    const TiltProfile &tilt_profile() const { return *profile_; }
+    /**
+     * @f$\sum_n \varphi_n q_n / \sum_n \varphi_n@f$ over the cells of the box
+     * with the relative tilts of the box (the mean cell value when flat): the
+     * statistic the cross-entropy update matches (tilt_choice.h). Only for
+     * a tilt of the whole box.
+     */
+    double profile_mean(const std::vector<double> &q) const;
+    /**
      * Tilt only the cells of one window of @p edge cells per direction, at a
      * random position, or (with probability @p untilted_share) none: the
      * defensive mixture of TiltWindows (tilt_window.h). @p edge = 0 restores
@@ -89,18 +110,14 @@ namespace alloyspec
     /** The window edge in cells; 0 when the whole box is tilted. */
     unsigned int tilt_window() const { return windows_ ? windows_->edge() : 0; }
     /**
-     * @f$\ln w = \ln\prod_n p(q_n)/p_\theta(q_n) = \theta\sum_n q_n + N\ln M(\theta)@f$
+     * @f$\ln w = \ln\prod_n p(q_n)/p_{\theta_n}(q_n) = \sum_n \theta_n q_n + \ln M(\theta_n)@f$,
+     * @f$\theta_n = \theta\varphi_n@f$ (θ_n = θ when flat),
      * of values @p q drawn by cell_values() (the law's units); with a tilt
      * window the exact mixture ratio of TiltWindows::log_weight(); exactly 0 for
      * plain sampling. The sum is compensated (Neumaier), so that ln w keeps
      * full precision when θΣq and N ln M nearly cancel.
      */
     double log_weight(const std::vector<double> &q) const;
-    /** The law cell values are drawn from (the tilted one after set_tilt()). */
-    const SingleSiteLaw *sampling_law() const
-    {
-      return tilted_law_ ? tilted_law_.get() : law_.get();
-    }
 
     bool                 is_random() const { return law_ != nullptr; }
     const SingleSiteLaw *law() const { return law_.get(); }
@@ -117,10 +134,21 @@ namespace alloyspec
 
   private:
     std::shared_ptr<const SingleSiteLaw> law_;
-    /** Set by set_tilt() with θ ≠ 0, with θ and ln M(θ). */
-    std::shared_ptr<const SingleSiteLaw> tilted_law_;
-    double                               theta_      = 0;
-    double                               log_moment_ = 0;
+    /** The law tilted by θ φ_l for one level l of the profile. */
+    struct TiltLevel
+    {
+      std::shared_ptr<const SingleSiteLaw> law;
+      double                               theta      = 0; ///< θ φ_l
+      double                               log_moment = 0; ///< ln M(θ φ_l)
+    };
+    /** Set by set_tilt() with θ ≠ 0: one tilted law per level of profile_. */
+    std::vector<TiltLevel>               levels_;
+    double                               theta_ = 0;
+    TiltShape                            shape_ = TiltShape::flat;
+    /** The relative tilts of the box or of one window. */
+    std::shared_ptr<const TiltProfile>   profile_;
+    /** Rebuilds profile_ and levels_ from θ, the shape and the windows. */
+    void                                 rebuild_tilt();
     std::vector<double>                  fixed_values_;
     std::size_t                          n_cells_ = 0;
     /** Cells per direction of the lattice (for the windows). */

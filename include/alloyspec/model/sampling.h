@@ -1,6 +1,8 @@
 /** @file sampling.h  Subsection `sampling`: plain or tilted (importance) sampling of realisations. */
 #pragma once
 
+#include <alloyspec/model/tilt_profile.h>
+
 #include <optional>
 #include <string>
 
@@ -37,7 +39,9 @@ namespace alloyspec
    * - `tilt window` = box | ℓ: tilt every cell, or only a window of ℓ cells
    *   per direction at a random position (a defensive mixture with the
    *   untilted law, tilt_window.h); a window needs a given θ;
-   * - `untilted share` = α in [0.01, 0.99]: the mixture's untilted share.
+   * - `untilted share` = α in [0.01, 0.99]: the mixture's untilted share;
+   * - `tilt shape` = flat | lowest mode: every tilted cell by θ, or cell j of
+   *   the tilted region (box or window) by θ φ_j (tilt_profile.h).
    */
   struct SamplingSettings
   {
@@ -55,6 +59,8 @@ namespace alloyspec
     unsigned int          tilt_window = 0;
     /** `untilted share`: the mixture's share α of untilted realisations (window only). */
     double                untilted_share = 0.2;
+    /** `tilt shape`. */
+    TiltShape             tilt_shape = TiltShape::flat;
 
     static void declare_parameters(dealii::ParameterHandler &prm);
     /** Reads subsection `sampling`; InputError naming the entry on bad input. */

@@ -2,6 +2,7 @@
 #pragma once
 
 #include <alloyspec/model/single_site_laws.h>
+#include <alloyspec/model/tilt_profile.h>
 
 #include <vector>
 
@@ -10,7 +11,11 @@ namespace alloyspec
   /** One pilot realisation, as the cross-entropy update needs it. */
   struct PilotSample
   {
-    /** Mean cell value @f$\bar q = \frac1N\sum_n q_n@f$ (the law's units). */
+    /**
+     * @f$\bar q_\varphi = \sum_n \varphi_n q_n / \sum_n \varphi_n@f$ with the
+     * relative tilts φ of the box (PotentialModel::profile_mean()): the mean
+     * cell value when the tilt is flat (the law's units).
+     */
     double mean_cell_value = 0;
     /** ln w of the realisation relative to the model law (PotentialModel::log_weight()). */
     double log_weight = 0;
@@ -26,7 +31,16 @@ namespace alloyspec
    * for θ by bisection (the tilted mean falls strictly with θ), within
    * |θ| ≤ @p max_abs_tilt and the tilts the law can represent. @p elite must
    * not be empty.
+   *
+   * With a shaped tilt (cell n drawn from @f$p_{\theta\varphi_n}@f$, @p profile
+   * given), the same maximisation over θ: since
+   * @f$\partial_\theta \ln p_{\theta\varphi}(q) = \varphi(\mathbb{E}_{\theta\varphi}[q] - q)@f$,
+   * the optimum solves
+   * @f$\sum_l c_l\varphi_l\,\mathbb{E}_{\theta\varphi_l}[q] / \sum_l c_l\varphi_l
+   *    = \sum_r w_r \bar q_{\varphi,r} / \sum_r w_r@f$
+   * over the levels l of the profile (c_l cells each), whose left side also
+   * falls strictly with θ. A flat profile gives the rule above.
    */
   double cross_entropy_tilt(const SingleSiteLaw &law, const std::vector<PilotSample> &elite,
-                            double max_abs_tilt);
+                            double max_abs_tilt, const TiltProfile *profile = nullptr);
 } // namespace alloyspec

@@ -70,6 +70,26 @@ namespace alloyspec
      */
     double log_weight(const std::vector<double> &t) const;
 
+    /**
+     * The global cell index of cell @p j of window @p c, with j numbered
+     * inside the window (first direction fastest, @f$s_i@f$ cells per
+     * direction): the window's corner plus j, direction by direction.
+     */
+    std::size_t cell(std::size_t c, std::size_t j) const;
+
+    /** Cells of one window: @f$\prod_i s_i@f$. */
+    std::size_t window_size() const;
+
+    /** Cells per direction of one window: @f$s_i = \min(\ell, L_i)@f$. */
+    std::vector<unsigned int> window_extent() const;
+
+    /**
+     * @f$\ln w = -\ln\big(\alpha + \frac{1-\alpha}{K}\sum_c e^{-\ell_c}\big)@f$
+     * from the K window log ratios @p ell (ℓ_c of the window's own tilts,
+     * whatever their shape), as a log-sum-exp so that no term overflows.
+     */
+    double mixture_log_weight(const std::vector<double> &ell) const;
+
   private:
     std::vector<unsigned int> cells_;
     std::size_t               n_cells_ = 0;

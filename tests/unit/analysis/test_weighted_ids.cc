@@ -12,6 +12,8 @@
 
 #include <cmath>
 #include <cstdint>
+#include <iostream>
+#include <string>
 #include <vector>
 
 namespace
@@ -63,34 +65,44 @@ namespace
     return bits;
   }
 
-  /**
-   * The issue's exactness check: E[N_L(E)] is the finite sum over all 2^12
-   * configurations of p(config) · #{λ < E}/12, with each count from the
-   * test-side Sturm counter (exact transfer matrices; Coddington & Levinson
-   * ch. 8). Over 2000 seeds the 95 % intervals of the tilted estimate must
-   * cover it 93–97 % of the time.
-   */
-  TEST(WeightedIds, TiltedEstimateIsUnbiasedAndItsIntervalsCover)
+  /** E[N_L(E)] per cell and the count of every configuration. */
+  struct ExactTail
   {
-    std::vector<std::size_t> count(1u << chain_cells);
-    double                   exact = 0;
-    for (unsigned int bits = 0; bits < count.size(); ++bits)
+    std::vector<std::size_t> count;
+    double                   mean = 0;
+  };
+
+  /**
+   * E[N_L(E)] is the finite sum over all 2^12 configurations of p(config) ·
+   * #{λ < E}/12, with each count from the test-side Sturm counter (exact
+   * transfer matrices; Coddington & Levinson ch. 8).
+   */
+  ExactTail exact_tail()
+  {
+    ExactTail tail;
+    tail.count.resize(1u << chain_cells);
+    for (unsigned int bits = 0; bits < tail.count.size(); ++bits)
       {
         const std::vector<double> v = configuration(bits);
-        count[bits] = alloyspec::testing::count_below(v, 1.0, Boundary::dirichlet, tail_energy);
+        tail.count[bits] = alloyspec::testing::count_below(v, 1.0, Boundary::dirichlet, tail_energy);
         const int barriers = __builtin_popcount(bits);
-        exact += std::pow(concentration, barriers) *
-                 std::pow(1 - concentration, int(chain_cells) - barriers) * double(count[bits]) /
-                 chain_cells;
+        tail.mean += std::pow(concentration, barriers) *
+                     std::pow(1 - concentration, int(chain_cells) - barriers) *
+                     double(tail.count[bits]) / chain_cells;
       }
-    ASSERT_GT(exact, 0.0);
+    return tail;
+  }
 
-    const Lattice  lattice(std::vector<unsigned int>{chain_cells});
-    PotentialModel model;
-    model.set_law(make_bernoulli_law(concentration, barrier, 0.0), lattice);
-    model.set_tilt(tilt);
-
-    unsigned int covered = 0;
+  /**
+   * The issue's exactness check for one sampling law: over 2000 seeds, the
+   * share of 95 % intervals of the weighted estimate (IdsAccumulator) that
+   * contain the exact E[N_L(E)].
+   */
+  double coverage_of(const PotentialModel &model, const std::string &label)
+  {
+    const ExactTail tail = exact_tail();
+    EXPECT_GT(tail.mean, 0.0);
+    unsigned int covered           = 0;
     double       mean_of_estimates = 0;
     for (unsigned int seed = 1; seed <= repetitions; ++seed)
       {
@@ -98,66 +110,75 @@ namespace
         for (std::uint64_t r = 0; r < chains_per_estimate; ++r)
           {
             const std::vector<double> q = model.cell_values(seed, r);
-            ids.add_counts({count[bits_of(q)]}, model.log_weight(q));
+            ids.add_counts({tail.count[bits_of(q)]}, model.log_weight(q));
           }
         const auto row = ids.rows().front();
         mean_of_estimates += row.mean / repetitions;
-        if (std::abs(row.mean - exact) <= z95 * row.standard_error)
+        if (std::abs(row.mean - tail.mean) <= z95 * row.standard_error)
           ++covered;
       }
     const double coverage = double(covered) / repetitions;
-    std::cout << "exact E[N_L(" << tail_energy << ")] = " << exact << " per cell; mean of "
-              << repetitions << " tilted estimates " << mean_of_estimates << "; coverage "
-              << coverage << std::endl;
+    std::cout << label << ": exact E[N_L(" << tail_energy << ")] = " << tail.mean
+              << " per cell; mean of " << repetitions << " estimates " << mean_of_estimates
+              << "; coverage " << coverage << std::endl;
+    return coverage;
+  }
+
+  PotentialModel chain_model()
+  {
+    const Lattice  lattice(std::vector<unsigned int>{chain_cells});
+    PotentialModel model;
+    model.set_law(make_bernoulli_law(concentration, barrier, 0.0), lattice);
+    return model;
+  }
+
+  /** The tilt of every cell by θ = 0.15. */
+  TEST(WeightedIds, TiltedEstimateIsUnbiasedAndItsIntervalsCover)
+  {
+    PotentialModel model = chain_model();
+    model.set_tilt(tilt);
+    const double coverage = coverage_of(model, "tilted");
     EXPECT_GE(coverage, 0.93);
     EXPECT_LE(coverage, 0.97);
   }
 
   /**
-   * The same exactness check for the localised tilt (tilt_window.h): windows
-   * of 4 cells tilted by θ = 0.5 (well probability 0.88 inside), an untilted
-   * share of 0.2. E_q[w N] = E_p[N] holds for the mixture as for the uniform
-   * tilt; over 2000 seeds the 95 % intervals must cover 93–97 %.
+   * The localised tilt (tilt_window.h): windows of 4 cells tilted by θ = 0.5
+   * (well probability 0.88 inside), an untilted share of 0.2. E_q[w N] =
+   * E_p[N] holds for the mixture as for the uniform tilt.
    */
   TEST(WeightedIds, WindowedTiltIsUnbiasedAndItsIntervalsCover)
   {
-    std::vector<std::size_t> count(1u << chain_cells);
-    double                   exact = 0;
-    for (unsigned int bits = 0; bits < count.size(); ++bits)
-      {
-        const std::vector<double> v = configuration(bits);
-        count[bits] = alloyspec::testing::count_below(v, 1.0, Boundary::dirichlet, tail_energy);
-        const int barriers = __builtin_popcount(bits);
-        exact += std::pow(concentration, barriers) *
-                 std::pow(1 - concentration, int(chain_cells) - barriers) * double(count[bits]) /
-                 chain_cells;
-      }
-    const Lattice  lattice(std::vector<unsigned int>{chain_cells});
-    PotentialModel model;
-    model.set_law(make_bernoulli_law(concentration, barrier, 0.0), lattice);
+    PotentialModel model = chain_model();
     model.set_tilt_window(4, 0.2);
     model.set_tilt(0.5);
-    unsigned int covered = 0;
-    double       mean_of_estimates = 0;
-    for (unsigned int seed = 1; seed <= repetitions; ++seed)
-      {
-        IdsAccumulator ids({tail_energy}, double(chain_cells));
-        for (std::uint64_t r = 0; r < chains_per_estimate; ++r)
-          {
-            const std::vector<double> q = model.cell_values(seed, r);
-            ids.add_counts({count[bits_of(q)]}, model.log_weight(q));
-          }
-        const auto row = ids.rows().front();
-        mean_of_estimates += row.mean / repetitions;
-        if (std::abs(row.mean - exact) <= z95 * row.standard_error)
-          ++covered;
-      }
-    const double coverage = double(covered) / repetitions;
-    std::cout << "windowed tilt: exact E[N_L(" << tail_energy << ")] = " << exact
-              << " per cell; mean of " << repetitions << " estimates " << mean_of_estimates
-              << "; coverage " << coverage << std::endl;
+    const double coverage = coverage_of(model, "windowed tilt");
     EXPECT_GE(coverage, 0.93);
     EXPECT_LE(coverage, 0.97);
+  }
+
+  /**
+   * The shaped tilt (tilt_profile.h), of the box and of windows of 6 cells:
+   * cell j tilted by θ φ_j, φ the lowest sine mode (well probability up to
+   * 0.69 in the centre at θ = 0.2, 0.88 at θ = 0.5). As for the flat tilt, a
+   * stronger tilt of the box makes the weights heavy-tailed and the normal
+   * interval under-covers (measured: 93.7 % at θ = 0.3).
+   */
+  TEST(WeightedIds, ShapedTiltIsUnbiasedAndItsIntervalsCover)
+  {
+    PotentialModel box = chain_model();
+    box.set_tilt_shape(TiltShape::lowest_mode);
+    box.set_tilt(0.2);
+    const double box_coverage = coverage_of(box, "shaped tilt of the box");
+    EXPECT_GE(box_coverage, 0.93);
+    EXPECT_LE(box_coverage, 0.97);
+    PotentialModel windows = chain_model();
+    windows.set_tilt_shape(TiltShape::lowest_mode);
+    windows.set_tilt_window(6, 0.2);
+    windows.set_tilt(0.5);
+    const double window_coverage = coverage_of(windows, "shaped windows");
+    EXPECT_GE(window_coverage, 0.93);
+    EXPECT_LE(window_coverage, 0.97);
   }
 
   /** Plain sampling gives weight exactly 1: the weighted accumulator reproduces the plain mean. */
