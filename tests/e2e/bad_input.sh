@@ -46,6 +46,7 @@ expect_error "(--memory-budget)"  run "${tiny[@]}" --set "discretisation/accurac
 expect_error "sampling/tilt window" run "${tiny[@]}" --set sampling/method=tilted --set sampling/tilt=0.3 --set "sampling/tilt window=2.5" --output "$work/a"
 expect_error "sampling/tilt window" run "${tiny[@]}" --set sampling/method=tilted --set sampling/tilt=auto --set "sampling/target energy=1" --set "sampling/tilt window=2" --output "$work/a"
 expect_error "untilted share"     run "${tiny[@]}" --set sampling/method=tilted --set sampling/tilt=0.3 --set "sampling/tilt window=2" --set "sampling/untilted share=1" --output "$work/a"
+expect_error "sampling/tilt shape" run "${tiny[@]}" --set sampling/method=tilted --set sampling/tilt=0.3 --set "sampling/tilt shape=round" --output "$work/a"
 expect_error "no such entry 'colour'"      run "${tiny[@]}" --set "lattice/colour=red" --output "$work/a"
 expect_error "section/entry=value" run "${tiny[@]}" --set "lattice" --output "$work/a"
 expect_error "does not exist"     run "$work/missing.prm" --output "$work/a"
