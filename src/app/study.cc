@@ -644,6 +644,9 @@ namespace alloyspec
       {"tilt_choice", sampling.is_tilted() ? (sampling.automatic ? "auto" : "given") : "none"},
       {"target_energy", sampling.target_energy ? json_number(*sampling.target_energy) : Json()},
       {"tilt_window", sampling.is_tilted() && sampling.tilt_window > 0 ? Json(sampling.tilt_window) : Json("box")},
+      {"tilt_window_choice", sampling.is_tilted() && sampling.tilt_window > 0
+                               ? Json(sampling.tilt_window_automatic ? "auto (from the target energy)" : "given")
+                               : Json()},
       {"tilt_shape", sampling.is_tilted() ? Json(tilt_shape_name(sampling.tilt_shape)) : Json()},
       {"untilted_share", sampling.is_tilted() && sampling.tilt_window > 0 ? json_number(sampling.untilted_share) : Json()},
       {"pilot", tilt_log_}};

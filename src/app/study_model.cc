@@ -1,6 +1,7 @@
 #include <alloyspec/analysis/spectral_analysis.h>
 #include <alloyspec/analysis/summary.h>
 #include <alloyspec/app/study_model.h>
+#include <alloyspec/model/tilt_choice.h>
 #include <alloyspec/model/tilt_mixture.h>
 #include <alloyspec/core/errors.h>
 #include <alloyspec/core/format.h>
@@ -123,6 +124,21 @@ namespace alloyspec
         if (!potential_.is_random())
           throw InputError("sampling/method = tilted needs a random law; potential/law = file "
                            "gives one fixed potential (use sampling/method = plain)");
+        if (sampling_.tilt_window_automatic)
+          {
+            // The edge of the smallest empty cube with walls whose lowest level is the target.
+            const double bottom = potential_.bottom();
+            const double excess = units_.to_solver_energy(*sampling_.target_energy) -
+                                  (std::isfinite(bottom) ? units_.to_solver_energy(bottom) : bottom);
+            if (!std::isfinite(bottom))
+              throw InputError("sampling/tilt window = auto: the law has no lowest value to size the "
+                               "window from (give the window in cells)");
+            if (!(excess > 0.0))
+              throw InputError("sampling/target energy: must lie above the lowest cell value " +
+                               csv_number(bottom) + " when sampling/tilt window = auto");
+            sampling_.tilt_window =
+              window_for_energy(excess, lattice_.cell_size(), lattice_.dimension());
+          }
         potential_.set_tilt_shape(sampling_.tilt_shape);
         if (!sampling_.automatic)
           potential_.set_tilt(sampling_.tilt);

@@ -66,14 +66,19 @@ namespace alloyspec
     for (unsigned int level = 0; level < max_levels && !reached; ++level)
       {
         model_.set_tilt(theta);
-        std::vector<PilotSample> samples(pilot);
-        std::vector<double>      scores(pilot);
+        const bool                     windows = model_.potential().tilt_window() > 0;
+        std::vector<PilotSample>       samples(pilot);
+        std::vector<WindowPilotSample> window_samples(windows ? pilot : 0);
+        std::vector<double>            scores(pilot);
         for (std::size_t p = 0; p < pilot; ++p)
           {
             const std::uint64_t r = first_pilot_realisation + level * pilot + p;
             const std::vector<double> q_user = model_.potential().cell_values(model_.study().seed, r);
-            samples[p].mean_cell_value = model_.potential().profile_mean(q_user);
             samples[p].log_weight = model_.potential().log_weight(q_user);
+            if (windows)
+              window_samples[p] = {model_.potential().window_means(q_user), samples[p].log_weight};
+            else
+              samples[p].mean_cell_value = model_.potential().profile_mean(q_user);
             discretisations_[0]->assemble_potential(model_.units().to_solver_energies(q_user),
                                                     *problems_[0]);
             const EigenResult result = solver_->solve(*problems_[0]);
@@ -89,14 +94,25 @@ namespace alloyspec
             "sampling/tilt = auto: no pilot realisation at tilt " + csv_number(theta) +
             " has an eigenvalue below spectrum/energy cutoff; raise the cutoff, or give "
             "sampling/tilt as a number");
-        std::vector<PilotSample> elite;
+        std::vector<PilotSample>       elite;
+        std::vector<WindowPilotSample> window_elite;
         for (std::size_t p = 0; p < pilot; ++p)
           if (scores[p] <= level_energy)
-            elite.push_back(samples[p]);
+            {
+              if (windows)
+                window_elite.push_back(window_samples[p]);
+              else
+                elite.push_back(samples[p]);
+            }
         reached = level_energy <= target;
-        const double next = cross_entropy_tilt(*model_.potential().law(), elite, max_tilt,
-                                               &model_.potential().tilt_profile());
-        log << "level " << level << ": tilt " << theta << ", elite " << elite.size() << " of "
+        // With windows the sampling law is a mixture: the update by expectation–maximisation.
+        const double next =
+          windows ? cross_entropy_window_tilt(*model_.potential().law(), window_elite,
+                                              model_.potential().tilt_profile(),
+                                              model_.sampling().untilted_share, theta, max_tilt)
+                  : cross_entropy_tilt(*model_.potential().law(), elite, max_tilt,
+                                       &model_.potential().tilt_profile());
+        log << "level " << level << ": tilt " << theta << ", elite " << (windows ? window_elite.size() : elite.size()) << " of "
             << pilot << " with lowest eigenvalue <= " << model_.units().to_user_energy(level_energy)
             << ", next tilt " << next << "; ";
         theta = next;

@@ -472,6 +472,25 @@ namespace alloyspec
   }
 
 
+  std::vector<double> PotentialModel::window_means(const std::vector<double> &q) const
+  {
+    if (!windows_ || q.size() != n_cells_)
+      throw std::logic_error("PotentialModel::window_means: tilt windows and one value per cell are needed");
+    double norm = 0;
+    for (std::size_t j = 0; j < windows_->window_size(); ++j)
+      norm += profile_->value(j);
+    std::vector<double> means(windows_->count());
+    for (std::size_t c = 0; c < means.size(); ++c)
+      {
+        double sum = 0;
+        for (std::size_t j = 0; j < windows_->window_size(); ++j)
+          sum += profile_->value(j) * q[windows_->cell(c, j)];
+        means[c] = sum / norm;
+      }
+    return means;
+  }
+
+
   double PotentialModel::log_weight(const std::vector<double> &q) const
   {
     if (levels_.empty())

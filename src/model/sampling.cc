@@ -56,7 +56,10 @@ namespace alloyspec
                       "the box drawn uniformly, or no cell at all with probability 'untilted share'; the "
                       "weight is the exact ratio of the model law to this mixture (at most "
                       "1/untilted share). Suits tails made by a local region of low cells in "
-                      "a long chain or a large box; needs tilt as a number.");
+                      "a long chain or a large box. auto: ℓ from 'target energy', the edge "
+                      "(in cells) of the smallest empty cube with walls whose lowest level "
+                      "lies at or below the target: ℓ = ⌈π √(d/(E − E₀)) / a⌉, E₀ the bottom "
+                      "of the law, a the cell size.");
     prm.declare_entry("untilted share", "0.2", dealii::Patterns::Double(0.01, 0.99),
                       "With a tilt window: the share of realisations drawn untilted (0.01 to "
                       "0.99); it bounds every weight by 1/share.");
@@ -86,15 +89,16 @@ namespace alloyspec
     tilt_shape = prm.get("tilt shape") == "lowest mode" ? TiltShape::lowest_mode : TiltShape::flat;
     prm.leave_subsection();
 
-    tilt_window = 0;
-    if (window_text != "box")
+    tilt_window           = 0;
+    tilt_window_automatic = window_text == "auto";
+    if (window_text != "box" && !tilt_window_automatic)
       {
         double value = 0;
         if (!parse_number(window_text, value) || value != std::floor(value) || value < 1 ||
             value > 100000)
           throw InputError("sampling/tilt window: '" + window_text +
-                           "' is not allowed; allowed are box or a whole number of cells from 1 "
-                           "to 100000");
+                           "' is not allowed; allowed are box, auto or a whole number of cells "
+                           "from 1 to 100000");
         tilt_window = static_cast<unsigned int>(value);
       }
 
@@ -120,9 +124,9 @@ namespace alloyspec
                            "' is not allowed; allowed are auto or a number in [-1e6, 1e6]");
         tilt = value;
       }
-    if (method == SamplingMethod::tilted && automatic && tilt_window > 0)
-      throw InputError("sampling/tilt window: a window needs sampling/tilt as a number (the "
-                       "automatic choice tilts the whole box; allowed with tilt = auto: box)");
+    if (method == SamplingMethod::tilted && tilt_window_automatic && !target_energy)
+      throw InputError("sampling/target energy: must be set when sampling/tilt window = auto "
+                       "(the window is sized for it), or give the window in cells");
     if (method == SamplingMethod::tilted && automatic && !target_energy)
       throw InputError("sampling/target energy: must be set when sampling/method = tilted and "
                        "sampling/tilt = auto (or give sampling/tilt as a number)");

@@ -635,15 +635,19 @@ def deep_tail_goals(exe, work, quick):
                "study/energies=0.005 to 0.4 by 0.005"]
     run_study(exe, work, "tail1d_plain", common1 + ["sampling/method=plain", "study/seed=42"], cli=chain)
     run_study(exe, work, "tail1d_tilted", common1 + ["study/seed=41"], cli=chain)
-    run_study(exe, work, "tail1d_window", common1 + ["sampling/tilt=1.0", "sampling/tilt window=30",
-                                                     "study/seed=43"], cli=chain)
+    run_study(exe, work, "tail1d_window", common1 + ["sampling/tilt=auto", "sampling/tilt window=auto",
+                                                     "sampling/target energy=0.01", "study/seed=43"], cli=chain)
     with open(os.path.join(work, "tail1d_tilted", "run.json")) as f:
         manifest1 = json.load(f)
+    with open(os.path.join(work, "tail1d_window", "run.json")) as f:
+        window1 = json.load(f)
     with open(os.path.join(work, "tail1d_tilted", "tail.csv")) as f:
         energies1 = [float(r["energy"]) for r in csv.DictReader(f)]
     print(f"1D, 200-cell chains (deep_tail_chain.prm), {r1} realisations per study, Dirichlet, Q3; tail1d_tilted: "
           f"automatic tilt theta = {manifest1['sampling']['tilt']} of every cell (target "
-          f"{manifest1['sampling'].get('target_energy')}); tail1d_window: theta = 1.0 on windows of 30 cells, "
+          f"{manifest1['sampling'].get('target_energy')}); tail1d_window: automatic theta = "
+          f"{window1['sampling']['tilt']} on automatic windows of {window1['sampling']['tilt_window']} cells "
+          f"(target 0.01; pilot {window1['timings_seconds'].get('tilt_search', float('nan')):.0f} s, not counted), "
           f"untilted share 0.2")
     variance_ratio(work, "tail1d_tilted", "tail1d_plain", energies1, 200.0)
     variance_ratio(work, "tail1d_window", "tail1d_plain", energies1, 200.0)

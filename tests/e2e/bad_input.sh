@@ -44,7 +44,7 @@ expect_error "'--memory-budget'"  run "${tiny[@]}" --memory-budget 0 --output "$
 expect_error "finer than any candidate" run "${tiny[@]}" --set "lattice/cells=16" --set spectrum/eigenvalues=50 --set "discretisation/accuracy=1e-7" --output "$work/a"
 expect_error "(--memory-budget)"  run "${tiny[@]}" --set "discretisation/accuracy=1e-11" --memory-budget 0.3 --output "$work/a"
 expect_error "sampling/tilt window" run "${tiny[@]}" --set sampling/method=tilted --set sampling/tilt=0.3 --set "sampling/tilt window=2.5" --output "$work/a"
-expect_error "sampling/tilt window" run "${tiny[@]}" --set sampling/method=tilted --set sampling/tilt=auto --set "sampling/target energy=1" --set "sampling/tilt window=2" --output "$work/a"
+expect_error "sampling/target energy" run "${tiny[@]}" --set sampling/method=tilted --set sampling/tilt=0.3 --set "sampling/tilt window=auto" --output "$work/a"
 expect_error "untilted share"     run "${tiny[@]}" --set sampling/method=tilted --set sampling/tilt=0.3 --set "sampling/tilt window=2" --set "sampling/untilted share=1" --output "$work/a"
 expect_error "sampling/tilt shape" run "${tiny[@]}" --set sampling/method=tilted --set sampling/tilt=0.3 --set "sampling/tilt shape=round" --output "$work/a"
 expect_error "no such entry 'colour'"      run "${tiny[@]}" --set "lattice/colour=red" --output "$work/a"

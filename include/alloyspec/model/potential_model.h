@@ -98,6 +98,12 @@ namespace alloyspec
      */
     double profile_mean(const std::vector<double> &q) const;
     /**
+     * With tilt windows: for every window c,
+     * @f$S_c = \sum_j \varphi_j q_{c+j} / \sum_j \varphi_j@f$ with the window's
+     * relative tilts (the statistic of cross_entropy_window_tilt()).
+     */
+    std::vector<double> window_means(const std::vector<double> &q) const;
+    /**
      * Tilt only the cells of one window of @p edge cells per direction, at a
      * random position, or (with probability @p untilted_share) none: the
      * defensive mixture of TiltWindows (tilt_window.h). @p edge = 0 restores

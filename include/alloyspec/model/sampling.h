@@ -57,6 +57,12 @@ namespace alloyspec
      * defensive mixture of TiltWindows (tilt_window.h).
      */
     unsigned int          tilt_window = 0;
+    /**
+     * `tilt window = auto`: the edge is set from `target energy` by the
+     * study model (window_for_energy(), tilt_choice.h); tilt_window is 0
+     * until then.
+     */
+    bool                  tilt_window_automatic = false;
     /** `untilted share`: the mixture's share α of untilted realisations (window only). */
     double                untilted_share = 0.2;
     /** `tilt shape`. */

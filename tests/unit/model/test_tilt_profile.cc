@@ -63,6 +63,12 @@ namespace
     return phi;
   }
 
+  /** The same for a flat tilt: 1. */
+  double written_out_profile(const std::vector<unsigned int> &extent, std::size_t n, TiltShape shape)
+  {
+    return shape == TiltShape::flat ? 1.0 : written_out_profile(extent, n);
+  }
+
   // An invented binary alloy: barriers of height 2 with probability 0.3, wells at 0.
   constexpr double concentration = 0.3, barrier = 2.0;
 
@@ -279,4 +285,109 @@ TEST(ShapedTilt, CrossEntropyUpdateSolvesItsEquation)
   // The shaped tilt must reach further in the centre than the flat one to
   // move the weighted mean as far.
   EXPECT_GT(theta, flat);
+}
+
+/**
+ * The update for tilt windows maximises the cross-entropy objective of the
+ * mixture, F(θ) = Σ_r w_r ln(α + (1−α)/K Σ_c e^{−ℓ_rc(θ)}) (= Σ_r w_r ln q_θ/p),
+ * ℓ_rc(θ) = Σ_j [θφ_j q_{c+j} + ln M(θφ_j)], written out here with the
+ * closed-form Bernoulli ln M: F must not rise on either side of the result.
+ */
+TEST(ShapedTilt, WindowUpdateMaximisesTheMixtureObjective)
+{
+  const unsigned int cells = 40, edge = 8;
+  const double       alpha = 0.2;
+  const Lattice      lattice(std::vector<unsigned int>{cells});
+  const auto         law = make_bernoulli_law(concentration, barrier, 0.0);
+  for (const TiltShape shape : {TiltShape::flat, TiltShape::lowest_mode})
+    {
+      PotentialModel model;
+      model.set_law(make_bernoulli_law(concentration, barrier, 0.0), lattice);
+      model.set_tilt_shape(shape);
+      model.set_tilt_window(edge, alpha);
+      // An invented elite: plain chains whose lowest window mean is small.
+      std::vector<WindowPilotSample>   elite;
+      std::vector<std::vector<double>> values;
+      for (std::uint64_t r = 0; elite.size() < 12 && r < 100000; ++r)
+        {
+          const auto q     = model.cell_values(21, r);
+          const auto means = model.window_means(q);
+          if (*std::min_element(means.begin(), means.end()) < 0.05)
+            elite.push_back({means, 0.0}), values.push_back(q);
+        }
+      ASSERT_EQ(elite.size(), 12u);
+      const TiltProfile   profile({edge}, shape);
+      const double        theta = cross_entropy_window_tilt(*law, elite, profile, alpha, 0.0, 1e6);
+      std::vector<double> phi(edge);
+      for (unsigned int j = 0; j < edge; ++j)
+        phi[j] = written_out_profile({edge}, j, shape);
+      const auto objective = [&](const double t) {
+        double f = 0;
+        for (const auto &q : values)
+          {
+            double sum = 0;
+            for (unsigned int c = 0; c + edge <= cells; ++c)
+              {
+                double ell = 0;
+                for (unsigned int j = 0; j < edge; ++j)
+                  {
+                    const double tj = t * phi[j];
+                    ell += tj * q[c + j] + std::log(concentration * std::exp(-tj * barrier) +
+                                                    1 - concentration);
+                  }
+                sum += std::exp(-ell);
+              }
+            f += std::log(alpha + (1 - alpha) * sum / double(cells - edge + 1));
+          }
+        return f;
+      };
+      EXPECT_GT(theta, 0.0);
+      for (const double step : {1e-3, 1e-2, 1e-1})
+        {
+          EXPECT_GE(objective(theta), objective(theta * (1 + step)) - 1e-12) << tilt_shape_name(shape);
+          EXPECT_GE(objective(theta), objective(theta * (1 - step)) - 1e-12) << tilt_shape_name(shape);
+        }
+    }
+}
+
+/** window_means() against the window's weighted mean written out. */
+TEST(ShapedTilt, WindowMeansAreTheWeightedCellMeans)
+{
+  const std::vector<unsigned int> cells{7, 6};
+  const Lattice                   lattice(cells);
+  PotentialModel                  model;
+  model.set_law(make_bernoulli_law(concentration, barrier, 0.0), lattice);
+  model.set_tilt_shape(TiltShape::lowest_mode);
+  model.set_tilt_window(3, 0.2);
+  const auto q     = model.cell_values(2, 9);
+  const auto means = model.window_means(q);
+  ASSERT_EQ(means.size(), std::size_t(5 * 4));
+  for (unsigned int y = 0; y < 4; ++y)
+    for (unsigned int x = 0; x < 5; ++x)
+      {
+        double sum = 0, norm = 0;
+        for (unsigned int j = 0; j < 9; ++j)
+          {
+            const double phi = written_out_profile({3, 3}, j);
+            sum += phi * q[(x + j % 3) + 7 * (y + j / 3)];
+            norm += phi;
+          }
+        EXPECT_NEAR(means[x + 5 * y], sum / norm, 1e-14);
+      }
+}
+
+/**
+ * `tilt window = auto`: the smallest s with dπ²/(s a)² ≤ E − E₀ (the lowest
+ * Dirichlet level of an empty cube of edge s a is dπ²/(s a)², a closed form).
+ */
+TEST(ShapedTilt, AutomaticWindowIsTheSmallestEmptyCubeBelowTheTarget)
+{
+  const double pi = std::acos(-1.0);
+  EXPECT_EQ(window_for_energy(pi * pi / 900.0, 1.0, 1), 30u);
+  EXPECT_EQ(window_for_energy(pi * pi / 900.0 * 0.999, 1.0, 1), 31u);
+  EXPECT_EQ(window_for_energy(0.01, 1.0, 1), 32u); // π/0.1 = 31.4
+  EXPECT_EQ(window_for_energy(3 * pi * pi / 36.0, 1.0, 3), 6u);
+  EXPECT_EQ(window_for_energy(1.07, 1.0, 3), 6u); // π√(3/1.07) = 5.26
+  EXPECT_EQ(window_for_energy(1.07, 2.0, 3), 3u);
+  EXPECT_EQ(window_for_energy(100.0, 1.0, 2), 1u);
 }
