@@ -189,6 +189,9 @@ namespace alloyspec
       {
         LobpcgSettings ls;
         ls.block_size     = block;
+        // The stop rule below replaces the count; it must still fit the block
+        // (its default of 10 did not for fewer than 5 wanted pairs).
+        ls.n_converged_needed = std::min<unsigned int>(block, static_cast<unsigned int>(wanted) + 1);
         ls.tolerance      = settings_.tolerance;
         ls.max_iterations = max_iterations;
         // Stop once the list up to the first gap at or beyond the wanted count,
