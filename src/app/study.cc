@@ -26,6 +26,7 @@
 #include <filesystem>
 #include <fstream>
 #include <iostream>
+#include <limits>
 #include <numeric>
 #include <optional>
 #include <cmath>
@@ -410,8 +411,12 @@ namespace alloyspec
     record.verified_by    = result.verified_by;
     record.enclosure_lower = result.enclosure_lower;
     record.enclosure_upper = result.enclosure_upper;
-    record.potential_min  = *std::min_element(q.begin(), q.end());
-    record.potential_max  = *std::max_element(q.begin(), q.end());
+    // A rank of a distributed mesh may own no element of a tiny box: ±∞ then.
+    record.potential_min = std::numeric_limits<double>::infinity();
+    record.potential_max = -record.potential_min;
+    for (const double v : q)
+      record.potential_min = std::min(record.potential_min, v),
+      record.potential_max = std::max(record.potential_max, v);
     record.attempts       = result.attempts;
     if (mesh.distributed())
       {

@@ -69,7 +69,8 @@ namespace alloyspec
         , dof_handler_(triangulation_)
       {}
 
-      bool distributed() const override { return true; }
+      bool     distributed() const override { return true; }
+      MPI_Comm communicator() const override { return comm_; }
 
       void make_grid() override
       {
@@ -253,15 +254,57 @@ namespace alloyspec
         return std::vector<double>(lattice_.n_cells(), std::pow(lattice_.cell_size(), double(dim)));
       }
 
-      std::vector<double> load_vector() const override { throw serial_only("the load vector"); }
+      /** This rank's rows of b_i = ∫φ_i, condensed (0 at constrained rows). */
+      std::vector<double> load_vector() const override
+      {
+        dealii::LinearAlgebra::distributed::Vector<double> load(owned_, relevant_, comm_);
+        const unsigned int  dofs_per_cell = fe_.n_dofs_per_cell();
+        dealii::Vector<double> local(dofs_per_cell), ones(dofs_per_cell);
+        ones = 1.0;
+        // Lagrange shape functions sum to 1, so ∫φ_i = Σ_j (M_e)_ij.
+        local_mass_.vmult(local, ones);
+        std::vector<dealii::types::global_dof_index> dofs(dofs_per_cell);
+        for (std::size_t e = 0; e < element_cell_.size(); ++e)
+          {
+            dofs.assign(element_dofs_.begin() + e * dofs_per_cell,
+                        element_dofs_.begin() + (e + 1) * dofs_per_cell);
+            constraints_.distribute_local_to_global(local, dofs, load);
+          }
+        load.compress(dealii::VectorOperation::add);
+        std::vector<double> owned(owned_.n_elements());
+        for (std::size_t i = 0; i < owned.size(); ++i)
+          owned[i] = load.local_element(i);
+        return owned;
+      }
       std::vector<double> complete(const std::vector<double> &) const override
       {
         throw serial_only("whole vectors");
       }
-      void quadrature_values(const std::vector<double> &, std::vector<double> &,
-                             std::vector<double> &) const override
+      /** From this rank's rows of @p u, the Gauss points (p+1 per direction) of its own elements. */
+      void quadrature_values(const std::vector<double> &u, std::vector<double> &values,
+                             std::vector<double> &weights) const override
       {
-        throw serial_only("quadrature values");
+        const dealii::LinearAlgebra::distributed::Vector<double> v = ghosted(u);
+        const dealii::QGauss<dim> quadrature(fe_.degree + 1);
+        const unsigned int        n_q = quadrature.size(), dofs_per_cell = fe_.n_dofs_per_cell();
+        const ReferenceElement    reference(lattice_, settings_);
+        dealii::FEValues<dim>     fe_values(fe_, quadrature,
+                                        dealii::update_values | dealii::update_JxW_values);
+        fe_values.reinit(reference.dof_handler.begin_active());
+        values.assign(n_q * element_cell_.size(), 0.0);
+        weights.resize(values.size());
+        for (std::size_t e = 0; e < element_cell_.size(); ++e)
+          {
+            const auto *dofs = element_dofs_.data() + e * dofs_per_cell;
+            for (unsigned int q = 0; q < n_q; ++q)
+              {
+                double value = 0;
+                for (unsigned int i = 0; i < dofs_per_cell; ++i)
+                  value += v(dofs[i]) * fe_values.shape_value(i, q);
+                values[e * n_q + q]  = value;
+                weights[e * n_q + q] = fe_values.JxW(q);
+              }
+          }
       }
       void write_vtu(const std::string &, const std::vector<double> &,
                      const std::vector<std::string> &,

@@ -99,8 +99,9 @@ namespace alloyspec
      * the values of local_cells() only; make_problem() gives a problem with
      * SpectralProblem::distributed set; localisation_measures() takes each
      * rank's owned rows; slice_values() gives every sample on rank 0 of
-     * @p comm. load_vector(), complete(), quadrature_values() and
-     * write_vtu() are for serial meshes only (std::logic_error).
+     * @p comm; load_vector() gives this rank's rows, and quadrature_values()
+     * takes this rank's rows and gives the points of its own elements.
+     * complete() and write_vtu() are for serial meshes only (std::logic_error).
      */
     static std::unique_ptr<Discretisation> create_distributed(const Lattice &                lattice,
                                                               const DiscretisationSettings &settings,
@@ -110,6 +111,8 @@ namespace alloyspec
 
     /** True for a distributed mesh (create_distributed()). */
     virtual bool distributed() const { return false; }
+    /** The ranks that share the mesh: MPI_COMM_SELF for a serial one. */
+    virtual MPI_Comm communicator() const { return MPI_COMM_SELF; }
     /**
      * A distributed mesh: the lattice cells (Lattice::cell_index) of this
      * rank's elements, ascending, in the order assemble_potential() takes
