@@ -105,6 +105,8 @@ namespace alloyspec::internal
     void factorise(Mat K, Mat M, double sigma);
     /** Negative pivots of the last factorisation (Inertia::counted only). */
     std::size_t negative_pivots() const;
+    /** Null pivots MUMPS detected in the last factorisation (Inertia::counted only). */
+    std::size_t zero_pivots() const;
     /** The factor, for triangular solves. */
     Mat factor() const { return factor_; }
     /**

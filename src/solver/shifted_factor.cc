@@ -94,4 +94,14 @@ namespace alloyspec::internal
     ALLOYSPEC_CHECK(MatGetInertia(factor_, &n_negative, &n_zero, &n_positive));
     return static_cast<std::size_t>(n_negative);
   }
+
+  std::size_t ShiftedFactor::zero_pivots() const
+  {
+    if (inertia_ != Inertia::counted || !factor_ || n_numeric_ == 0)
+      throw std::logic_error("ShiftedFactor::zero_pivots: no factorisation set up for an "
+                             "inertia count");
+    PetscInt n_negative = 0, n_zero = 0, n_positive = 0;
+    ALLOYSPEC_CHECK(MatGetInertia(factor_, &n_negative, &n_zero, &n_positive));
+    return static_cast<std::size_t>(n_zero);
+  }
 } // namespace alloyspec::internal

@@ -54,6 +54,8 @@ namespace alloyspec
     std::vector<double> residuals;
     unsigned int        restarts     = 0;
     std::size_t         solved_columns = 0; ///< right-hand sides solved in all
+    /** Full Gram–Schmidt passes over the basis (one per block, two where the first lost too much). */
+    std::size_t         full_passes  = 0;
     bool                converged    = false;
   };
 

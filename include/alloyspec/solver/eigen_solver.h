@@ -176,6 +176,24 @@ namespace alloyspec
     EigenResult solve_pencil(const Pencil &pencil);
     /** The iterative path (iterative_solve.cc): LOBPCG with AMG, checked by inertia or by enclosures. */
     EigenResult solve_iterative(const Pencil &pencil);
+    /**
+     * Band-edge mode with one numeric factorisation: the factor of
+     * @f$K - E_c M@f$ that counted the @p wanted eigenvalues below the
+     * cutoff @f$E_c@f$ (by Sylvester's law of inertia, its negative pivots)
+     * also drives shift-and-invert at @f$\sigma = E_c@f$. The operator
+     * @f$(E_c M - K)^{-1} M@f$ has the eigenvalues @f$1/(E_c - \lambda)@f$,
+     * positive exactly for @f$\lambda < E_c@f$, so the wanted pairs are its
+     * @p wanted largest. The list is accepted only when the block solver
+     * returns @p wanted pairs with M-orthonormal vectors whose Rayleigh
+     * quotients all lie below @f$E_c@f$ by more than the cluster gap: then
+     * list length = negative pivots at @f$E_c@f$, the same check as for a
+     * cut between two returned eigenvalues, with @f$E_c@f$ as the cut.
+     * std::nullopt when it is not accepted (or the factor has a zero pivot,
+     * or the problem is too small for a block basis): the caller then runs
+     * the usual path (shift below the spectrum, a second factorisation for
+     * the check), so a refusal costs time, never strictness.
+     */
+    std::optional<EigenResult> solve_at_cut(const Pencil &pencil, std::size_t wanted);
     /** Inertia count for the list check: reuses one symbolic factorisation per problem ("tuned"). */
     std::size_t verified_count(const Pencil &pencil, double energy);
     /** Factor work of the solve in progress (reset by solve()). */

@@ -157,6 +157,57 @@ namespace alloyspec
     check_pairs(d, r, std::vector<double>(all.begin(), all.begin() + wanted));
   }
 
+  // The band-edge mode: σ = a cut inside the spectrum, the operator negated,
+  // −T = (σM − K)⁻¹M, whose positive eigenvalues 1/(σ − λ) are exactly those
+  // with λ < σ. The wanted number (here from the closed form; in the solver
+  // from the inertia of the same factor) of largest ones must be all the
+  // eigenvalues below the cut, M-orthonormal, with the requested residual.
+  TEST(BlockKrylovSchur, NegatedOperatorAtACutFindsEverythingBelowIt)
+  {
+    const int     n = 400;
+    DenseOperator d;
+    linear_elements(n, d.K, d.M);
+    std::vector<double> below;
+    // Halfway between the 6th and 7th eigenvalue.
+    d.sigma = 0.5 * (linear_element_eigenvalue(n, 6) + linear_element_eigenvalue(n, 7));
+    for (int j = 1; linear_element_eigenvalue(n, j) < d.sigma; ++j)
+      below.push_back(linear_element_eigenvalue(n, j));
+    ASSERT_EQ(below.size(), 6u);
+    BlockOperator op = d.op();
+    const auto    solve = op.solve;
+    op.solve = [solve, n](const double *in, double *out, unsigned int b) {
+      solve(in, out, b);
+      for (std::size_t i = 0; i < std::size_t(n) * b; ++i)
+        out[i] = -out[i];
+    };
+    BlockKrylovSettings s;
+    s.n_wanted   = static_cast<unsigned int>(below.size());
+    s.block_size = 4;
+    const BlockKrylovResult r = block_krylov_schur(op, s);
+    ASSERT_TRUE(r.converged);
+    ASSERT_EQ(r.theta.size(), below.size());
+    Eigen::Map<const Eigen::MatrixXd> X(r.vectors.data(), n, Eigen::Index(below.size()));
+    const Eigen::MatrixXd gram = X.transpose() * d.M * X;
+    EXPECT_LT((gram - Eigen::MatrixXd::Identity(gram.rows(), gram.cols())).cwiseAbs().maxCoeff(),
+              orthonormality_tolerance);
+    std::vector<double> lambda;
+    for (const double t : r.theta)
+      {
+        EXPECT_GT(t, 0.0);
+        lambda.push_back(d.sigma - 1 / t);
+      }
+    // Largest 1/(σ − λ) first: the eigenvalue nearest the cut first.
+    std::sort(lambda.begin(), lambda.end());
+    for (std::size_t j = 0; j < below.size(); ++j)
+      EXPECT_NEAR(lambda[j], below[j], eigenvalue_tolerance * below[j]) << "eigenvalue " << j;
+    const Eigen::MatrixXd TX = -Eigen::MatrixXd(d.factor.solve(d.M * X));
+    for (std::size_t j = 0; j < below.size(); ++j)
+      {
+        const Eigen::VectorXd res = TX.col(Eigen::Index(j)) - r.theta[j] * X.col(Eigen::Index(j));
+        EXPECT_LT(std::sqrt(res.dot(d.M * res)), residual_tolerance * r.theta[j]) << "pair " << j;
+      }
+  }
+
   TEST(BlockKrylovSchur, RefusesAProblemTooSmallForItsBasis)
   {
     DenseOperator d;
