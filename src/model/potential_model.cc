@@ -419,20 +419,26 @@ namespace alloyspec
           q[i] = fixed_values_.at(cells[i]);
         return q;
       }
-    // As the whole-box draw: the window's component first, then each cell.
+    // As the whole-box draw: the window's component first, then each cell
+    // through the law of its place in the tilted region.
     long window = -1;
-    if (windows_ && tilted_law_)
+    if (windows_ && !levels_.empty())
       window = windows_->component(uniform_open01(seed, realisation, 0, window_draw));
-    const SingleSiteLaw &law = *sampling_law();
     for (std::size_t i = 0; i < cells.size(); ++i)
       {
         const std::size_t n = cells[i];
         if (n >= n_cells_)
           throw std::logic_error("PotentialModel::cell_values: cell index beyond the lattice");
-        const SingleSiteLaw &from =
-          windows_ && tilted_law_ ? (window >= 0 && windows_->contains(std::size_t(window), n) ?
-                                       *tilted_law_ : *law_) : law;
-        q[i] = from.quantile(uniform_open01(seed, realisation, n));
+        const SingleSiteLaw *from = law_.get();
+        if (!levels_.empty() && !windows_)
+          from = levels_[profile_->level(n)].law.get();
+        else if (window >= 0)
+          {
+            const std::size_t j = windows_->offset(std::size_t(window), n);
+            if (j < windows_->window_size())
+              from = levels_[profile_->level(j)].law.get();
+          }
+        q[i] = from->quantile(uniform_open01(seed, realisation, n));
       }
     return q;
   }

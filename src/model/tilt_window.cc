@@ -117,6 +117,22 @@ namespace alloyspec
     return n;
   }
 
+  std::size_t TiltWindows::offset(const std::size_t c, const std::size_t n) const
+  {
+    std::size_t a = c, b = n, j = 0, stride = 1;
+    for (const unsigned int l : cells_)
+      {
+        const unsigned int s = span(l), corners = l - s + 1;
+        const unsigned int corner = a % corners, x = b % l;
+        a /= corners, b /= l;
+        if (x < corner || x >= corner + s)
+          return window_size();
+        j += (x - corner) * stride;
+        stride *= s;
+      }
+    return j;
+  }
+
   std::size_t TiltWindows::window_size() const
   {
     std::size_t n = 1;

@@ -77,6 +77,12 @@ namespace alloyspec
      */
     std::size_t cell(std::size_t c, std::size_t j) const;
 
+    /**
+     * The inverse of cell(): the index j inside window @p c of global cell
+     * @p n, or window_size() when n lies outside the window.
+     */
+    std::size_t offset(std::size_t c, std::size_t n) const;
+
     /** Cells of one window: @f$\prod_i s_i@f$. */
     std::size_t window_size() const;
 

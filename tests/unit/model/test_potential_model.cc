@@ -289,7 +289,8 @@ TEST(PotentialModel, ValuesOfListedCellsAreThoseOfTheWholeBox)
 {
   // A rank of a distributed mesh draws only its cells: the same numbers as
   // the whole draw at those indices, plain, tilted, and with a tilt window
-  // (whose component is drawn once per realisation, not per rank).
+  // (whose component is drawn once per realisation, not per rank), flat or
+  // shaped.
   const Lattice                  lattice({6, 5, 4});
   const std::vector<std::size_t> cells{0, 3, 17, 58, 59, 119};
   PotentialModel                 model;
@@ -309,6 +310,10 @@ TEST(PotentialModel, ValuesOfListedCellsAreThoseOfTheWholeBox)
   check("tilted");
   model.set_tilt_window(3, 0.2);
   check("tilt window");
+  model.set_tilt_shape(alloyspec::TiltShape::lowest_mode);
+  check("shaped tilt window");
+  model.set_tilt_window(0, 0.2);
+  check("shaped tilt of the box");
   PotentialModel fixed;
   std::vector<double> values(lattice.n_cells());
   for (std::size_t n = 0; n < values.size(); ++n)
