@@ -344,8 +344,10 @@ end
     unsigned int ranks_per_realisation = 1;
     run->add_option("--ranks-per-realisation", ranks_per_realisation,
                     "MPI ranks that solve each realisation together (a divisor of the number of "
-                    "ranks; default 1: each rank solves its own realisations). The sparse "
-                    "factorisation and the Krylov iteration are then distributed; the mesh and "
+                    "ranks; default 1: each rank solves its own realisations). With the iterative "
+                    "solver the mesh itself is distributed: each rank of a team holds its part of "
+                    "the mesh and of the matrices. With the direct solver the sparse "
+                    "factorisation and the Krylov iteration are distributed, and the mesh and "
                     "assembly are repeated on each rank of a team.");
     double memory_budget_gib = -1; // -1: not given
     run->add_option("--memory-budget", memory_budget_gib,

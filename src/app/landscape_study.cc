@@ -15,6 +15,7 @@
 #include <alloyspec/fe/spectral_problem.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
 #include <alloyspec/app/study_model.h>
+#include <alloyspec/core/collective_errors.h>
 
 #include <deal.II/base/mpi.h>
 
@@ -23,7 +24,10 @@
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
+#include <limits>
 #include <map>
+#include <optional>
+#include <stdexcept>
 #include <sstream>
 
 namespace alloyspec
@@ -62,9 +66,13 @@ namespace alloyspec
   std::vector<std::string> LandscapeStudy::run(const std::string &output_directory,
                                                const bool         show_progress)
   {
-    if (dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) != 0)
+    const StudyModel &s = model_;
+    // A 2D or 3D box is distributed over all ranks, which solve each
+    // realisation together; a chain or a mesh file is solved on rank 0 alone.
+    const bool distributed = s.lattice().dimension() >= 2 && !s.geometry().has_mesh();
+    const bool root        = dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0;
+    if (!distributed && !root)
       return {};
-    const StudyModel         &s          = model_;
     if (s.tilted())
       throw InputError("sampling/method = tilted is not supported by the landscape command (its "
                        "averages are unweighted); use sampling/method = plain");
@@ -83,20 +91,44 @@ namespace alloyspec
     std::vector<std::unique_ptr<SpectralProblem>> problems;
     for (const Boundary bc : boundaries)
       {
-        discretisations.push_back(s.assembled_discretisation(bc));
+        if (distributed)
+          {
+            discretisations.push_back(s.make_distributed_discretisation(bc, MPI_COMM_WORLD));
+            discretisations.back()->make_grid();
+            discretisations.back()->setup_system();
+            discretisations.back()->assemble_fixed();
+          }
+        else
+          discretisations.push_back(s.assembled_discretisation(bc));
         problems.push_back(discretisations.back()->make_problem());
       }
     const double volume = s.domain_volumes(discretisations.front().get()).first;
 
-    // Nobody writes eigenvalues into the folder while they are compared here.
-    std::filesystem::create_directories(output_directory);
-    const FolderLock lock(output_directory, "compare the landscape there");
-
-    // Stored eigenvalues of the same realisations (from `alloyspec run` into this folder).
+    // Rank 0 owns the folder. Nobody writes eigenvalues into it while they
+    // are compared here. Every rank learns its verdict (no rank waits for one
+    // that gave up).
+    std::optional<FolderLock>                                          lock;
     std::map<std::pair<std::uint64_t, std::string>, RealisationRecord> stored;
-    if (std::filesystem::exists(std::filesystem::path(output_directory) / "realisations.csv"))
-      for (auto &r : read_stored_records(output_directory).records)
-        stored[{r.realisation, r.boundary}] = std::move(r);
+    {
+      const auto [error, input_error] = capture_error([&] {
+        if (!root)
+          return;
+        std::filesystem::create_directories(output_directory);
+        lock.emplace(output_directory, "compare the landscape there");
+        // Stored eigenvalues of the same realisations (from `alloyspec run` into this folder).
+        if (std::filesystem::exists(std::filesystem::path(output_directory) / "realisations.csv"))
+          for (auto &r : read_stored_records(output_directory).records)
+            stored[{r.realisation, r.boundary}] = std::move(r);
+      });
+      if (distributed)
+        throw_if_any_failed(MPI_COMM_WORLD, error, input_error);
+      else if (!error.empty())
+        {
+          if (input_error)
+            throw InputError(error);
+          throw std::runtime_error(error);
+        }
+    }
 
     const std::uint64_t first = s.study().first_realisation, n = s.study().realisations;
     std::vector<MeanTable> landscape(boundaries.size());
@@ -108,27 +140,40 @@ namespace alloyspec
     std::ostringstream     estimates_csv;
     estimates_csv << "realisation,boundary,index,estimate,exact\n";
 
-    Progress progress("landscape solves", n * boundaries.size(), show_progress);
+    Progress progress("landscape solves", n * boundaries.size(), show_progress && root);
     for (std::uint64_t r = first; r < first + n; ++r)
       {
-        const std::vector<double> q     = s.solver_cell_values(r);
-        const auto [q_min, q_max]       = std::minmax_element(q.begin(), q.end());
-        double                    shift = default_landscape_shift(*q_min, *q_max);
+        // On a distributed mesh each rank draws the cells of its own elements.
+        const auto draw = [&](const Discretisation &mesh) {
+          return units.to_solver_energies(
+            s.potential().cell_values(s.study().seed, r, mesh.local_cells()));
+        };
+        const std::vector<double> q = distributed ? draw(*discretisations.front()) : s.solver_cell_values(r);
+        // A rank may own no element of a tiny box: its extremes are ±∞.
+        double q_min = std::numeric_limits<double>::infinity(), q_max = -q_min;
+        for (const double v : q)
+          q_min = std::min(q_min, v), q_max = std::max(q_max, v);
+        if (distributed)
+          q_min = dealii::Utilities::MPI::min(q_min, MPI_COMM_WORLD),
+          q_max = dealii::Utilities::MPI::max(q_max, MPI_COMM_WORLD);
+        double shift = default_landscape_shift(q_min, q_max);
         if (settings_.shift)
           {
             shift = units.to_solver_energy(*settings_.shift);
-            if (*q_min + shift < 0.0)
+            if (q_min + shift < 0.0)
               throw InputError("parameter 'landscape/shift': " + short_number(*settings_.shift) +
                                " is too small for realisation " + std::to_string(r) +
                                " (allowed: at least minus the smallest cell value, " +
-                               short_number(-units.to_user_energy(*q_min)) + ", or 'auto')");
+                               short_number(-units.to_user_energy(q_min)) + ", or 'auto')");
           }
         shifts.push_back(shift);
         for (std::size_t b = 0; b < boundaries.size(); ++b)
           {
             const auto start = std::chrono::steady_clock::now();
             const LandscapeField field =
-              solve_landscape(*discretisations[b], *problems[b], q, shift, settings_.tolerance);
+              solve_landscape(*discretisations[b], *problems[b],
+                              distributed && b > 0 ? draw(*discretisations[b]) : q, shift,
+                              settings_.tolerance);
             std::vector<double> counts =
               landscape_counts(*discretisations[b], dim, field, solver_energies);
             landscape_seconds[b] +=
@@ -161,6 +206,8 @@ namespace alloyspec
           }
       }
     progress.finish();
+    if (!root)
+      return {};
 
     // landscape.csv: per boundary the landscape count, and the exact one where stored.
     std::ostringstream csv;

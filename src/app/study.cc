@@ -26,6 +26,7 @@
 #include <filesystem>
 #include <fstream>
 #include <iostream>
+#include <limits>
 #include <numeric>
 #include <optional>
 #include <cmath>
@@ -66,6 +67,17 @@ namespace alloyspec
       std::string                           name_;
       std::chrono::steady_clock::time_point start_;
     };
+
+    /** This process's resident high-water mark (VmHWM of /proc/self/status) in MiB; 0 if unknown. */
+    double high_water_mib()
+    {
+      std::ifstream status("/proc/self/status");
+      std::string   line;
+      while (std::getline(status, line))
+        if (line.rfind("VmHWM:", 0) == 0)
+          return std::strtod(line.c_str() + 6, nullptr) / 1024.0;
+      return 0.0;
+    }
 
     /** Bytes of physical memory of this machine (0 if unknown). */
     double physical_memory_bytes()
@@ -278,10 +290,16 @@ namespace alloyspec
 
   void Study::make_grid()
   {
+    // The baseline of the per-rank memory figures of run.json: what MPI,
+    // PETSc and the libraries hold before any part of the problem exists.
+    memory_before_mesh_mib_ = high_water_mib();
     discretisations_.clear();
+    const bool distributed = model_.distributed_mesh();
     for (const Boundary bc : model_.boundaries())
       {
-        discretisations_.push_back(model_.make_discretisation(bc));
+        discretisations_.push_back(
+          distributed ? model_.make_distributed_discretisation(bc, teams_->communicator()) :
+                        model_.make_discretisation(bc));
         discretisations_.back()->make_grid();
       }
     if (dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0 && !discretisations_.empty())
@@ -373,8 +391,13 @@ namespace alloyspec
   {
     const auto start = std::chrono::steady_clock::now();
     // Drawn once: the solver's values and the likelihood ratio of the same cells.
-    const std::vector<double> q_user = model_.potential().cell_values(model_.study().seed, realisation);
-    const std::vector<double> q      = model_.units().to_solver_energies(q_user);
+    // On a distributed mesh a rank draws the values of its own cells only.
+    const Discretisation     &mesh   = *discretisations_[b];
+    const std::vector<double> q_user =
+      mesh.distributed() ?
+        model_.potential().cell_values(model_.study().seed, realisation, mesh.local_cells()) :
+        model_.potential().cell_values(model_.study().seed, realisation);
+    const std::vector<double> q = model_.units().to_solver_energies(q_user);
     discretisations_[b]->assemble_potential(q, *problems_[b]);
     EigenResult result = solver_->solve(*problems_[b]);
 
@@ -388,10 +411,24 @@ namespace alloyspec
     record.verified_by    = result.verified_by;
     record.enclosure_lower = result.enclosure_lower;
     record.enclosure_upper = result.enclosure_upper;
-    record.potential_min  = *std::min_element(q.begin(), q.end());
-    record.potential_max  = *std::max_element(q.begin(), q.end());
+    // A rank of a distributed mesh may own no element of a tiny box: ±∞ then.
+    record.potential_min = std::numeric_limits<double>::infinity();
+    record.potential_max = -record.potential_min;
+    for (const double v : q)
+      record.potential_min = std::min(record.potential_min, v),
+      record.potential_max = std::max(record.potential_max, v);
     record.attempts       = result.attempts;
-    record.log_weight     = model_.potential().log_weight(q_user);
+    if (mesh.distributed())
+      {
+        // The extremes over the whole box; plain sampling only
+        // (StudyModel::distributed_mesh), whose log-likelihood ratio is 0.
+        const MPI_Comm team  = teams_->communicator();
+        record.potential_min = dealii::Utilities::MPI::min(record.potential_min, team);
+        record.potential_max = dealii::Utilities::MPI::max(record.potential_max, team);
+        record.log_weight    = 0.0;
+      }
+    else
+      record.log_weight = model_.potential().log_weight(q_user);
     // The central cell (floor(L_i/2)) for the local-trace estimator.
     std::array<unsigned int, 3> centre{{0, 0, 0}};
     for (unsigned int d = 0; d < model_.lattice().dimension(); ++d)
@@ -449,13 +486,17 @@ namespace alloyspec
   {
     // Maps for the report of a fixed potential: its first realisation only.
     const bool fixed = !model_.potential().is_random() || model_.study().realisations == 1;
-    if (!fixed || realisation != model_.study().first_realisation || (teams_ && !teams_->leader()) ||
-        result.eigenvectors.empty())
+    // On a distributed mesh every rank of the team samples its own elements.
+    const bool together = discretisations_[b]->distributed();
+    if (!fixed || realisation != model_.study().first_realisation ||
+        (teams_ && !teams_->leader() && !together) || result.eigenvectors.empty())
       return;
     const std::size_t count = std::min<std::size_t>(result.eigenvectors.size(), 4);
     std::vector<std::vector<std::array<double, 3>>> slices;
     for (std::size_t j = 0; j < count; ++j)
       slices.push_back(discretisations_[b]->slice_values(result.eigenvectors[j]));
+    if (teams_ && !teams_->leader())
+      return;
     std::ostringstream csv;
     const std::string  unit = model_.units().is_physical() ? "_" + model_.units().length_label() : "";
     csv << "x" << unit << ",y" << unit;
@@ -560,6 +601,10 @@ namespace alloyspec
           throw_if_any_failed(comm, error, input_error);
       }
     progress.finish();
+    const double high_water = high_water_mib();
+    memory_per_rank_ = {dealii::Utilities::MPI::max(memory_before_mesh_mib_, comm),
+                        dealii::Utilities::MPI::max(high_water, comm),
+                        dealii::Utilities::MPI::max(high_water - memory_before_mesh_mib_, comm)};
     // Rank 0 writes run.json: it collects every leader's factor work.
     const auto gathered = dealii::Utilities::MPI::gather(comm, factor_work_, 0);
     if (rank == 0)
@@ -727,6 +772,14 @@ namespace alloyspec
       phases[name] = json_number(seconds);
     manifest["timings_seconds"]       = phases;
     manifest["memory_high_water_mib"] = json_number(usage.ru_maxrss / 1024.0);
+    manifest["mesh"] = !discretisations_.empty() && discretisations_.front()->distributed() ?
+                         "distributed" : "serial";
+    // VmHWM of every rank: the largest baseline (before the mesh), the
+    // largest high-water mark, and the largest difference of the two, which
+    // is what a rank allocated for its part of the problem.
+    manifest["memory_per_rank"] = {{"before_mesh_mib", json_number(memory_per_rank_[0])},
+                                   {"high_water_mib", json_number(memory_per_rank_[1])},
+                                   {"problem_mib", json_number(memory_per_rank_[2])}};
     manifest["factor_work"] = factor_work_json(factor_work_, factor_work_stride, model_.boundaries());
     manifest["parameters"] = options.parameters_json.empty() ? Json::object() :
                                                                Json::parse(options.parameters_json);

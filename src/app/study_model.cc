@@ -8,6 +8,7 @@
 #include <alloyspec/io/parameter_text.h>
 #include <alloyspec/io/results_store.h>
 #include <alloyspec/model/weyl_law.h>
+#include <alloyspec/solver/direct_path_model.h>
 #include <alloyspec/solver/landscape.h>
 
 #include <deal.II/base/parameter_handler.h>
@@ -204,6 +205,28 @@ namespace alloyspec
                                   halved ? richer_settings(discretisation_, RicherSpace::mesh) :
                                            discretisation_,
                                   geometry_.conditions(bracketing, lattice_.dimension()));
+  }
+
+  bool StudyModel::distributed_mesh() const
+  {
+    if (lattice_.dimension() < 2 || geometry_.has_mesh() || sampling_.is_tilted() ||
+        error_estimate().enabled() || discretisation_.accuracy || !study_.export_eigenfunctions.empty())
+      return false;
+    if (solver_.method == "iterative")
+      return true;
+    if (solver_.method != "auto")
+      return false;
+    const unsigned int k = solver_.energy_cutoff ? solver_.max_eigenvalues : solver_.n_eigenvalues;
+    return estimate_direct_path(lattice_.cells(), discretisation_.degree,
+                                discretisation_.elements_per_cell, k)
+             .dofs >= solver_.auto_crossover;
+  }
+
+  std::unique_ptr<Discretisation> StudyModel::make_distributed_discretisation(const Boundary bracketing,
+                                                                              MPI_Comm comm) const
+  {
+    return Discretisation::create_distributed(
+      lattice_, discretisation_, geometry_.conditions(bracketing, lattice_.dimension()), comm);
   }
 
   std::unique_ptr<Discretisation> StudyModel::assembled_discretisation(const Boundary bracketing) const

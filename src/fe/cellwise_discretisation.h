@@ -459,6 +459,8 @@ namespace alloyspec::internal
             }
     }
 
+  public:
+    // Shared with the distributed box (distributed_box.cc), whose elements are translates too.
     /** @f$\mathrm{tr}(M_e^{-1}A_e)@f$, an upper bound of the element pencil's eigenvalues. */
     static double pencil_bound(const dealii::FullMatrix<double> &mass,
                                const dealii::FullMatrix<double> &stiffness)
@@ -481,6 +483,7 @@ namespace alloyspec::internal
       return smallest;
     }
 
+  protected:
     dealii::Vector<double> full_vector(const std::vector<double> &u) const
     {
       dealii::Vector<double> v(u.begin(), u.end());

@@ -391,6 +391,37 @@ namespace alloyspec
     return q;
   }
 
+  std::vector<double> PotentialModel::cell_values(const std::uint64_t seed,
+                                                  const std::uint64_t realisation,
+                                                  const std::vector<std::size_t> &cells) const
+  {
+    std::vector<double> q(cells.size());
+    if (!law_)
+      {
+        if (n_cells_ == 0)
+          throw std::logic_error("PotentialModel::cell_values: no law and no values set");
+        for (std::size_t i = 0; i < cells.size(); ++i)
+          q[i] = fixed_values_.at(cells[i]);
+        return q;
+      }
+    // As the whole-box draw: the window's component first, then each cell.
+    long window = -1;
+    if (windows_ && tilted_law_)
+      window = windows_->component(uniform_open01(seed, realisation, 0, window_draw));
+    const SingleSiteLaw &law = *sampling_law();
+    for (std::size_t i = 0; i < cells.size(); ++i)
+      {
+        const std::size_t n = cells[i];
+        if (n >= n_cells_)
+          throw std::logic_error("PotentialModel::cell_values: cell index beyond the lattice");
+        const SingleSiteLaw &from =
+          windows_ && tilted_law_ ? (window >= 0 && windows_->contains(std::size_t(window), n) ?
+                                       *tilted_law_ : *law_) : law;
+        q[i] = from.quantile(uniform_open01(seed, realisation, n));
+      }
+    return q;
+  }
+
   void PotentialModel::set_tilt_window(const unsigned int edge, const double untilted_share)
   {
     if (edge == 0)

@@ -504,8 +504,9 @@ namespace alloyspec
   {
     if (std::find(first_solved_.begin(), first_solved_.end(), &problem) == first_solved_.end())
       first_solved_.push_back(&problem);
-    Pencil pencil{problem.K, problem.M, &problem};
-    if (teams_ && teams_->size() > 1)
+    Pencil pencil{problem.stiffness(), problem.mass(), &problem};
+    // A distributed mesh's pencil is already spread over its team.
+    if (teams_ && teams_->size() > 1 && !problem.distributed)
       {
         const backend::MatrixPair copy = teams_->distributed(problem);
         pencil.K = copy.K;

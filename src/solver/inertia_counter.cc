@@ -24,7 +24,7 @@ namespace alloyspec
 
   std::size_t InertiaCounter::count_below(const SpectralProblem &problem, const double energy)
   {
-    const std::size_t n_negative = negative_pivots(backend::MatrixPair{problem.K, problem.M}, energy);
+    const std::size_t n_negative = negative_pivots(backend::MatrixPair{problem.stiffness(), problem.mass()}, energy);
     // Above μ the constrained rows count too; every genuine eigenvalue is below μ.
     return std::min(n_negative, problem.n_genuine());
   }

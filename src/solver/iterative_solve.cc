@@ -172,7 +172,7 @@ namespace alloyspec
       };
     op.fixed.resize(op.n_local);
     for (std::size_t i = 0; i < op.n_local; ++i)
-      op.fixed[i] = problem.constrained[op.row_offset + i];
+      op.fixed[i] = problem.constrained[op.row_offset + i - problem.first_row];
 
     PetscReal k_norm = 0, m_norm = 0;
     ALLOYSPEC_CHECK(MatNorm(pencil.K, NORM_INFINITY, &k_norm));
@@ -189,6 +189,9 @@ namespace alloyspec
       {
         LobpcgSettings ls;
         ls.block_size     = block;
+        // The stop rule below replaces the count; it must still fit the block
+        // (its default of 10 did not for fewer than 5 wanted pairs).
+        ls.n_converged_needed = std::min<unsigned int>(block, static_cast<unsigned int>(wanted) + 1);
         ls.tolerance      = settings_.tolerance;
         ls.max_iterations = max_iterations;
         // Stop once the list up to the first gap at or beyond the wanted count,
@@ -270,8 +273,13 @@ namespace alloyspec
             result.eigenvalues.push_back(theta);
             result.residuals.push_back(std::sqrt(rr(i, i)) /
                                        (std::max(std::abs(theta), 1.0) * std::sqrt(mm[i])));
-            result.eigenvectors.push_back(gather_whole(comm, x.col(i).data(), op.n_local,
-                                                       static_cast<std::size_t>(n_global)));
+            // A distributed mesh keeps each rank's rows (its localisation
+            // measures integrate over owned elements); a serial one, whole vectors.
+            if (problem.distributed)
+              result.eigenvectors.emplace_back(x.col(i).data(), x.col(i).data() + op.n_local);
+            else
+              result.eigenvectors.push_back(gather_whole(comm, x.col(i).data(), op.n_local,
+                                                         static_cast<std::size_t>(n_global)));
           }
         if (problem.mass_floor > 0)
           {

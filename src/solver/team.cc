@@ -84,6 +84,10 @@ namespace alloyspec
   unsigned int RealisationTeams::count() const { return impl_->count; }
   unsigned int RealisationTeams::index() const { return impl_->index; }
   bool         RealisationTeams::leader() const { return impl_->rank == 0; }
+  MPI_Comm     RealisationTeams::communicator() const
+  {
+    return impl_->size > 1 ? impl_->comm : MPI_COMM_SELF;
+  }
 
   backend::MatrixPair RealisationTeams::distributed(const SpectralProblem &problem)
   {

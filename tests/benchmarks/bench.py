@@ -25,7 +25,10 @@
      them, the growth of its time with the number of unknowns (L = 16 to 48),
      the free box at L = 24 (Q2) against Kronecker sums of 1D spectra, and the
      lowest 20 Dirichlet eigenvalues at L = 48 (912,673 unknowns) and L = 64;
-  8. the direct path's goals in one run: the separable 8^3 case (lowest 50
+  8. the distributed mesh of the iterative path: per-rank memory of a team of
+     2 against 1 rank (L = 24), and the speed-up of a team of 2 ranks on one
+     realisation of L = 32 (k = 20, Q2, one element per cell) over 1 rank;
+  9. the direct path's goals in one run: the separable 8^3 case (lowest 50
      Dirichlet eigenvalues against the exact separated reference) FE at <= 1e-4
      against FD with 4 points per cell edge; L = 12, k = 200 against the
      baseline solver; the eigen-solve against its roofline bound at L = 8 and
@@ -655,7 +658,7 @@ def deep_tail_goals(exe, work, quick):
 
 
 # ---------------------------------------------------------------------------
-# 8. The direct path's goals (issue 16), as measured ratios in one run.
+# 9. The direct path's goals (issue 16), as measured ratios in one run.
 
 def separable_reference(L, a, b, c, k):
     """Lowest k Dirichlet eigenvalues of -Laplace + a(x) + b(y) + c(z) on [0, L]^3 with a, b, c
@@ -738,7 +741,7 @@ def orderings(ordering_probe, quick):
 
 
 def direct_path_goals(exe, work, quick, probe, ordering_probe):
-    section("8. the direct path's goals (issue 16), measured side by side in this run")
+    section("9. the direct path's goals (issue 16), measured side by side in this run")
     orderings(ordering_probe, quick)
     print(f"load average before: {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
     os.environ["OPENBLAS_NUM_THREADS"] = "1"
@@ -937,14 +940,34 @@ def iterative_solver(exe, work, quick):
         print(f"time ~ DoFs^{slope:.2f} from L = {inner[0][0]} to L = {inner[-1][0]} (goal: at most 1.15)")
 
 
+def distributed_mesh(exe, work, quick):
+    section("8. distributed mesh (iterative path): a team of 2 ranks against 1 rank on one realisation")
+    print("(the machine is shared with other builds while this runs: times carry their load)")
+    q2 = ["discretisation/degree=2", "discretisation/elements per cell=1", "spectrum/tolerance=1e-10",
+          "spectrum/solver=iterative", "spectrum/inertia check limit=0"]
+    for L in ([12] if quick else [24, 32]):
+        one = run_study(exe, work, f"dist_{L}_1", box(L, 20, 1, q2))
+        two = run_study(exe, work, f"dist_{L}_2", box(L, 20, 1, q2), ranks=2, cli=["--ranks-per-realisation", "2"])
+        key = (0, "dirichlet")
+        worst = max(abs(x - y) / max(abs(x), 1) for x, y in zip(one["eigenvalues"][key], two["eigenvalues"][key]))
+        mem = []
+        for name in (f"dist_{L}_1", f"dist_{L}_2"):
+            with open(os.path.join(work, name, "run.json")) as f:
+                mem.append(json.load(f)["memory_per_rank"]["problem_mib"])
+        print(f"L = {L} ({one['dofs']['dirichlet']} DoFs): 1 rank {one['per_solve']:.1f} s, {mem[0]:.0f} MiB; "
+              f"team of 2 {two['per_solve']:.1f} s, {mem[1]:.0f} MiB per rank; speed-up "
+              f"{one['per_solve'] / two['per_solve']:.2f}x (goal at L = 32: 1.7x), memory per rank "
+              f"{mem[1] / mem[0]:.2f} of one rank's (goal 0.6); eigenvalues agree to {worst:.1e}")
+
+
 def main():
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("exe")
     parser.add_argument("--quick", action="store_true", help="small sizes, about a minute")
     parser.add_argument("--work", default="bench-work")
-    parser.add_argument("--only", default="12345678", help="which parts to run, e.g. 14")
-    parser.add_argument("--probe", default=None, help="the roofline_probe executable (parts 5 and 8)")
-    parser.add_argument("--ordering-probe", default=None, help="the ordering_probe executable (part 8)")
+    parser.add_argument("--only", default="123456789", help="which parts to run, e.g. 14")
+    parser.add_argument("--probe", default=None, help="the roofline_probe executable (parts 5 and 9)")
+    parser.add_argument("--ordering-probe", default=None, help="the ordering_probe executable (part 9)")
     args = parser.parse_args()
     os.makedirs(args.work, exist_ok=True)
     start = time.perf_counter()
@@ -952,7 +975,8 @@ def main():
           f"{os.cpu_count()} CPUs; one BLAS thread per process")
     parts = {"1": tuned_vs_baseline, "2": mpi_throughput, "3": growth, "4": accuracy_per_cost,
              "5": lambda exe, work, quick: roofline(exe, work, quick, args.probe), "6": deep_tail_goals, "7": iterative_solver,
-             "8": lambda exe, work, quick: direct_path_goals(exe, work, quick, args.probe, args.ordering_probe)}
+             "8": distributed_mesh,
+             "9": lambda exe, work, quick: direct_path_goals(exe, work, quick, args.probe, args.ordering_probe)}
     for key in args.only:
         parts[key](args.exe, args.work, args.quick)
     print(f"\nbenchmark wall time {time.perf_counter() - start:.0f} s")

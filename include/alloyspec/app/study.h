@@ -8,6 +8,7 @@
 
 #include <cstdint>
 #include <map>
+#include <array>
 #include <memory>
 #include <optional>
 #include <string>
@@ -175,5 +176,9 @@ namespace alloyspec
      */
     std::vector<double>                           factor_work_;
     static constexpr std::size_t                  factor_work_stride = 13;
+    /** This rank's VmHWM (MiB) when make_grid() began. */
+    double                                        memory_before_mesh_mib_ = 0;
+    /** After solve(), over all ranks: largest baseline, high-water mark, and their difference (MiB). */
+    std::array<double, 3>                         memory_per_rank_{{0, 0, 0}};
   };
 } // namespace alloyspec

@@ -118,6 +118,20 @@ namespace alloyspec
      */
     std::unique_ptr<Discretisation> make_discretisation(Boundary bracketing, bool halved = false) const;
     /**
+     * Whether `run` builds its meshes distributed over each team of ranks
+     * (Discretisation::create_distributed): for the iterative solver
+     * (`spectrum/solver = iterative`, or `auto` from `spectrum/auto
+     * crossover` unknowns on) on a 2D or 3D box, with plain sampling, no
+     * error estimate or accuracy target, and no eigenfunction export. The
+     * other cases keep the serial mesh on every rank: their parts (the
+     * richer space of the error estimate, the tilt's likelihood ratio over
+     * all cells, VTU output, 1D) work on whole vectors.
+     */
+    bool distributed_mesh() const;
+    /** The box of make_discretisation(@p bracketing) on a mesh distributed over @p comm. */
+    std::unique_ptr<Discretisation> make_distributed_discretisation(Boundary bracketing,
+                                                                    MPI_Comm comm) const;
+    /**
      * make_discretisation() with its mesh, unknowns and fixed matrices made
      * (what count and landscape solve on; run times these phases one by one).
      */

@@ -14,6 +14,9 @@ namespace alloyspec::backend
    */
   using SparseMatrix = dealii::PETScWrappers::SparseMatrix;
 
+  /** Sparse matrix distributed by rows (PETSc MPIAIJ): the pencil of a distributed mesh. */
+  using DistributedSparseMatrix = dealii::PETScWrappers::MPI::SparseMatrix;
+
   /**
    * Non-owning handles of a pencil's two matrices (K, M): the serial ones of
    * a SpectralProblem, or a copy distributed by rows over a team of ranks

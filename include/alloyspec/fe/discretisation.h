@@ -3,6 +3,8 @@
 
 #include <alloyspec/model/boundary.h>
 
+#include <mpi.h>
+
 #include <cstddef>
 #include <array>
 #include <memory>
@@ -87,7 +89,36 @@ namespace alloyspec
                                                             const std::string &           mesh_file,
                                                             unsigned int                  refinements,
                                                             Boundary                      bc);
+    /**
+     * The box of @p lattice (2D or 3D) on a distributed mesh over @p comm
+     * (deal.II's p4est triangulation; distributed_box.cc): each rank holds
+     * its own elements, a ghost layer, and its rows of K and M, with
+     * constraints on its locally relevant DoFs. The same space, constraints
+     * and pushed-out value μ as create(), so the same genuine eigenvalues.
+     * Differences, all collective over @p comm: assemble_potential() takes
+     * the values of local_cells() only; make_problem() gives a problem with
+     * SpectralProblem::distributed set; localisation_measures() takes each
+     * rank's owned rows; slice_values() gives every sample on rank 0 of
+     * @p comm; load_vector() gives this rank's rows, and quadrature_values()
+     * takes this rank's rows and gives the points of its own elements.
+     * complete() and write_vtu() are for serial meshes only (std::logic_error).
+     */
+    static std::unique_ptr<Discretisation> create_distributed(const Lattice &                lattice,
+                                                              const DiscretisationSettings &settings,
+                                                              const BoundaryConditions &    bcs,
+                                                              MPI_Comm                      comm);
     virtual ~Discretisation() = default;
+
+    /** True for a distributed mesh (create_distributed()). */
+    virtual bool distributed() const { return false; }
+    /** The ranks that share the mesh: MPI_COMM_SELF for a serial one. */
+    virtual MPI_Comm communicator() const { return MPI_COMM_SELF; }
+    /**
+     * A distributed mesh: the lattice cells (Lattice::cell_index) of this
+     * rank's elements, ascending, in the order assemble_potential() takes
+     * their values. A serial mesh: empty (assemble_potential() takes every cell).
+     */
+    virtual std::vector<std::size_t> local_cells() const { return {}; }
 
     /** Builds the mesh aligned with the cells. */
     virtual void make_grid() = 0;

@@ -19,7 +19,20 @@ namespace alloyspec
   {
     backend::SparseMatrix K;
     backend::SparseMatrix M;
-    std::vector<bool>     constrained;        ///< per DoF
+    /**
+     * Per DoF, or on a distributed mesh per owned row: entry i is row
+     * first_row + i.
+     */
+    std::vector<bool>     constrained;
+    /**
+     * A problem of a distributed mesh (Discretisation::create_distributed):
+     * its pencil is K_parts, M_parts, distributed by rows over the mesh's
+     * communicator (K and M stay empty), and constrained covers the owned rows.
+     */
+    bool                             distributed = false;
+    backend::DistributedSparseMatrix K_parts, M_parts;
+    std::size_t                      first_row    = 0; ///< global index of constrained[0]
+    std::size_t                      genuine_rows = 0; ///< distributed: unconstrained rows of all ranks
     double                spurious_eigenvalue = 0;
     double                lower_bound = 0;    ///< every eigenvalue is ≥ this (min of the potential)
     /**
@@ -55,7 +68,14 @@ namespace alloyspec
     /** Number of genuine eigenvalues: the DoFs that are not constrained (all lie below μ). */
     std::size_t n_genuine() const
     {
+      if (distributed)
+        return genuine_rows;
       return static_cast<std::size_t>(std::count(constrained.begin(), constrained.end(), false));
     }
+
+    /** The pencil's stiffness matrix: K, or K_parts of a distributed mesh. */
+    Mat stiffness() const { return distributed ? Mat(K_parts) : Mat(K); }
+    /** The pencil's mass matrix: M, or M_parts of a distributed mesh. */
+    Mat mass() const { return distributed ? Mat(M_parts) : Mat(M); }
   };
 } // namespace alloyspec

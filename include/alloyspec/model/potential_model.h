@@ -68,6 +68,13 @@ namespace alloyspec
      * A pure function of (seed, realisation, cell, tilt).
      */
     std::vector<double> cell_values(std::uint64_t seed, std::uint64_t realisation) const;
+    /**
+     * Values of the listed @p cells only (Lattice::cell_index), in that
+     * order: the same numbers as cell_values() at those indices, for a rank
+     * of a distributed mesh that holds only these cells.
+     */
+    std::vector<double> cell_values(std::uint64_t seed, std::uint64_t realisation,
+                                    const std::vector<std::size_t> &cells) const;
 
     /**
      * Draw cell values from the law tilted by θ (SingleSiteLaw::tilted(); θ in

@@ -47,7 +47,11 @@ namespace alloyspec
   /** One landscape solve: @f$u@f$ of @f$(H+\sigma)u = 1@f$ and what follows from it. */
   struct LandscapeField
   {
-    /** DoF values of u, completed (periodic images, Dirichlet zeros). */
+    /**
+     * DoF values of u, completed (periodic images, Dirichlet zeros); on a
+     * distributed mesh this rank's rows, uncompleted (its quadrature_values()
+     * completes them).
+     */
     std::vector<double> u;
     double              shift = 0;
     /**
@@ -62,7 +66,10 @@ namespace alloyspec
   /**
    * Solves @f$(-\Delta + V + \sigma)u = 1@f$ with the boundary conditions of
    * @p discretisation (Dirichlet: u = 0; Neumann: natural; periodic) by
-   * conjugate gradients preconditioned with algebraic multigrid (PETSc GAMG),
+   * conjugate gradients preconditioned with algebraic multigrid (Trilinos ML,
+   * the eigen-solver's ShiftedAmg at σ = 0), on a serial or a distributed mesh
+   * (then collective over its ranks; the minima are gathered on every rank,
+   * at most 1000 per rank),
    * @p cell_values in solver units, @p shift σ ≥ 0 (solver units) such that
    * @f$V+\sigma \ge 0@f$. @p problem is overwritten with @f$K = A + \sum_n(q_n+\sigma)M_n@f$.
    * Throws std::runtime_error when CG does not reach @p tolerance.
@@ -76,7 +83,7 @@ namespace alloyspec
    * @f$|\Omega|\,N_W(E) = \int_\Omega \frac{\omega_d}{(2\pi)^d}(E - W(x))_+^{d/2}\,dx@f$
    * (in 3D @f$(E-W)_+^{3/2}/(6\pi^2)@f$), by Gauss quadrature, for each of
    * @p energies (solver units). Where u ≤ 0 (a Dirichlet face), W = ∞ and
-   * nothing is counted.
+   * nothing is counted. On a distributed mesh collective, summed over its ranks.
    * (Arnold, David, Filoche, Jerison, Mayboroda, SIAM J. Sci. Comput. 41 (2019) B69–B92.)
    */
   std::vector<double> landscape_counts(const Discretisation &discretisation, unsigned int dimension,

@@ -3,6 +3,8 @@
 
 #include <alloyspec/fe/backend.h>
 
+#include <mpi.h>
+
 #include <memory>
 
 namespace alloyspec
@@ -36,6 +38,8 @@ namespace alloyspec
     unsigned int count() const;  ///< number of teams
     unsigned int index() const;  ///< this rank's team
     bool         leader() const; ///< rank 0 of its team (the one that reports)
+    /** The team's communicator (MPI_COMM_SELF for teams of one): that of its distributed mesh. */
+    MPI_Comm     communicator() const;
 
     /**
      * The team's row-distributed copy of @p problem's K and M (created on

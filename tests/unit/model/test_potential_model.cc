@@ -285,6 +285,41 @@ TEST(PotentialModel, CellValuesAreTheQuantilesOfTheStream)
 }
 
 
+TEST(PotentialModel, ValuesOfListedCellsAreThoseOfTheWholeBox)
+{
+  // A rank of a distributed mesh draws only its cells: the same numbers as
+  // the whole draw at those indices, plain, tilted, and with a tilt window
+  // (whose component is drawn once per realisation, not per rank).
+  const Lattice                  lattice({6, 5, 4});
+  const std::vector<std::size_t> cells{0, 3, 17, 58, 59, 119};
+  PotentialModel                 model;
+  model.set_law(alloyspec::make_bernoulli_law(0.3, 1.0, 0.0), lattice);
+  const auto check = [&](const std::string &what) {
+    for (const std::uint64_t r : {0u, 1u, 7u})
+      {
+        const std::vector<double> whole = model.cell_values(21, r);
+        const std::vector<double> some  = model.cell_values(21, r, cells);
+        ASSERT_EQ(some.size(), cells.size()) << what;
+        for (std::size_t i = 0; i < cells.size(); ++i)
+          EXPECT_EQ(some[i], whole[cells[i]]) << what << ", realisation " << r << ", cell " << cells[i];
+      }
+  };
+  check("plain");
+  model.set_tilt(1.5);
+  check("tilted");
+  model.set_tilt_window(3, 0.2);
+  check("tilt window");
+  PotentialModel fixed;
+  std::vector<double> values(lattice.n_cells());
+  for (std::size_t n = 0; n < values.size(); ++n)
+    values[n] = 0.25 * double(n);
+  fixed.set_fixed_values(values, lattice);
+  const std::vector<double> some = fixed.cell_values(1, 0, cells);
+  for (std::size_t i = 0; i < cells.size(); ++i)
+    EXPECT_EQ(some[i], values[cells[i]]);
+}
+
+
 TEST(PotentialModel, SameKeySameValuesOtherwiseDifferent)
 {
   const Lattice  lattice({32, 32});

@@ -143,3 +143,53 @@ namespace alloyspec
       }
   }
 } // namespace alloyspec
+
+namespace alloyspec
+{
+  // The landscape on the distributed mesh (one rank here; 1 and 2 ranks end
+  // to end in tests/e2e/landscape_ranks.sh) against the serial box: the same
+  // problem, so the same counts N_W(E) and the same minima of W, up to the
+  // algebraic error of the two CG solves.
+  TEST(Landscape, DistributedMeshGivesTheSerialCountsAndMinima)
+  {
+    // Both solves stop at 1e-12; counts and minima then agree to about the
+    // condition number (~1e3) times that (common practice, no source).
+    constexpr double tolerance = 1e-12, agreement = 1e-8;
+    const Lattice    lattice({5, 4, 4});
+    std::mt19937     rng(5);
+    std::uniform_real_distribution<double> law(0.0, 4.0);
+    std::vector<double>                    q(lattice.n_cells());
+    for (double &x : q)
+      x = law(rng); // invented test data
+    const std::vector<double> energies{0.5, 1.0, 2.0, 4.0};
+    for (const Boundary bc : {Boundary::dirichlet, Boundary::neumann, Boundary::periodic})
+      {
+        const DiscretisationSettings ds(2, 1);
+        const BoundaryConditions     bcs(3, bc);
+        auto serial = Discretisation::create(lattice, ds, bcs);
+        auto parts  = Discretisation::create_distributed(lattice, ds, bcs, MPI_COMM_WORLD);
+        for (auto *d : {serial.get(), parts.get()})
+          {
+            d->make_grid();
+            d->setup_system();
+            d->assemble_fixed();
+          }
+        auto serial_problem = serial->make_problem();
+        auto parts_problem  = parts->make_problem();
+        std::vector<double> local;
+        for (const std::size_t c : parts->local_cells())
+          local.push_back(q[c]);
+        const LandscapeField a = solve_landscape(*serial, *serial_problem, q, 0.1, tolerance);
+        const LandscapeField b = solve_landscape(*parts, *parts_problem, local, 0.1, tolerance);
+        const auto           na = landscape_counts(*serial, 3, a, energies);
+        const auto           nb = landscape_counts(*parts, 3, b, energies);
+        for (std::size_t i = 0; i < energies.size(); ++i)
+          EXPECT_NEAR(nb[i], na[i], agreement * std::max(na[i], 1.0)) << to_string(bc) << " E = " << energies[i];
+        ASSERT_EQ(b.minima.size(), a.minima.size()) << to_string(bc);
+        for (std::size_t k = 0; k < a.minima.size(); ++k)
+          EXPECT_NEAR(b.minima[k], a.minima[k], agreement * std::max(std::abs(a.minima[k]), 1.0))
+            << to_string(bc) << " minimum " << k;
+        EXPECT_FALSE(a.minima.empty()) << to_string(bc);
+      }
+  }
+} // namespace alloyspec
