@@ -234,6 +234,11 @@ namespace alloyspec::internal
     MPI_Comm_size(comm, &processes);
     PetscInt rows = 0;
     ALLOYSPEC_CHECK(MatGetSize(K, &rows, nullptr));
+    // The direct route reads PETSc's sequential storage (a distributed mesh's
+    // matrices may be of the parallel type even on a team of one).
+    PetscBool k_sequential = PETSC_FALSE, m_sequential = PETSC_FALSE;
+    ALLOYSPEC_CHECK(PetscObjectTypeCompare(reinterpret_cast<PetscObject>(K), MATSEQAIJ, &k_sequential));
+    ALLOYSPEC_CHECK(PetscObjectTypeCompare(reinterpret_cast<PetscObject>(M), MATSEQAIJ, &m_sequential));
     // Another matrix (or a changed pattern): the analysis must be redone.
     if ((!factor_ && !direct_) || k_id != k_id_ || pattern != pattern_)
       {
@@ -243,7 +248,7 @@ namespace alloyspec::internal
         rhs_block_ = 0;
         k_id_      = k_id;
         pattern_   = pattern;
-        if (processes == 1 && rows >= metis_from)
+        if (processes == 1 && rows >= metis_from && k_sequential && m_sequential)
           {
             direct_ = std::make_unique<Direct>();
             direct_->analyse(K, M, comm, inertia_ == Inertia::counted);
