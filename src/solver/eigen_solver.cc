@@ -367,11 +367,6 @@ namespace alloyspec
   namespace
   {
     /**
-     * Block shift-and-invert Krylov–Schur (block_krylov.h) with σ below the
-     * spectrum. The residuals are then recomputed from K and M exactly as
-     * for the SLEPc path, so both are judged alike.
-     */
-    /**
      * Where σ of block_pairs lies. below_spectrum: a fresh factorisation of
      * K − σM (positive definite), the wanted pairs the largest
      * θ = 1/(λ − σ). at_cut: the factor already holds K − σM at σ = the
@@ -386,6 +381,12 @@ namespace alloyspec
       at_cut
     };
 
+    /**
+     * Block shift-and-invert Krylov–Schur (block_krylov.h) with σ below the
+     * spectrum, or at the energy cutoff (ShiftPlace). The residuals are then
+     * recomputed from K and M exactly as for the SLEPc path, so both are
+     * judged alike.
+     */
     RawPairs block_pairs(Mat K, Mat M, const SpectralProblem &problem, EigenSolver::BlockFactor &f,
                          unsigned int nev, double sigma, const EigenSolverSettings &settings,
                          SolveWork &work, ShiftPlace place = ShiftPlace::below_spectrum)

@@ -88,6 +88,17 @@ namespace alloyspec::internal
    * detection on, ICNTL(24) = 1, and the root node without ScaLAPACK,
    * ICNTL(13) = 1); then negative_pivots() is, by Sylvester's law of inertia,
    * the number of eigenvalues of the pencil (K, M) below σ.
+   *
+   * Two routes to MUMPS, the same LDLᵀ (SYM = 2) and the same controls:
+   * - on one process, MUMPS's own C interface with a nested-dissection
+   *   ordering from METIS (METIS_NodeND on the graph of K, handed over as
+   *   PERM_IN with ICNTL(7) = 1), which PETSc's interface does not pass for
+   *   a Cholesky factor. Measured on K's pattern (tests/benchmarks/
+   *   ordering_probe.cc, 35,937 unknowns, Q2, r = 2): entries 13.8M → 12.2M,
+   *   operations 1.33e10 → 0.87e10, factorisation 1.64 → 1.05 s, a solve of
+   *   8 columns 99 → 80 ms, against MUMPS's own choice among the orderings of
+   *   Debian's build (PORD);
+   * - on a team of processes, PETSc's MUMPS interface (distributed rows).
    */
   class ShiftedFactor
   {
@@ -97,9 +108,10 @@ namespace alloyspec::internal
       counted,
       not_needed
     };
-    explicit ShiftedFactor(Inertia inertia)
-      : inertia_(inertia)
-    {}
+    explicit ShiftedFactor(Inertia inertia);
+    ~ShiftedFactor();
+    ShiftedFactor(const ShiftedFactor &)            = delete;
+    ShiftedFactor &operator=(const ShiftedFactor &) = delete;
 
     /** Factorises K − σM (symbolic analysis only when K or its pattern changed). */
     void factorise(Mat K, Mat M, double sigma);
@@ -107,8 +119,6 @@ namespace alloyspec::internal
     std::size_t negative_pivots() const;
     /** Null pivots MUMPS detected in the last factorisation (Inertia::counted only). */
     std::size_t zero_pivots() const;
-    /** The factor, for triangular solves. */
-    Mat factor() const { return factor_; }
     /**
      * X = (K − σM)⁻¹ B for the @p columns columns of the dense B: one
      * multi-right-hand-side forward and backward solve, counted (solve_calls(),
@@ -151,6 +161,9 @@ namespace alloyspec::internal
     std::size_t symbolic_analyses() const { return n_symbolic_; }
 
   private:
+    /** MUMPS through its own C interface, one process (defined in shifted_factor.cc). */
+    struct Direct;
+    std::unique_ptr<Direct> direct_;
     Inertia          inertia_;
     OwnedMat         shifted_;
     OwnedMat         factor_;

@@ -27,7 +27,12 @@
      lowest 20 Dirichlet eigenvalues at L = 48 (912,673 unknowns) and L = 64;
   8. the distributed mesh of the iterative path: per-rank memory of a team of
      2 against 1 rank (L = 24), and the speed-up of a team of 2 ranks on one
-     realisation of L = 32 (k = 20, Q2, one element per cell) over 1 rank.
+     realisation of L = 32 (k = 20, Q2, one element per cell) over 1 rank;
+  9. the direct path's goals in one run: the separable 8^3 case (lowest 50
+     Dirichlet eigenvalues against the exact separated reference) FE at <= 1e-4
+     against FD with 4 points per cell edge; L = 12, k = 200 against the
+     baseline solver; the eigen-solve against its roofline bound at L = 8 and
+     12; band-edge time per realisation against one factorisation at L = 8.
 
 Usage: bench.py ALLOYSPEC_EXE [--quick] [--work DIR] [--probe ROOFLINE_PROBE_EXE]
 """
@@ -665,6 +670,204 @@ def deep_tail_goals(exe, work, quick):
 
 
 # ---------------------------------------------------------------------------
+# 9. The direct path's goals (issue 16), as measured ratios in one run.
+
+def separable_reference(L, a, b, c, k):
+    """Lowest k Dirichlet eigenvalues of -Laplace + a(x) + b(y) + c(z) on [0, L]^3 with a, b, c
+    constant on unit cells: sums of 1D eigenvalues (the operator separates exactly), each 1D
+    eigenvalue a zero of psi(L; E) from transfer matrices through the cells (exact solutions
+    sin/cos, sinh/cosh in each cell), bracketed on a fine energy grid and refined by Brent's method."""
+    from scipy.optimize import brentq
+
+    def psi_end(values, e):
+        psi, dpsi = 0.0, 1.0
+        for v in values:
+            q = e - v
+            if q > 0:
+                w = math.sqrt(q)
+                psi, dpsi = psi * math.cos(w) + dpsi * math.sin(w) / w, -psi * w * math.sin(w) + dpsi * math.cos(w)
+            elif q < 0:
+                w = math.sqrt(-q)
+                psi, dpsi = psi * math.cosh(w) + dpsi * math.sinh(w) / w, psi * w * math.sinh(w) + dpsi * math.cosh(w)
+            else:
+                psi = psi + dpsi
+        return psi
+
+    def levels(values, count):
+        # 1D Dirichlet levels are simple and at least ~ (pi / L)^2 apart near the bottom; a step of
+        # 1e-3 cannot step over two of them (checked: the count of found levels is contiguous).
+        found, e, step = [], min(values) + 1e-9, 1e-3
+        f0 = psi_end(values, e)
+        while len(found) < count:
+            f1 = psi_end(values, e + step)
+            if f0 == 0 or f0 * f1 < 0:
+                found.append(brentq(lambda x: psi_end(values, x), e, e + step, xtol=1e-15, rtol=1e-15))
+            e, f0 = e + step, f1
+        return found
+
+    m = 12  # 1D levels per direction; enough when the k-th sum lies below every sum using a 13th
+    la, lb, lc = levels(a, m), levels(b, m), levels(c, m)
+    sums = sorted(x + y + z for x in la for y in lb for z in lc)[:k]
+    assert sums[-1] < min(la[-1] + lb[0] + lc[0], la[0] + lb[-1] + lc[0], la[0] + lb[0] + lc[-1]), \
+        "more 1D levels needed for the separated reference"
+    return sums
+
+
+def roofline_bound(r, bandwidth, gemm):
+    """Lower bound on an eigen-solve's time from its factor work (as in part 5)."""
+    t_read = 2 * r["factor_passes"] * r["factor_bytes"] / bandwidth
+    t_flops = 4 * r["solved_columns"] * r["factor_entries"] / gemm
+    return max(t_read, t_flops) + r["factorisation_flops"] / gemm
+
+
+def orderings(ordering_probe, quick):
+    """The factor of the three roofline cases' pattern under MUMPS's orderings and METIS's."""
+    if not ordering_probe:
+        print("no ordering probe given (--ordering-probe); the orderings are not compared")
+        return
+    cases = [(4, 2, 2), (4, 4, 1), (6, 2, 2)] if quick else [(8, 2, 2), (8, 4, 1), (12, 2, 2)]
+    env = dict(os.environ, OPENBLAS_NUM_THREADS="1", OMP_NUM_THREADS="1")
+    print("fill-reducing ordering of K - sigma M (ordering_probe: the solver's pattern, invented values; "
+          "automatic = MUMPS's choice, what PETSc's interface used; metis = the solver's one-process factor; "
+          "factorisation and solve of 8 columns: best of 3):")
+    print(f"{'case':<14} {'ordering':<10} {'entries':>11} {'MiB':>7} {'operations':>11} {'analysis s':>10} "
+          f"{'factor s':>9} {'solve(8) s':>10}")
+    for L, p, r in cases:
+        out = subprocess.run([ordering_probe, str(L), str(p), str(r), "3"], check=True, capture_output=True,
+                             text=True, env=env).stdout
+        rows = [json.loads(line) for line in out.splitlines() if line.startswith("{")]
+        metis_s = next(x["metis_nodend_seconds"] for x in rows if "metis_nodend_seconds" in x)
+        by = {x["ordering"]: x for x in rows if "ordering" in x}
+        for name in ("automatic", "pord", "metis"):
+            x = by[name]
+            analysis = x["analysis_seconds"] + (metis_s if name == "metis" else 0)
+            print(f"{f'{L}^3 Q{p} r={r}':<14} {name:<10} {x['factor_entries']:>11} "
+                  f"{x['factor_entries'] * 8 / 2 ** 20:>7.1f} {x['factorisation_flops']:>11.3e} {analysis:>10.2f} "
+                  f"{x['factorisation_seconds']:>9.2f} {x['solve_8_columns_seconds']:>10.3f}")
+        a, m = by["automatic"], by["metis"]
+        print(f"{'':<14} metis / automatic: entries {m['factor_entries'] / a['factor_entries']:.2f}, operations "
+              f"{m['factorisation_flops'] / a['factorisation_flops']:.2f}, factorisation "
+              f"{m['factorisation_seconds'] / a['factorisation_seconds']:.2f}, solve "
+              f"{m['solve_8_columns_seconds'] / a['solve_8_columns_seconds']:.2f}; inertia of the same matrix "
+              f"{a['negative_pivots']} and {m['negative_pivots']} negative pivots")
+
+
+def direct_path_goals(exe, work, quick, probe, ordering_probe):
+    section("9. the direct path's goals (issue 16), measured side by side in this run")
+    orderings(ordering_probe, quick)
+    print(f"load average before: {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
+    os.environ["OPENBLAS_NUM_THREADS"] = "1"
+    os.environ["OMP_NUM_THREADS"] = "1"
+    try:
+        import scipy  # noqa: F401
+    except ImportError:
+        print("SciPy is not installed (Debian: apt-get install python3-scipy); skipped")
+        return
+    if not probe:
+        print("no roofline probe given (--probe); skipped")
+        return
+    ceilings = [machine_ceilings(probe) for _ in range(3)]
+    bandwidth = max(median([c["triad_bytes_per_second"] for c in ceilings]),
+                    median([c["read_bytes_per_second"] for c in ceilings]))
+    gemm = median([c["dgemm_flops_per_second"] for c in ceilings])
+    print(f"bandwidth {bandwidth / 1e9:.2f} GB/s, matrix product {gemm / 1e9:.2f} GFlop/s")
+
+    # --- Goal 1: the separable 8^3 case, lowest 50 Dirichlet eigenvalues, FE at <= 1e-4 against
+    # FD at 1.6e-2 (n = 4 points per cell edge); the reference is exact (separation).
+    L, k = (4, 20) if quick else (8, 50)
+    values = separable_cells(L)
+    a = [values[i] for i in range(L)]
+    b = [values[L * j] - values[0] for j in range(L)]
+    c = [values[L * L * kk] - values[0] for kk in range(L)]
+    reference = separable_reference(L, a, b, c, k)
+    cells = os.path.join(work, "goal_separable_cells.txt")
+    with open(cells, "w") as f:
+        f.write("# invented separable pattern a_i + b_j + c_k for the benchmark\n")
+        for kk in range(L):
+            for j in range(L):
+                for i in range(L):
+                    f.write(f"{i} {j} {kk} {values[i + L * (j + L * kk)]}\n")
+
+    def err(v):
+        return max(abs(x - y) / abs(y) for x, y in zip(v[:k], reference))
+
+    fe_rows = []
+    for p, r in ([(3, 1), (4, 1)] if not quick else [(3, 1)]):
+        res = run_study(exe, work, f"goal_fe_q{p}_r{r}",
+                        [f"lattice/cells={L},{L},{L}", "potential/law=file", f"potential/file={cells}",
+                         "study/realisations=1", f"spectrum/eigenvalues={k + 10}",
+                         "spectrum/boundary conditions=dirichlet", "study/energies=0 to 4 by 0.5",
+                         f"discretisation/degree={p}", f"discretisation/elements per cell={r}",
+                         "analysis/figure formats="])
+        fe_rows.append((f"FE Q{p}, r={r}", res["dofs"]["dirichlet"], err(res["eigenvalues"][(0, "dirichlet")]),
+                        res["per_solve"], res["wall"]))
+    fd_n = 4 if not quick else 2
+    v_fd, t_fd, n_fd = fd_eigenvalues(L, values, fd_n, k)
+    e_fd = err(v_fd)
+    print(f"separable {L}^3, lowest {k} Dirichlet eigenvalues against the exact separated reference:")
+    print(f"{'method':<14} {'unknowns':>9} {'max rel. error':>15} {'solve s':>8} {'wall s':>8}")
+    for name, dofs, e, t, wall in fe_rows:
+        print(f"{name:<14} {dofs:>9} {e:>15.2e} {t:>8.2f} {wall:>8.2f}")
+    print(f"{'FD n=' + str(fd_n):<14} {n_fd:>9} {e_fd:>15.2e} {t_fd:>8.2f} {'':>8}")
+    hit = next((row for row in fe_rows if row[2] <= 1e-4), None)
+    if hit is None:
+        print(f"GOAL 1 (error <= 1e-4 in <= 1/10 of FD's time at {e_fd:.1e}): no FE row reached 1e-4")
+    else:
+        print(f"GOAL 1 (error <= 1e-4 in <= 1/10 of FD's time at {e_fd:.1e}): {hit[0]} {hit[2]:.1e}; "
+              f"FE/FD time = {hit[3] / t_fd:.3f} (eigen-solve) and {hit[4] / t_fd:.3f} (whole run, start-up "
+              f"and tables included): {'MET' if hit[3] / t_fd <= 0.1 else 'NOT met'} by the solve, "
+              f"{'MET' if hit[4] / t_fd <= 0.1 else 'NOT met'} by the whole run")
+
+    # --- Goals 2 and 3: L = 12, k = 200 against the baseline; the roofline ratio at L = 8 and 12.
+    L12, k12 = (6, 50) if quick else (12, 200)
+    res = {}
+    for method in ("baseline", "tuned"):
+        res[method] = run_study(exe, work, f"goal_{L12}_{method}", box(L12, k12, 1, [f"spectrum/solver={method}"]))
+    bl, tu = res["baseline"], res["tuned"]
+    worst = max(abs(x - y) / max(abs(x), 1) for x, y in
+                zip(bl["eigenvalues"][(0, "dirichlet")], tu["eigenvalues"][(0, "dirichlet")]))
+    assert worst < 1e-10, f"tuned and baseline disagree by {worst}"
+    speedup = bl["per_solve"] / tu["per_solve"]
+    print(f"GOAL 2 (L = {L12}, k = {k12}: >= 6x the baseline): baseline {bl['per_solve']:.1f} s, tuned "
+          f"{tu['per_solve']:.1f} s, {speedup:.2f}x: {'MET' if speedup >= 6 else 'NOT met'} "
+          f"(eigenvalues agree to {worst:.1e})")
+    L8, k8 = (4, 20) if quick else (8, 50)
+    small = run_study(exe, work, f"goal_{L8}_tuned", box(L8, k8, 1))
+    for label, r in ((f"L = {L8}, k = {k8}", small), (f"L = {L12}, k = {k12}", tu)):
+        fw = [x for x in r["factor_work"] if x["boundary"] == "dirichlet"][0]
+        bound = roofline_bound(fw, bandwidth, gemm)
+        ratio = fw["eigen_solver_seconds"] / bound
+        rest = fw["eigen_solver_seconds"] - fw["factor_solve_seconds"] - fw["factorisation_seconds"]
+        print(f"GOAL 3 (eigen-solve within 2x of its roofline bound), {label}: bound {bound:.2f} s, measured "
+              f"{fw['eigen_solver_seconds']:.2f} s (solves {fw['factor_solve_seconds']:.2f}, factorisations "
+              f"{fw['factorisation_seconds']:.2f} ({fw['numeric_factorisations']}), Krylov rest {rest:.2f}), "
+              f"{ratio:.1f}x: {'MET' if ratio <= 2 else 'NOT met'}")
+
+    # --- Goal 4: band edge, L = 8, a handful of eigenvalues below the cutoff.
+    here = os.path.dirname(os.path.abspath(__file__))
+    alloy = [os.path.join(here, "..", "..", "configs", "binary_alloy_band_edge.prm")]
+    Lb = 6 if quick else 8
+    for r in (1, 2):
+        band = run_study(exe, work, f"goal_band_r{r}",
+                         [f"lattice/cells={Lb},{Lb},{Lb}", f"discretisation/elements per cell={r}",
+                          "spectrum/boundary conditions=dirichlet", "spectrum/energy cutoff=1.3",
+                          "study/energies=0.8 to 1.3 by 0.01", "analysis/figure formats=",
+                          "study/realisations=5"], cli=alloy)
+        fw = [x for x in band["factor_work"] if x["boundary"] == "dirichlet" and x["solve_calls"] > 0]
+        if not fw:
+            print(f"GOAL 4, r = {r}: no realisation had an eigenvalue below the cutoff")
+            continue
+        ratios = [x["realisation_seconds"] / (x["factorisation_seconds"] / x["numeric_factorisations"]) for x in fw]
+        counts = [n for n in band["n"] if n > 0]
+        print(f"GOAL 4 (band edge, L = {Lb}, Q2, r = {r}, {band['dofs']['dirichlet']} unknowns, eigenvalues below "
+              f"the cutoff per realisation {min(counts)}-{max(counts)}): realisation time / one factorisation, "
+              f"median {median(ratios):.2f} over {len(fw)} realisations, numeric factorisations per realisation "
+              f"{max(x['numeric_factorisations'] for x in fw)}: {'MET' if median(ratios) <= 1.5 else 'NOT met'} "
+              f"(goal 1.5)")
+    print(f"load average after: {' '.join(f'{x:.2f}' for x in os.getloadavg())}")
+
+
+# ---------------------------------------------------------------------------
 # 7. The iterative eigen-solver.
 
 def spectrum_1d_q2(L, bc):
@@ -774,8 +977,9 @@ def main():
     parser.add_argument("exe")
     parser.add_argument("--quick", action="store_true", help="small sizes, about a minute")
     parser.add_argument("--work", default="bench-work")
-    parser.add_argument("--only", default="12345678", help="which parts to run, e.g. 14")
-    parser.add_argument("--probe", default=None, help="the roofline_probe executable (part 5)")
+    parser.add_argument("--only", default="123456789", help="which parts to run, e.g. 14")
+    parser.add_argument("--probe", default=None, help="the roofline_probe executable (parts 5 and 9)")
+    parser.add_argument("--ordering-probe", default=None, help="the ordering_probe executable (part 9)")
     args = parser.parse_args()
     os.makedirs(args.work, exist_ok=True)
     start = time.perf_counter()
@@ -783,7 +987,8 @@ def main():
           f"{os.cpu_count()} CPUs; one BLAS thread per process")
     parts = {"1": tuned_vs_baseline, "2": mpi_throughput, "3": growth, "4": accuracy_per_cost,
              "5": lambda exe, work, quick: roofline(exe, work, quick, args.probe), "6": deep_tail_goals, "7": iterative_solver,
-             "8": distributed_mesh}
+             "8": distributed_mesh,
+             "9": lambda exe, work, quick: direct_path_goals(exe, work, quick, args.probe, args.ordering_probe)}
     for key in args.only:
         parts[key](args.exe, args.work, args.quick)
     print(f"\nbenchmark wall time {time.perf_counter() - start:.0f} s")
