@@ -26,8 +26,12 @@ namespace alloyspec
      * cross-entropy method; 0.1 is the usual choice, de Boer et al. 2005).
      */
     constexpr double elite_share = 0.1;
-    /** Levels of the multilevel method before it gives up lowering the level. */
-    constexpr unsigned int max_levels = 8;
+    /**
+     * Levels of the multilevel method before it gives up lowering the level.
+     * A staircase spectrum (binary chains: runs of wells give fixed levels)
+     * can hold a level for several steps, so the pilot may need many.
+     */
+    constexpr unsigned int max_levels = 20;
 
     /**
      * The chosen θ rounded to 4 significant digits: a team's distributed sums
