@@ -38,6 +38,57 @@
 namespace alloyspec::internal
 {
   /**
+   * Appends to @p samples the values of @p field on element @p cell at the
+   * points of a regular m × m grid of its (x, y) extent (m = p + 2, cell
+   * centred), as (x, y, value); in 3D on the plane z = @p z_mid, and only if
+   * the element meets that plane: its z-range is half-open, so that a plane
+   * on a face between elements is sampled once, from above. The sampling of
+   * the eigenfunction maps, shared by the serial and the distributed mesh.
+   */
+  template <int dim, class CellIterator, class VectorType>
+  void append_plane_samples(const dealii::FE_Q<dim> &fe, const CellIterator &cell,
+                            const double z_mid, const VectorType &field,
+                            std::vector<std::array<double, 3>> &samples)
+  {
+    const unsigned int m = fe.degree + 2; // points per direction and element
+    double             t = 0;             // local z of the plane in this element
+    if constexpr (dim == 3)
+      {
+        double lo = std::numeric_limits<double>::infinity(), hi = -lo;
+        for (unsigned int v = 0; v < cell->n_vertices(); ++v)
+          lo = std::min(lo, cell->vertex(v)[2]), hi = std::max(hi, cell->vertex(v)[2]);
+        if (!(z_mid >= lo && z_mid < hi))
+          return;
+        t = (z_mid - lo) / (hi - lo);
+      }
+    std::vector<dealii::Point<dim>> unit;
+    for (unsigned int i = 0; i < m; ++i)
+      for (unsigned int j = 0; j < (dim > 1 ? m : 1u); ++j)
+        {
+          dealii::Point<dim> p;
+          p[0] = (i + 0.5) / m;
+          if constexpr (dim > 1)
+            p[1] = (j + 0.5) / m;
+          if constexpr (dim > 2)
+            p[2] = t;
+          unit.push_back(p);
+        }
+    const dealii::Quadrature<dim> points(unit);
+    dealii::FEValues<dim> fe_values(fe, points, dealii::update_values | dealii::update_quadrature_points);
+    fe_values.reinit(cell);
+    std::vector<double> values(unit.size());
+    fe_values.get_function_values(field, values);
+    for (unsigned int q = 0; q < unit.size(); ++q)
+      {
+        const auto &x      = fe_values.quadrature_point(q);
+        double      second = 0.0;
+        if constexpr (dim > 1)
+          second = x[1];
+        samples.push_back({{x[0], second, values[q]}});
+      }
+  }
+
+  /**
    * Q_p elements on a mesh whose every element takes the value of one lattice
    * cell (the cell containing its centre).
    */
@@ -335,52 +386,13 @@ namespace alloyspec::internal
     {
       std::vector<std::array<double, 3>> samples;
       const dealii::Vector<double>       full = full_vector(u);
-      const unsigned int                 m    = fe_.degree + 2; // points per direction and element
       double z_low = std::numeric_limits<double>::infinity(), z_high = -z_low;
       if constexpr (dim == 3)
         for (const auto &v : triangulation_.get_vertices())
           z_low = std::min(z_low, v[2]), z_high = std::max(z_high, v[2]);
       const double z_mid = 0.5 * (z_low + z_high);
       for (const auto &cell : dof_handler_.active_cell_iterators())
-        {
-          double t = 0; // local z of the plane in this element
-          if constexpr (dim == 3)
-            {
-              double lo = std::numeric_limits<double>::infinity(), hi = -lo;
-              for (unsigned int v = 0; v < cell->n_vertices(); ++v)
-                lo = std::min(lo, cell->vertex(v)[2]), hi = std::max(hi, cell->vertex(v)[2]);
-              // Half-open, so that a plane on a face is sampled once (from above).
-              if (!(z_mid >= lo && z_mid < hi))
-                continue;
-              t = (z_mid - lo) / (hi - lo);
-            }
-          std::vector<dealii::Point<dim>> unit;
-          for (unsigned int i = 0; i < m; ++i)
-            for (unsigned int j = 0; j < (dim > 1 ? m : 1u); ++j)
-              {
-                dealii::Point<dim> p;
-                p[0] = (i + 0.5) / m;
-                if constexpr (dim > 1)
-                  p[1] = (j + 0.5) / m;
-                if constexpr (dim > 2)
-                  p[2] = t;
-                unit.push_back(p);
-              }
-          const dealii::Quadrature<dim> points(unit);
-          dealii::FEValues<dim>         fe_values(fe_, points,
-                                          dealii::update_values | dealii::update_quadrature_points);
-          fe_values.reinit(cell);
-          std::vector<double> values(unit.size());
-          fe_values.get_function_values(full, values);
-          for (unsigned int q = 0; q < unit.size(); ++q)
-            {
-              const auto &x      = fe_values.quadrature_point(q);
-              double      second = 0.0;
-              if constexpr (dim > 1)
-                second = x[1];
-              samples.push_back({{x[0], second, values[q]}});
-            }
-        }
+        append_plane_samples<dim>(fe_, cell, z_mid, full, samples);
       return samples;
     }
 

@@ -402,51 +402,10 @@ namespace alloyspec
       {
         const dealii::LinearAlgebra::distributed::Vector<double> v = ghosted(u);
         std::vector<std::array<double, 3>> samples;
-        const unsigned int                 m = fe_.degree + 2;
         const double z_mid = dim == 3 ? 0.5 * lattice_.cells()[dim - 1] * lattice_.cell_size() : 0.0;
-        std::vector<double> values;
         for (const auto &cell : dof_handler_.active_cell_iterators())
-          {
-            if (!cell->is_locally_owned())
-              continue;
-            double t = 0;
-            if constexpr (dim == 3)
-              {
-                double lo = std::numeric_limits<double>::infinity(), hi = -lo;
-                for (unsigned int i = 0; i < cell->n_vertices(); ++i)
-                  lo = std::min(lo, cell->vertex(i)[2]), hi = std::max(hi, cell->vertex(i)[2]);
-                // Half-open, so that a plane on a face is sampled once (from above).
-                if (!(z_mid >= lo && z_mid < hi))
-                  continue;
-                t = (z_mid - lo) / (hi - lo);
-              }
-            std::vector<dealii::Point<dim>> unit;
-            for (unsigned int i = 0; i < m; ++i)
-              for (unsigned int j = 0; j < (dim > 1 ? m : 1u); ++j)
-                {
-                  dealii::Point<dim> p;
-                  p[0] = (i + 0.5) / m;
-                  if constexpr (dim > 1)
-                    p[1] = (j + 0.5) / m;
-                  if constexpr (dim > 2)
-                    p[2] = t;
-                  unit.push_back(p);
-                }
-            const dealii::Quadrature<dim> points(unit);
-            dealii::FEValues<dim>         fe_values(fe_, points,
-                                            dealii::update_values | dealii::update_quadrature_points);
-            fe_values.reinit(cell);
-            values.resize(unit.size());
-            fe_values.get_function_values(v, values);
-            for (unsigned int q = 0; q < unit.size(); ++q)
-              {
-                const auto &x      = fe_values.quadrature_point(q);
-                double      second = 0.0;
-                if constexpr (dim > 1)
-                  second = x[1];
-                samples.push_back({{x[0], second, values[q]}});
-              }
-          }
+          if (cell->is_locally_owned())
+            internal::append_plane_samples<dim>(fe_, cell, z_mid, v, samples);
         std::vector<double> flat;
         flat.reserve(3 * samples.size());
         for (const auto &s : samples)
