@@ -89,8 +89,8 @@ def main(exe, work, configs):
                   "sampling/tilt=0.5"])
     compared = compare(tail(f"{work}/plain"), tail(f"{work}/tilted"), ENERGIES, "neumann", "tilted")
 
-    # Q2 here: with Q1 a 3³ box with walls has 8 free unknowns, a size the
-    # band-edge solve handles slowly (a retry per realisation).
+    # Q2 here: with Q1 the walls leave a 3³ box only 8 free unknowns, too
+    # coarse a space to say much about the sampling.
     walls = ["lattice/cells=3,3,3", "discretisation/degree=2", "discretisation/elements per cell=1",
              "spectrum/boundary conditions=dirichlet", "spectrum/energy cutoff=5",
              "study/energies=3.3 to 4 by 0.1", "analysis/figure formats="]
