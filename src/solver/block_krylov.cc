@@ -312,6 +312,14 @@ namespace alloyspec
     Basis         basis(op, ncv + b, settings.seed);
     std::uint64_t draws = 0;
     basis.randomise(0, b, 0);
+    // The first column gets a constant part: the lowest eigenfunction of a
+    // Schrödinger operator does not change sign (Courant & Hilbert, Methods
+    // of Mathematical Physics, vol. I, ch. VI; from memory), so a constant
+    // overlaps well with its discrete approximation, and the random part
+    // keeps every other direction. Measured at the cut (1 pair below it, L = 6,
+    // Q2, tilted realisations): 15.0 → 13.4 single solves per realisation.
+    for (std::size_t i = 0; i < n; ++i)
+      basis.v(0)[i] += 1.0;
     basis.normalise(0, b, draws);
 
     BlockKrylovResult result;

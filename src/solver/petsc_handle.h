@@ -120,11 +120,12 @@ namespace alloyspec::internal
     /** Null pivots MUMPS detected in the last factorisation (Inertia::counted only). */
     std::size_t zero_pivots() const;
     /**
-     * X = (K − σM)⁻¹ B for the @p columns columns of the dense B: one
+     * X = (K − σM)⁻¹ B for the @p columns columns of B: one
      * multi-right-hand-side forward and backward solve, counted (solve_calls(),
-     * solved_columns(), factor_passes()).
+     * solved_columns(), factor_passes()). B and X are column-major arrays of
+     * this process's rows (leading dimension: its number of rows).
      */
-    void solve(Mat rhs, Mat solution, unsigned int columns);
+    void solve(const double *rhs, double *solution, unsigned int columns);
     /**
      * Entries in the factor of the last factorisation, MUMPS INFOG(29)
      * ("after factorization: number of entries in the factors", summed over

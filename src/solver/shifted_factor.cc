@@ -16,9 +16,10 @@ namespace alloyspec::internal
   {
     /**
      * Unknowns from which the one-process factor is ordered by METIS. Below
-     * it the factor costs milliseconds whatever the ordering, and PETSc's
-     * route with MUMPS's own choice stays, the factor the memory model of
-     * direct_path_model.h was fitted to. Measured against that model, whose
+     * it the factor costs milliseconds whatever the ordering, and MUMPS's own
+     * choice stays, the factor the memory model of direct_path_model.h was
+     * fitted to (through PETSc's interface; the same ordering and factor
+     * through MUMPS's own). Measured against that model, whose
      * fitted factors spread over 0.64–1 of it: METIS's factor was 0.49 of it
      * at 729 unknowns (Q2, 4³ cells), and 0.76, 0.80, 0.84 and 0.85 at
      * 15,625, 35,937 (Q2 and Q4) and 117,649 unknowns.
@@ -97,8 +98,11 @@ namespace alloyspec::internal
                                  std::to_string(id.infog[1]));
     }
 
-    /** Pattern, METIS ordering and MUMPS's symbolic analysis of K − σM. */
-    void analyse(Mat K, Mat M, MPI_Comm comm, const bool inertia)
+    /**
+     * Pattern, ordering (METIS's nested dissection when @p metis, else
+     * MUMPS's own choice) and MUMPS's symbolic analysis of K − σM.
+     */
+    void analyse(Mat K, Mat M, MPI_Comm comm, const bool inertia, const bool metis)
     {
       const RowStructure k(K), m(M);
       n = k.n();
@@ -129,19 +133,10 @@ namespace alloyspec::internal
           xadj[std::size_t(i) + 1] = idx_t(adjncy.size());
         }
       values.assign(position.size(), 0.0);
-      idx_t              vertices = idx_t(n);
-      std::vector<idx_t> perm(static_cast<std::size_t>(n)), iperm(static_cast<std::size_t>(n));
-      idx_t              options[METIS_NOPTIONS];
-      METIS_SetDefaultOptions(options);
-      if (n > 0 && METIS_NodeND(&vertices, xadj.data(), adjncy.data(), nullptr, options, perm.data(),
-                                iperm.data()) != METIS_OK)
-        throw std::runtime_error("ShiftedFactor: METIS_NodeND failed");
-      // PERM_IN(i): the position of variable i in the pivot order (1-based);
-      // METIS's iperm[i] is that position, 0-based (MUMPS 5.5 user guide,
-      // ICNTL(7); METIS 5.1 manual, METIS_NodeND — both from memory).
-      perm_in.resize(std::size_t(n));
-      for (PetscInt i = 0; i < n; ++i)
-        perm_in[std::size_t(i)] = MUMPS_INT(iperm[std::size_t(i)] + 1);
+      if (metis)
+        order_by_metis(xadj, adjncy);
+      else
+        perm_in.clear();
 
       if (initialised)
         {
@@ -159,7 +154,8 @@ namespace alloyspec::internal
       id.icntl[1]    = -1;
       id.icntl[2]    = -1;
       id.icntl[3]    = 0;
-      id.icntl[6]    = 1; // ICNTL(7) = 1: the ordering is PERM_IN
+      if (!perm_in.empty())
+        id.icntl[6] = 1; // ICNTL(7) = 1: the ordering is PERM_IN
       id.icntl[11]   = 1; // ICNTL(12) = 1: the usual ordering, not a compressed graph
       if (inertia)
         {
@@ -171,8 +167,26 @@ namespace alloyspec::internal
       id.irn     = irn.data();
       id.jcn     = jcn.data();
       id.a       = values.data();
-      id.perm_in = perm_in.data();
+      id.perm_in = perm_in.empty() ? nullptr : perm_in.data();
       call(1, "analysis");
+    }
+
+    /** PERM_IN from METIS's nested dissection of the graph (xadj, adjncy). */
+    void order_by_metis(std::vector<idx_t> &xadj, std::vector<idx_t> &adjncy)
+    {
+      idx_t              vertices = idx_t(n);
+      std::vector<idx_t> perm(static_cast<std::size_t>(n)), iperm(static_cast<std::size_t>(n));
+      idx_t              options[METIS_NOPTIONS];
+      METIS_SetDefaultOptions(options);
+      if (n > 0 && METIS_NodeND(&vertices, xadj.data(), adjncy.data(), nullptr, options, perm.data(),
+                                iperm.data()) != METIS_OK)
+        throw std::runtime_error("ShiftedFactor: METIS_NodeND failed");
+      // PERM_IN(i): the position of variable i in the pivot order (1-based);
+      // METIS's iperm[i] is that position, 0-based (MUMPS 5.5 user guide,
+      // ICNTL(7); METIS 5.1 manual, METIS_NodeND — both from memory).
+      perm_in.resize(std::size_t(n));
+      for (PetscInt i = 0; i < n; ++i)
+        perm_in[std::size_t(i)] = MUMPS_INT(iperm[std::size_t(i)] + 1);
     }
 
     void factorise(Mat K, Mat M, const double sigma)
@@ -189,28 +203,15 @@ namespace alloyspec::internal
     }
 
     /** solution = (K − σM)⁻¹ rhs: MUMPS solves in place on a dense, centralised block. */
-    void solve(Mat rhs, Mat solution, const unsigned int columns)
+    void solve(const double *in, double *out, const unsigned int columns)
     {
-      const PetscScalar *in  = nullptr;
-      PetscScalar       *out = nullptr;
-      ALLOYSPEC_CHECK(MatDenseGetArrayRead(rhs, &in));
-      ALLOYSPEC_CHECK(MatDenseGetArrayWrite(solution, &out));
-      std::memcpy(out, in, sizeof(double) * std::size_t(n) * columns);
-      ALLOYSPEC_CHECK(MatDenseRestoreArrayRead(rhs, &in));
+      if (out != in)
+        std::memcpy(out, in, sizeof(double) * std::size_t(n) * columns);
       id.icntl[19] = 0; // ICNTL(20) = 0: dense right-hand sides
       id.rhs       = out;
       id.nrhs      = MUMPS_INT(columns);
       id.lrhs      = MUMPS_INT(n);
-      try
-        {
-          call(3, "solve");
-        }
-      catch (...)
-        {
-          MatDenseRestoreArrayWrite(solution, &out);
-          throw;
-        }
-      ALLOYSPEC_CHECK(MatDenseRestoreArrayWrite(solution, &out));
+      call(3, "solve");
     }
   };
 
@@ -248,10 +249,13 @@ namespace alloyspec::internal
         rhs_block_ = 0;
         k_id_      = k_id;
         pattern_   = pattern;
-        if (processes == 1 && rows >= metis_from && k_sequential && m_sequential)
+        // One process: MUMPS's own interface at every size, which also
+        // spares each solve PETSc's dense wrappers (at 1,331 unknowns these
+        // and the products around them cost as much as the solves).
+        if (processes == 1 && k_sequential && m_sequential)
           {
             direct_ = std::make_unique<Direct>();
-            direct_->analyse(K, M, comm, inertia_ == Inertia::counted);
+            direct_->analyse(K, M, comm, inertia_ == Inertia::counted, rows >= metis_from);
           }
         else
           {
@@ -281,13 +285,26 @@ namespace alloyspec::internal
     ++n_numeric_;
   }
 
-  void ShiftedFactor::solve(const Mat rhs, const Mat solution, const unsigned int columns)
+  void ShiftedFactor::solve(const double *rhs, double *solution, const unsigned int columns)
   {
     const auto start = std::chrono::steady_clock::now();
     if (direct_)
       direct_->solve(rhs, solution, columns);
     else
-      ALLOYSPEC_CHECK(MatMatSolve(factor_, rhs, solution));
+      {
+        // Dense views of the caller's arrays on the factor's row layout.
+        MPI_Comm comm = MPI_COMM_NULL;
+        ALLOYSPEC_CHECK(PetscObjectGetComm(reinterpret_cast<PetscObject>(shifted_.get()), &comm));
+        PetscInt n_local = 0, n_global = 0;
+        ALLOYSPEC_CHECK(MatGetLocalSize(shifted_, &n_local, nullptr));
+        ALLOYSPEC_CHECK(MatGetSize(shifted_, &n_global, nullptr));
+        OwnedMat in, out;
+        ALLOYSPEC_CHECK(MatCreateDense(comm, n_local, PETSC_DECIDE, n_global, PetscInt(columns),
+                                       const_cast<PetscScalar *>(rhs), &in));
+        ALLOYSPEC_CHECK(MatCreateDense(comm, n_local, PETSC_DECIDE, n_global, PetscInt(columns),
+                                       solution, &out));
+        ALLOYSPEC_CHECK(MatMatSolve(factor_, in, out));
+      }
     solve_seconds_ += seconds_since(start);
     const unsigned int block = rhs_block();
     ++n_solve_calls_;
