@@ -12,6 +12,9 @@
 #include <alloyspec/model/lattice.h>
 #include <alloyspec/fe/spectral_problem.h>
 
+#include "potential_assembly.h"
+
+#include <deal.II/base/index_set.h>
 #include <deal.II/base/quadrature_lib.h>
 #include <deal.II/dofs/dof_handler.h>
 #include <deal.II/dofs/dof_tools.h>
@@ -183,34 +186,13 @@ namespace alloyspec::internal
       AssertThrow(cell_values.size() == lattice_.n_cells(),
                   dealii::ExcMessage("cell value count does not match the lattice"));
       // Only cells that carry elements bound the operator (a mesh may leave cells empty).
-      double q_min = std::numeric_limits<double>::infinity(), q_max = -q_min;
-      for (const std::size_t c : element_cell_)
-        q_min = std::min(q_min, cell_values[c]), q_max = std::max(q_max, cell_values[c]);
-      problem.lower_bound         = q_min;
-      problem.spurious_eigenvalue = spurious_eigenvalue(q_max);
-      problem.upper_bound         = element_bound_ + q_max;
-      problem.mass_floor          = element_mass_floor_;
-
-      MatCopy(stiffness_, problem.K, SAME_NONZERO_PATTERN);
-      const unsigned int         dofs_per_cell = fe_.n_dofs_per_cell();
-      dealii::FullMatrix<double> local(dofs_per_cell, dofs_per_cell);
-      std::vector<dealii::types::global_dof_index> dofs(dofs_per_cell);
-      for (std::size_t e = 0; e < element_cell_.size(); ++e)
-        {
-          const double q = cell_values[element_cell_[e]];
-          if (q == 0.0)
-            continue;
-          local.equ(q, element_mass(e));
-          dofs.assign(element_dofs_.begin() + e * dofs_per_cell,
-                      element_dofs_.begin() + (e + 1) * dofs_per_cell);
-          // The row/column form adds nothing to constrained diagonals.
-          constraints_.distribute_local_to_global(local, dofs, dofs, problem.K);
-        }
-      problem.K.compress(dealii::VectorOperation::add);
-      for (dealii::types::global_dof_index i = 0; i < dof_handler_.n_dofs(); ++i)
-        if (constraints_.is_constrained(i))
-          problem.K.set(i, i, problem.spurious_eigenvalue);
-      problem.K.compress(dealii::VectorOperation::insert);
+      const dealii::IndexSet rows = dealii::complete_index_set(dof_handler_.n_dofs());
+      assemble_cell_potential(
+        PotentialAssembly{constraints_, element_dofs_, fe_.n_dofs_per_cell(), rows, stiffness_,
+                          element_bound_, element_mass_floor_},
+        [&](const std::size_t e) { return cell_values[element_cell_[e]]; },
+        [this](const std::size_t e) -> const dealii::FullMatrix<double> & { return element_mass(e); },
+        [](const ValueRange &range) { return range; }, problem, problem.K);
     }
 
     std::size_t n_dofs() const override { return dof_handler_.n_dofs(); }
@@ -219,9 +201,7 @@ namespace alloyspec::internal
 
     double spurious_eigenvalue(double potential_max) const override
     {
-      // tr(M_e^{-1} K_e) ≥ λ_max of the element pencil ≥ λ_max of the
-      // assembled pencil (element-by-element bound), so 2× it clears the spectrum.
-      return 2.0 * element_bound_ + std::abs(potential_max) + 1.0;
+      return pushed_out_eigenvalue(element_bound_, potential_max);
     }
 
     double volume() const override

@@ -9,6 +9,7 @@
 #include <alloyspec/model/lattice.h>
 
 #include "cellwise_discretisation.h"
+#include "potential_assembly.h"
 
 #include <deal.II/base/index_set.h>
 #include <deal.II/base/mpi.h>
@@ -204,37 +205,17 @@ namespace alloyspec
       {
         AssertThrow(cell_values.size() == local_cells_.size(),
                     dealii::ExcMessage("distributed mesh: one value per local cell is needed"));
-        double q_min = std::numeric_limits<double>::infinity(), q_max = -q_min;
-        for (const double q : cell_values)
-          q_min = std::min(q_min, q), q_max = std::max(q_max, q);
-        // Every rank must push the constrained rows to the same μ.
-        q_min = dealii::Utilities::MPI::min(q_min, comm_);
-        q_max = dealii::Utilities::MPI::max(q_max, comm_);
-        problem.lower_bound         = q_min;
-        problem.spurious_eigenvalue = spurious_eigenvalue(q_max);
-        problem.upper_bound         = element_bound_ + q_max;
-        problem.mass_floor          = element_mass_floor_;
-
-        MatCopy(stiffness_, problem.K_parts, SAME_NONZERO_PATTERN);
-        const unsigned int         dofs_per_cell = fe_.n_dofs_per_cell();
-        dealii::FullMatrix<double> local(dofs_per_cell, dofs_per_cell);
-        std::vector<dealii::types::global_dof_index> dofs(dofs_per_cell);
-        for (std::size_t e = 0; e < element_cell_.size(); ++e)
-          {
-            const double q = cell_values[element_slot_[e]];
-            if (q == 0.0)
-              continue;
-            local.equ(q, local_mass_);
-            dofs.assign(element_dofs_.begin() + e * dofs_per_cell,
-                        element_dofs_.begin() + (e + 1) * dofs_per_cell);
-            // The row/column form adds nothing to constrained diagonals.
-            constraints_.distribute_local_to_global(local, dofs, dofs, problem.K_parts);
-          }
-        problem.K_parts.compress(dealii::VectorOperation::add);
-        for (const auto i : owned_)
-          if (constraints_.is_constrained(i))
-            problem.K_parts.set(i, i, problem.spurious_eigenvalue);
-        problem.K_parts.compress(dealii::VectorOperation::insert);
+        internal::assemble_cell_potential(
+          internal::PotentialAssembly{constraints_, element_dofs_, fe_.n_dofs_per_cell(), owned_,
+                                      stiffness_, element_bound_, element_mass_floor_},
+          [&](const std::size_t e) { return cell_values[element_slot_[e]]; },
+          [this](std::size_t) -> const dealii::FullMatrix<double> & { return local_mass_; },
+          [this](const internal::ValueRange &range) {
+            // Every rank must push the constrained rows to the same μ.
+            return internal::ValueRange{dealii::Utilities::MPI::min(range.min, comm_),
+                                        dealii::Utilities::MPI::max(range.max, comm_)};
+          },
+          problem, problem.K_parts);
       }
 
       std::size_t n_dofs() const override { return dof_handler_.n_dofs(); }
@@ -243,8 +224,7 @@ namespace alloyspec
 
       double spurious_eigenvalue(double potential_max) const override
       {
-        // As the serial box: 2 tr(M_e^{-1} K_e) clears the assembled spectrum.
-        return 2.0 * element_bound_ + std::abs(potential_max) + 1.0;
+        return internal::pushed_out_eigenvalue(element_bound_, potential_max);
       }
 
       double volume() const override { return lattice_.volume(); }
