@@ -265,12 +265,10 @@ namespace alloyspec
                              std::vector<double> &weights) const override
       {
         const dealii::LinearAlgebra::distributed::Vector<double> v = ghosted(u);
-        const dealii::QGauss<dim> quadrature(fe_.degree + 1);
-        const unsigned int        n_q = quadrature.size(), dofs_per_cell = fe_.n_dofs_per_cell();
-        const ReferenceElement    reference(lattice_, settings_);
-        dealii::FEValues<dim>     fe_values(fe_, quadrature,
-                                        dealii::update_values | dealii::update_JxW_values);
-        fe_values.reinit(reference.dof_handler.begin_active());
+        const ReferenceElement reference(lattice_, settings_, fe_.degree + 1,
+                                         dealii::update_values | dealii::update_JxW_values);
+        const dealii::FEValues<dim> &fe_values = reference.values;
+        const unsigned int n_q = fe_values.n_quadrature_points, dofs_per_cell = fe_.n_dofs_per_cell();
         values.assign(n_q * element_cell_.size(), 0.0);
         weights.resize(values.size());
         for (std::size_t e = 0; e < element_cell_.size(); ++e)
@@ -321,14 +319,12 @@ namespace alloyspec
         weight.assign(k, 0.0);
         if (k == 0)
           return;
-        const dealii::QGauss<dim> quadrature(fe_.degree + 2);
-        const unsigned int        n_q = quadrature.size(), dofs_per_cell = fe_.n_dofs_per_cell();
         // Every element is a translate of the reference one: one table of
         // shape values, one Jacobian weight per point.
-        const ReferenceElement    reference(lattice_, settings_);
-        dealii::FEValues<dim>     fe_values(fe_, quadrature,
-                                        dealii::update_values | dealii::update_JxW_values);
-        fe_values.reinit(reference.dof_handler.begin_active());
+        const ReferenceElement reference(lattice_, settings_, fe_.degree + 2,
+                                         dealii::update_values | dealii::update_JxW_values);
+        const dealii::FEValues<dim> &fe_values = reference.values;
+        const unsigned int n_q = fe_values.n_quadrature_points, dofs_per_cell = fe_.n_dofs_per_cell();
         std::vector<double> shape(dofs_per_cell * n_q), jxw(n_q);
         for (unsigned int q = 0; q < n_q; ++q)
           {
@@ -404,22 +400,32 @@ namespace alloyspec
       }
 
     private:
-      /** One element of the box at the origin: the shape values and matrices every element shares. */
+      /**
+       * One element of the box at the origin, with @p flags evaluated at the
+       * Gauss points (@p points_per_direction of them per direction) in
+       * @c values. Every element is a translate of it, so these are the
+       * shape values, gradients and weights of every element.
+       */
       struct ReferenceElement
       {
-        ReferenceElement(const Lattice &lattice, const DiscretisationSettings &settings)
+        ReferenceElement(const Lattice &lattice, const DiscretisationSettings &settings,
+                         const unsigned int points_per_direction, const dealii::UpdateFlags flags)
           : fe(settings.degree)
           , dof_handler(triangulation)
+          , values(fe, dealii::QGauss<dim>(points_per_direction), flags)
         {
           dealii::Point<dim> corner;
           for (unsigned int d = 0; d < dim; ++d)
             corner[d] = lattice.cell_size() / settings.elements_per_cell;
           dealii::GridGenerator::hyper_rectangle(triangulation, dealii::Point<dim>(), corner);
           dof_handler.distribute_dofs(fe);
+          values.reinit(dof_handler.begin_active());
         }
         dealii::Triangulation<dim> triangulation;
         dealii::FE_Q<dim>          fe;
         dealii::DoFHandler<dim>    dof_handler;
+        /** Declared last: destroyed before the mesh it was evaluated on. */
+        dealii::FEValues<dim>      values;
       };
 
       static std::logic_error serial_only(const std::string &what)
@@ -444,16 +450,14 @@ namespace alloyspec
 
       void compute_element_matrices()
       {
-        const ReferenceElement    reference(lattice_, settings_);
-        const unsigned int        n = fe_.n_dofs_per_cell();
-        const dealii::QGauss<dim> quadrature(fe_.degree + 1);
-        dealii::FEValues<dim>     fe_values(fe_, quadrature,
-                                        dealii::update_values | dealii::update_gradients |
-                                          dealii::update_JxW_values);
-        fe_values.reinit(reference.dof_handler.begin_active());
+        const ReferenceElement reference(lattice_, settings_, fe_.degree + 1,
+                                         dealii::update_values | dealii::update_gradients |
+                                           dealii::update_JxW_values);
+        const dealii::FEValues<dim> &fe_values = reference.values;
+        const unsigned int           n         = fe_.n_dofs_per_cell();
         local_mass_.reinit(n, n);
         local_stiffness_.reinit(n, n);
-        for (unsigned int q = 0; q < quadrature.size(); ++q)
+        for (unsigned int q = 0; q < fe_values.n_quadrature_points; ++q)
           for (unsigned int i = 0; i < n; ++i)
             for (unsigned int j = 0; j < n; ++j)
               {
