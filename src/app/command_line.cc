@@ -353,7 +353,10 @@ end
     run->add_option("--memory-budget", memory_budget_gib,
                     "GiB of memory one rank may use for the discretisation that "
                     "'discretisation/accuracy' chooses (default: half the machine's memory, "
-                    "shared by the ranks on it).");
+                    "shared by the ranks on it). When given, the iterative solver also checks "
+                    "it on every rank before each block iteration: a rank whose rows of K and M "
+                    "and block of vectors would exceed it stops the run on all ranks with exit "
+                    "status 2, and the realisations stored so far are kept.");
     run->add_flag("--print-parameters", print_only,
                   "Print the effective parameters and stop without computing.");
 

@@ -252,6 +252,8 @@ namespace alloyspec
         { ScopedTimer t(timings_, "mesh");         make_grid(); }
         { ScopedTimer t(timings_, "unknowns");     setup_system(); }
         { ScopedTimer t(timings_, "matrices");     assemble(); }
+        // A rank over its budget stops every rank of its problem with status 2.
+        solver_->set_memory_budget(options.memory_budget_bytes);
         if (model_.sampling().is_tilted() && model_.sampling().automatic)
           {
             ScopedTimer t(timings_, "tilt_search");

@@ -12,6 +12,7 @@
 #include <alloyspec/model/lattice.h>
 #include <alloyspec/fe/spectral_problem.h>
 
+#include "element_integrals.h"
 #include "potential_assembly.h"
 
 #include <deal.II/base/index_set.h>
@@ -132,7 +133,7 @@ namespace alloyspec::internal
       std::vector<dealii::types::global_dof_index> dofs(dofs_per_cell);
       for (const auto &cell : dof_handler_.active_cell_iterators())
         {
-          element_cell_.push_back(lattice_cell_of(cell->center()));
+          element_cell_.push_back(lattice_cell_containing(lattice_, cell->center()));
           element_volume_.push_back(cell->measure());
           cell->get_dof_indices(dofs);
           element_dofs_.insert(element_dofs_.end(), dofs.begin(), dofs.end());
@@ -318,36 +319,21 @@ namespace alloyspec::internal
       // Values of FE_Q shape functions at the quadrature points are those of
       // the reference element on every element; only the weights change.
       fe_values.reinit(dof_handler_.begin_active());
-      const unsigned int  n_q = quadrature.size(), dofs_per_cell = fe_.n_dofs_per_cell();
-      std::vector<double> shape(dofs_per_cell * n_q), jxw(n_q);
-      for (unsigned int q = 0; q < n_q; ++q)
-        for (unsigned int i = 0; i < dofs_per_cell; ++i)
-          shape[i * n_q + q] = fe_values.shape_value(i, q);
-      std::vector<double> l2(k, 0.0), l4(k, 0.0), inside(k, 0.0), values(n_q);
-      std::size_t         e = 0;
+      const unsigned int        dofs_per_cell = fe_.n_dofs_per_cell();
+      const std::vector<double> shape         = shape_table(fe_values);
+      std::vector<double>       jxw(quadrature.size()), values;
+      std::vector<double>       l2(k, 0.0), l4(k, 0.0), inside(k, 0.0);
+      std::size_t               e = 0;
       for (const auto &cell : dof_handler_.active_cell_iterators())
         {
           fe_values.reinit(cell);
-          for (unsigned int q = 0; q < n_q; ++q)
+          for (unsigned int q = 0; q < jxw.size(); ++q)
             jxw[q] = fe_values.JxW(q);
-          const auto  *dofs  = element_dofs_.data() + e * dofs_per_cell;
+          const auto *dofs = element_dofs_.data() + e * dofs_per_cell;
           for (std::size_t j = 0; j < k; ++j)
             {
-              std::fill(values.begin(), values.end(), 0.0);
-              for (unsigned int i = 0; i < dofs_per_cell; ++i)
-                {
-                  const double  c   = full[j][dofs[i]];
-                  const double *row = shape.data() + i * n_q;
-                  for (unsigned int q = 0; q < n_q; ++q)
-                    values[q] += c * row[q];
-                }
-              double local2 = 0, local4 = 0;
-              for (unsigned int q = 0; q < n_q; ++q)
-                {
-                  const double s = values[q] * values[q];
-                  local2 += s * jxw[q];
-                  local4 += s * s * jxw[q];
-                }
+              const auto [local2, local4] = element_square_and_fourth(
+                shape, jxw, [&](const std::size_t i) { return full[j][dofs[i]]; }, values);
               l2[j] += local2;
               l4[j] += local4;
               if (element_cell_[e] == lattice_cell)
@@ -416,39 +402,16 @@ namespace alloyspec::internal
     /** @f$(A_e)_{ij} = \int_e \nabla\varphi_i\cdot\nabla\varphi_j@f$ of element e. */
     virtual const dealii::FullMatrix<double> &element_stiffness(std::size_t e) const = 0;
 
-    /** Lattice cell containing @p p (clamped into the box, for points on its far faces). */
-    std::size_t lattice_cell_of(const dealii::Point<dim> &p) const
-    {
-      std::array<unsigned int, 3> c{{0, 0, 0}};
-      for (unsigned int d = 0; d < dim; ++d)
-        {
-          const double x = std::floor(p[d] / lattice_.cell_size());
-          c[d] = static_cast<unsigned int>(
-            std::clamp(x, 0.0, static_cast<double>(lattice_.cells()[d] - 1)));
-        }
-      return lattice_.cell_index(c);
-    }
-
     /** Element mass and stiffness matrices of @p cell by Gauss quadrature with p+1 points. */
     void local_matrices(const CellIterator &cell, dealii::FullMatrix<double> &mass,
                         dealii::FullMatrix<double> &stiffness) const
     {
-      const unsigned int        n = fe_.n_dofs_per_cell();
       const dealii::QGauss<dim> quadrature(fe_.degree + 1);
       dealii::FEValues<dim>     fe_values(fe_, quadrature,
                                       dealii::update_values | dealii::update_gradients |
                                         dealii::update_JxW_values);
       fe_values.reinit(cell);
-      mass.reinit(n, n);
-      stiffness.reinit(n, n);
-      for (unsigned int q = 0; q < quadrature.size(); ++q)
-        for (unsigned int i = 0; i < n; ++i)
-          for (unsigned int j = 0; j < n; ++j)
-            {
-              mass(i, j) += fe_values.shape_value(i, q) * fe_values.shape_value(j, q) * fe_values.JxW(q);
-              stiffness(i, j) +=
-                fe_values.shape_grad(i, q) * fe_values.shape_grad(j, q) * fe_values.JxW(q);
-            }
+      element_matrices(fe_values, mass, stiffness);
     }
 
   public:

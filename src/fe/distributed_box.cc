@@ -9,6 +9,7 @@
 #include <alloyspec/model/lattice.h>
 
 #include "cellwise_discretisation.h"
+#include "element_integrals.h"
 #include "potential_assembly.h"
 
 #include <deal.II/base/index_set.h>
@@ -138,7 +139,7 @@ namespace alloyspec
         for (const auto &cell : dof_handler_.active_cell_iterators())
           if (cell->is_locally_owned())
             {
-              element_cell_.push_back(lattice_cell_of(cell->center()));
+              element_cell_.push_back(internal::lattice_cell_containing(lattice_, cell->center()));
               cell->get_dof_indices(dofs);
               element_dofs_.insert(element_dofs_.end(), dofs.begin(), dofs.end());
             }
@@ -265,12 +266,10 @@ namespace alloyspec
                              std::vector<double> &weights) const override
       {
         const dealii::LinearAlgebra::distributed::Vector<double> v = ghosted(u);
-        const dealii::QGauss<dim> quadrature(fe_.degree + 1);
-        const unsigned int        n_q = quadrature.size(), dofs_per_cell = fe_.n_dofs_per_cell();
-        const ReferenceElement    reference(lattice_, settings_);
-        dealii::FEValues<dim>     fe_values(fe_, quadrature,
-                                        dealii::update_values | dealii::update_JxW_values);
-        fe_values.reinit(reference.dof_handler.begin_active());
+        const ReferenceElement reference(lattice_, settings_, fe_.degree + 1,
+                                         dealii::update_values | dealii::update_JxW_values);
+        const dealii::FEValues<dim> &fe_values = reference.values;
+        const unsigned int n_q = fe_values.n_quadrature_points, dofs_per_cell = fe_.n_dofs_per_cell();
         values.assign(n_q * element_cell_.size(), 0.0);
         weights.resize(values.size());
         for (std::size_t e = 0; e < element_cell_.size(); ++e)
@@ -321,44 +320,26 @@ namespace alloyspec
         weight.assign(k, 0.0);
         if (k == 0)
           return;
-        const dealii::QGauss<dim> quadrature(fe_.degree + 2);
-        const unsigned int        n_q = quadrature.size(), dofs_per_cell = fe_.n_dofs_per_cell();
         // Every element is a translate of the reference one: one table of
         // shape values, one Jacobian weight per point.
-        const ReferenceElement    reference(lattice_, settings_);
-        dealii::FEValues<dim>     fe_values(fe_, quadrature,
-                                        dealii::update_values | dealii::update_JxW_values);
-        fe_values.reinit(reference.dof_handler.begin_active());
-        std::vector<double> shape(dofs_per_cell * n_q), jxw(n_q);
-        for (unsigned int q = 0; q < n_q; ++q)
-          {
-            jxw[q] = fe_values.JxW(q);
-            for (unsigned int i = 0; i < dofs_per_cell; ++i)
-              shape[i * n_q + q] = fe_values.shape_value(i, q);
-          }
+        const ReferenceElement reference(lattice_, settings_, fe_.degree + 2,
+                                         dealii::update_values | dealii::update_JxW_values);
+        const dealii::FEValues<dim> &fe_values = reference.values;
+        const unsigned int  dofs_per_cell = fe_.n_dofs_per_cell();
+        const std::vector<double> shape = internal::shape_table(fe_values);
+        std::vector<double>       jxw(fe_values.n_quadrature_points), values;
+        for (unsigned int q = 0; q < jxw.size(); ++q)
+          jxw[q] = fe_values.JxW(q);
         // [l2 of each, l4 of each, inside of each], summed over ranks at once.
-        std::vector<double> sums(3 * k, 0.0), values(n_q), local_values(dofs_per_cell);
+        std::vector<double> sums(3 * k, 0.0);
         for (std::size_t j = 0; j < k; ++j)
           {
             const dealii::LinearAlgebra::distributed::Vector<double> v = ghosted(vectors[j]);
             for (std::size_t e = 0; e < element_cell_.size(); ++e)
               {
-                const auto *dofs = element_dofs_.data() + e * dofs_per_cell;
-                std::fill(values.begin(), values.end(), 0.0);
-                for (unsigned int i = 0; i < dofs_per_cell; ++i)
-                  {
-                    const double  c   = v(dofs[i]);
-                    const double *row = shape.data() + i * n_q;
-                    for (unsigned int q = 0; q < n_q; ++q)
-                      values[q] += c * row[q];
-                  }
-                double local2 = 0, local4 = 0;
-                for (unsigned int q = 0; q < n_q; ++q)
-                  {
-                    const double s = values[q] * values[q];
-                    local2 += s * jxw[q];
-                    local4 += s * s * jxw[q];
-                  }
+                const auto *dofs            = element_dofs_.data() + e * dofs_per_cell;
+                const auto [local2, local4] = internal::element_square_and_fourth(
+                  shape, jxw, [&](const std::size_t i) { return v(dofs[i]); }, values);
                 sums[j] += local2;
                 sums[k + j] += local4;
                 if (element_cell_[e] == lattice_cell)
@@ -404,22 +385,32 @@ namespace alloyspec
       }
 
     private:
-      /** One element of the box at the origin: the shape values and matrices every element shares. */
+      /**
+       * One element of the box at the origin, with @p flags evaluated at the
+       * Gauss points (@p points_per_direction of them per direction) in
+       * @c values. Every element is a translate of it, so these are the
+       * shape values, gradients and weights of every element.
+       */
       struct ReferenceElement
       {
-        ReferenceElement(const Lattice &lattice, const DiscretisationSettings &settings)
+        ReferenceElement(const Lattice &lattice, const DiscretisationSettings &settings,
+                         const unsigned int points_per_direction, const dealii::UpdateFlags flags)
           : fe(settings.degree)
           , dof_handler(triangulation)
+          , values(fe, dealii::QGauss<dim>(points_per_direction), flags)
         {
           dealii::Point<dim> corner;
           for (unsigned int d = 0; d < dim; ++d)
             corner[d] = lattice.cell_size() / settings.elements_per_cell;
           dealii::GridGenerator::hyper_rectangle(triangulation, dealii::Point<dim>(), corner);
           dof_handler.distribute_dofs(fe);
+          values.reinit(dof_handler.begin_active());
         }
         dealii::Triangulation<dim> triangulation;
         dealii::FE_Q<dim>          fe;
         dealii::DoFHandler<dim>    dof_handler;
+        /** Declared last: destroyed before the mesh it was evaluated on. */
+        dealii::FEValues<dim>      values;
       };
 
       static std::logic_error serial_only(const std::string &what)
@@ -444,40 +435,13 @@ namespace alloyspec
 
       void compute_element_matrices()
       {
-        const ReferenceElement    reference(lattice_, settings_);
-        const unsigned int        n = fe_.n_dofs_per_cell();
-        const dealii::QGauss<dim> quadrature(fe_.degree + 1);
-        dealii::FEValues<dim>     fe_values(fe_, quadrature,
-                                        dealii::update_values | dealii::update_gradients |
-                                          dealii::update_JxW_values);
-        fe_values.reinit(reference.dof_handler.begin_active());
-        local_mass_.reinit(n, n);
-        local_stiffness_.reinit(n, n);
-        for (unsigned int q = 0; q < quadrature.size(); ++q)
-          for (unsigned int i = 0; i < n; ++i)
-            for (unsigned int j = 0; j < n; ++j)
-              {
-                local_mass_(i, j) +=
-                  fe_values.shape_value(i, q) * fe_values.shape_value(j, q) * fe_values.JxW(q);
-                local_stiffness_(i, j) +=
-                  fe_values.shape_grad(i, q) * fe_values.shape_grad(j, q) * fe_values.JxW(q);
-              }
+        const ReferenceElement reference(lattice_, settings_, fe_.degree + 1,
+                                         dealii::update_values | dealii::update_gradients |
+                                           dealii::update_JxW_values);
+        internal::element_matrices(reference.values, local_mass_, local_stiffness_);
         using Serial        = internal::CellwiseDiscretisation<dim>;
         element_bound_      = Serial::pencil_bound(local_mass_, local_stiffness_);
         element_mass_floor_ = Serial::smallest_eigenvalue(local_mass_);
-      }
-
-      /** Lattice cell containing @p p (clamped into the box), as the serial path. */
-      std::size_t lattice_cell_of(const dealii::Point<dim> &p) const
-      {
-        std::array<unsigned int, 3> c{{0, 0, 0}};
-        for (unsigned int d = 0; d < dim; ++d)
-          {
-            const double x = std::floor(p[d] / lattice_.cell_size());
-            c[d]           = static_cast<unsigned int>(
-              std::clamp(x, 0.0, static_cast<double>(lattice_.cells()[d] - 1)));
-          }
-        return lattice_.cell_index(c);
       }
 
       const Lattice                lattice_;

@@ -2,7 +2,9 @@
 #include "list_cut.h"
 #include "petsc_handle.h"
 
+#include <alloyspec/core/collective_errors.h>
 #include <alloyspec/core/errors.h>
+#include <alloyspec/core/format.h>
 #include <alloyspec/fe/spectral_problem.h>
 #include <alloyspec/solver/eigen_enclosure.h>
 #include <alloyspec/solver/eigen_solver.h>
@@ -77,6 +79,48 @@ namespace alloyspec
       MPI_Comm comm_    = MPI_COMM_NULL;
       PetscInt n_local_ = 0, n_global_ = 0;
     };
+
+    /**
+     * Collective over @p comm: refuses, on every rank of it, a block iteration
+     * of @p block columns that needs more than @p budget bytes on some rank.
+     * The rank's need is a lower estimate: its rows of K and M (a value and a
+     * column index per stored entry, as PETSc counts them) and LOBPCG's 12
+     * vectors per column of its @p n_local rows (lobpcg.h; from its second
+     * iteration on it holds X, W and P with their images under K and M, and
+     * the next X with its images, at once); the mesh, the matrices without
+     * potential and the multigrid hierarchy come on top. Only a rank
+     * knows its own rows, and the partition gives some ranks more than
+     * others, so the first rank over the budget may be the only one: its
+     * team-mates would otherwise wait for it in the iteration's first global
+     * sum, and an allocation failure there (std::bad_alloc) would leave them
+     * waiting for ever. @p budget 0: no budget.
+     */
+    void check_block_memory(MPI_Comm comm, Mat K, Mat M, std::size_t n_local, unsigned int block,
+                            double budget)
+    {
+      if (!(budget > 0))
+        return;
+      MatInfo stiffness{}, mass{};
+      ALLOYSPEC_CHECK(MatGetInfo(K, MAT_LOCAL, &stiffness));
+      ALLOYSPEC_CHECK(MatGetInfo(M, MAT_LOCAL, &mass));
+      constexpr double mib      = 1048576.0;
+      const double     matrices = (stiffness.nz_used + mass.nz_used) *
+                              double(sizeof(PetscScalar) + sizeof(PetscInt));
+      const double vectors = 12.0 * block * double(n_local) * sizeof(double);
+      std::string  error;
+      if (matrices + vectors > budget)
+        error = "option '--memory-budget': the iterative eigen-solve needs at least " +
+                short_number((matrices + vectors) / mib) + " MiB on this rank (its " +
+                std::to_string(n_local) + " rows of K and M: " + short_number(matrices / mib) +
+                " MiB; the block of " + std::to_string(block) + " vectors of those rows: " +
+                short_number(vectors / mib) + " MiB), more than the budget of " +
+                short_number(budget / mib) + " MiB per rank; allowed: a budget of at least " +
+                short_number((matrices + vectors) / mib) +
+                " MiB, or more '--ranks-per-realisation', or fewer eigenvalues "
+                "('spectrum/eigenvalues', 'spectrum/energy cutoff'). Realisations already "
+                "stored are kept: continue with --resume";
+      throw_if_any_failed(comm, error, true);
+    }
 
     /** The whole vector on every process of @p comm from each one's contiguous rows. */
     std::vector<double> gather_whole(MPI_Comm comm, const double *local, std::size_t n_local,
@@ -187,6 +231,7 @@ namespace alloyspec
 
     for (unsigned int attempt = 1; attempt <= max_attempts; ++attempt)
       {
+        check_block_memory(comm, pencil.K, pencil.M, op.n_local, block, memory_budget_);
         LobpcgSettings ls;
         ls.block_size     = block;
         // The stop rule below replaces the count; it must still fit the block

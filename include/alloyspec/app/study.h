@@ -41,7 +41,9 @@ namespace alloyspec
     unsigned int ranks_per_realisation = 1;
     /**
      * `--memory-budget`: bytes one rank may use for the solve that
-     * `discretisation/accuracy` chooses; 0: default_memory_budget().
+     * `discretisation/accuracy` chooses (0: default_memory_budget()), and
+     * that each rank checks before every block iteration of the iterative
+     * solver (0: not checked; EigenSolver::set_memory_budget).
      */
     double memory_budget_bytes = 0;
     /** Effective parameters as JSON, copied into run.json. */

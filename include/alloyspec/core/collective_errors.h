@@ -16,6 +16,9 @@ namespace alloyspec
    * no rank is left waiting in a later collective call (a hang) and the
    * message reaches rank 0, which prints it. @p error empty means no error;
    * @p input_error selects InputError (exit status 2) over a computation failure.
+   * On more than one rank the message names the failing rank, "(MPI rank p)"
+   * with p its rank in MPI_COMM_WORLD, once: a message collected over a team
+   * and then over all ranks keeps the name it got first.
    */
   void throw_if_any_failed(MPI_Comm comm, const std::string &error, bool input_error);
 

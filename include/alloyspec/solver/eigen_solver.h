@@ -158,6 +158,14 @@ namespace alloyspec
     void use_teams(RealisationTeams *teams);
 
     /**
+     * Bytes one rank may hold for an iterative solve (`--memory-budget`; 0:
+     * no budget). Before each block iteration every rank compares a lower
+     * estimate of its own need with it, and all ranks of the problem stop
+     * with an InputError when one of them is over (a collective verdict).
+     */
+    void set_memory_budget(double bytes_per_rank) { memory_budget_ = bytes_per_rank; }
+
+    /**
      * The method for @p problem: "auto" resolved by its number of unknowns
      * (the iterative path itself falls back to "tuned" for problems too small
      * for its block; EigenResult::method says what ran).
@@ -206,6 +214,7 @@ namespace alloyspec
     /** The method of the solve in progress ("auto" resolved by method_for()). */
     std::string         method_;
     RealisationTeams   *teams_ = nullptr;
+    double              memory_budget_ = 0; ///< set_memory_budget()
     /** One workspace per problem: EPS/ST/KSP and the MUMPS analysis live across realisations. */
     std::map<const SpectralProblem *, std::unique_ptr<Workspace>> workspaces_;
     /**
