@@ -778,6 +778,10 @@ namespace alloyspec
       phases[name] = json_number(seconds);
     manifest["timings_seconds"]       = phases;
     manifest["memory_high_water_mib"] = json_number(usage.ru_maxrss / 1024.0);
+    // User plus system CPU time of this process (rank 0): on a shared
+    // machine, what "on one core" means for a one-rank run, whatever the load.
+    manifest["cpu_seconds"] = json_number(double(usage.ru_utime.tv_sec) + 1e-6 * double(usage.ru_utime.tv_usec) +
+                                          double(usage.ru_stime.tv_sec) + 1e-6 * double(usage.ru_stime.tv_usec));
     manifest["mesh"] = !discretisations_.empty() && discretisations_.front()->distributed() ?
                          "distributed" : "serial";
     // VmHWM of every rank: the largest baseline (before the mesh), the

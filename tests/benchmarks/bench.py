@@ -73,6 +73,7 @@ def run_study(exe, work, name, sets, ranks=1, cli=()):
     return {"per_solve": sum(seconds) / len(seconds), "n": [int(r["n_eigenvalues"]) for r in rows],
             "solve_phase": manifest["timings_seconds"]["eigen_solves"], "wall": wall, "eigenvalues": eig,
             "dofs": manifest["degrees_of_freedom"], "memory_mib": manifest.get("memory_high_water_mib", float("nan")),
+            "cpu_seconds": manifest.get("cpu_seconds", float("nan")),
             "factor_work": manifest.get("factor_work", {}).get("per_realisation", [])}
 
 
@@ -949,7 +950,8 @@ def iterative_solver(exe, work, quick):
         with open(os.path.join(work, f"it_big_{L}", "realisations.csv")) as f:
             verified = next(csv.DictReader(f))["verified_by"]
         pts.append((L, r["dofs"]["dirichlet"], r["per_solve"], r["memory_mib"]))
-        print(f"L = {L}: {pts[-1][1]} DoFs, {r['per_solve']:.1f} s per realisation, memory high-water "
+        print(f"L = {L}: {pts[-1][1]} DoFs, {r['per_solve']:.1f} s per realisation, CPU time of the whole run "
+              f"{r['cpu_seconds'] / 60:.1f} min (one core), memory high-water "
               f"{r['memory_mib'] / 1024:.2f} GiB, largest residual {res:.1e}, verified by {verified}")
     inner = [p for p in pts if 16 <= p[0] <= 48]
     if len(inner) >= 2:

@@ -74,6 +74,9 @@ def main(folder):
     with open(f"{folder}/run.json") as f:
         run = json.load(f)
     assert run["realisations_stored"] >= 1, "no realisation stored"
+    # Only presence and sign: on a shared machine the CPU time of a phase
+    # may lie anywhere below its wall time.
+    assert run["cpu_seconds"] > 0, "run.json records no CPU time"
     rows = records.rows(f"{folder}/eigenvalues.csv")
     assert rows, "eigenvalues.csv is empty"
     assert list(rows[0].keys())[:5] == ["realisation", "boundary", "index", "eigenvalue", "residual"]
