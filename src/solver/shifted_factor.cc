@@ -114,14 +114,16 @@ namespace alloyspec::internal
       position.clear();
       // METIS's graph: every off-diagonal entry, both triangles (METIS 5.1
       // manual, §5.5 "Graph data structure" — from memory).
-      std::vector<idx_t> xadj(std::size_t(n) + 1, 0), adjncy;
-      adjncy.reserve(std::size_t(k.ia()[n]));
+      // Built only when METIS orders the factor (below metis_from MUMPS orders it).
+      std::vector<idx_t> xadj(metis ? std::size_t(n) + 1 : 0, 0), adjncy;
+      if (metis)
+        adjncy.reserve(std::size_t(k.ia()[n]));
       for (PetscInt i = 0; i < n; ++i)
         {
           for (PetscInt t = k.ia()[i]; t < k.ia()[i + 1]; ++t)
             {
               const PetscInt j = k.ja()[t];
-              if (j != i)
+              if (metis && j != i)
                 adjncy.push_back(idx_t(j));
               if (j >= i)
                 {
@@ -130,7 +132,8 @@ namespace alloyspec::internal
                   position.push_back(t);
                 }
             }
-          xadj[std::size_t(i) + 1] = idx_t(adjncy.size());
+          if (metis)
+            xadj[std::size_t(i) + 1] = idx_t(adjncy.size());
         }
       values.assign(position.size(), 0.0);
       if (metis)
