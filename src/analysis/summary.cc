@@ -126,6 +126,19 @@ namespace alloyspec
     return csv.str();
   }
 
+  std::string weight_warning(const std::string &boundary, const IdsAccumulator &ids)
+  {
+    const double       ess = ids.weight_effective_sample_size();
+    std::ostringstream message;
+    message << "tilted sampling, " << boundary << ": effective sample size of the weights " << ess
+            << " of " << ids.n_realisations() << " realisations, mean weight " << ids.mean_weight();
+    // Degenerate weights: a few realisations carry the whole estimate.
+    if (ess < min_effective_share * double(ids.n_realisations()))
+      message << "; the weights are degenerate (few realisations dominate): read the "
+                 "intervals with care, or choose a smaller tilt";
+    return message.str();
+  }
+
   std::vector<std::string> write_study_tables(const std::string              &output_dir,
                                               const std::vector<StoredStudy> &studies,
                                               const AnalysisSettings         &settings)
@@ -179,20 +192,8 @@ namespace alloyspec
     for (const auto &a : ids)
       summaries.push_back({a.n_realisations(), a.weight_effective_sample_size(), a.mean_weight()});
     if (weighted)
-      // Degenerate weights: a few realisations carry the whole estimate.
       for (std::size_t b = 0; b < ids.size(); ++b)
-        {
-          const double ess = ids[b].weight_effective_sample_size();
-          std::ostringstream message;
-          message << "tilted sampling, " << merged.boundaries[b]
-                  << ": effective sample size of the weights " << ess << " of "
-                  << ids[b].n_realisations() << " realisations, mean weight "
-                  << ids[b].mean_weight();
-          if (ess < min_effective_share * double(ids[b].n_realisations()))
-            message << "; the weights are degenerate (few realisations dominate): read the "
-                       "intervals with care, or choose a smaller tilt";
-          warnings.push_back(message.str());
-        }
+        warnings.push_back(weight_warning(merged.boundaries[b], ids[b]));
     // Every table below weights each realisation by its likelihood ratio, with
     // the same unbiased estimator as ids.csv (1 for plain sampling, which
     // leaves every number bit for bit). A weighted study's report opens with

@@ -365,8 +365,8 @@ end
     bool                     count_no_progress = false;
     auto *count = app.add_subcommand(
       "count", "IDS from inertia counts only (no eigenvectors; for large boxes): N(E) on the "
-               "energy grid per realisation and boundary condition; writes counts.csv, ids.csv, "
-               "run.json.");
+               "energy grid per realisation and boundary condition, plain or tilted sampling; writes "
+               "counts.csv, ids.csv, tail.csv, run.json.");
     count->add_option("config", count_config,
                       "Parameter file (deal.II format). Without it the embedded demo scenario is used.");
     count->add_option("-o,--output", count_output, "Folder for the results (must be new or empty).")
@@ -598,10 +598,13 @@ end
             count_options.progress         = !count_no_progress && Progress::stderr_is_terminal();
             count_options.parameters_json  = to_json(prm);
             count_options.parameters_prm   = to_short_prm(prm);
+            AnalysisSettings count_analysis;
+            parse_checked(count_analysis, prm);
+            count_options.confidence_level = count_analysis.confidence_level;
             run_inertia_count(model, count_options);
             if (root)
               std::cout << "Counts in " << count_output
-                        << "/: counts.csv, ids.csv, run.json, " << ResultsStore::parameters_file
+                        << "/: counts.csv, ids.csv, tail.csv, run.json, " << ResultsStore::parameters_file
                         << "\n"
                         << "These are model estimates for the stated model and box, not "
                            "measurements.\n";

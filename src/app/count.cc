@@ -15,6 +15,8 @@
 #include <alloyspec/app/study_model.h>
 #include <alloyspec/core/format.h>
 #include <alloyspec/io/manifest.h>
+#include <alloyspec/io/sampling_manifest.h>
+#include <alloyspec/analysis/tail_table.h>
 #include <alloyspec/solver/inertia_counter.h>
 
 #include <deal.II/base/mpi.h>
@@ -23,6 +25,7 @@
 #include <chrono>
 #include <cmath>
 #include <cstdio>
+#include <iostream>
 #include <map>
 #include <sstream>
 #include <stdexcept>
@@ -49,9 +52,11 @@ namespace alloyspec
     const auto         start = std::chrono::steady_clock::now();
     const StudySettings &study      = model.study();
     const auto          &boundaries = model.boundaries();
-    if (model.tilted())
-      throw InputError("sampling/method = tilted is not supported by the count command (its "
-                       "averages are unweighted); use 'alloyspec run', or sampling/method = plain");
+    // The automatic tilt comes from a pilot of eigenvalue solves, which belongs to `run`.
+    if (model.tilted() && model.sampling().automatic)
+      throw InputError("parameter 'sampling/tilt' = auto is not supported by the count command "
+                       "(its pilot needs eigenvalues); allowed: a number θ, for example the "
+                       "one a 'run' of the same model chose (sampling/tilt in its run.json)");
     // The pilot that turns a target into a degree belongs to `run`; counting
     // the entries' own degree instead would count another operator.
     if (model.error_estimate().accuracy)
@@ -105,14 +110,19 @@ namespace alloyspec
         Progress progress("realisations", mine.size(), options.progress && rank == 0);
         for (std::size_t k = 0; k < mine.size(); ++k)
           {
-            const std::vector<double> q = model.solver_cell_values(mine[k]);
+            // Drawn from the tilted law when tilted; ln w = 0 exactly when plain.
+            const std::vector<double> q_user = model.potential().cell_values(study.seed, mine[k]);
+            const std::string log_weight =
+              csv_number(model.tilted() ? model.potential().log_weight(q_user) : 0.0);
+            const std::vector<double> q = model.units().to_solver_energies(q_user);
             for (std::size_t b = 0; b < boundaries.size(); ++b)
               {
                 discretisations[b]->assemble_potential(q, *problems[b]);
                 for (std::size_t i = 0; i < study.energies.size(); ++i)
                   lines << mine[k] << ',' << to_string(boundaries[b]) << ','
                         << csv_number(study.energies[i]) << ','
-                        << counters[b].count_below(*problems[b], solver_energies[i]) << '\n';
+                        << counters[b].count_below(*problems[b], solver_energies[i]) << ','
+                        << log_weight << '\n';
               }
             progress.update(k + 1);
           }
@@ -143,10 +153,15 @@ namespace alloyspec
       return;
 
     // Realisation order does not matter for the mean, but sort for a stable file.
-    std::map<std::pair<std::uint64_t, std::string>, std::vector<std::size_t>> counts;
+    struct Counted
+    {
+      std::vector<std::size_t> counts; ///< at the grid energies, in order
+      double                   log_weight = 0;
+    };
+    std::map<std::pair<std::uint64_t, std::string>, Counted> counted;
     const AnalysisInput labels = model.analysis_input(volumes.first);
     // Energies in the user's unit, named as in the other tables (energy_eV, ...).
-    std::string csv = "realisation,boundary," + labels.energy_column + ",count\n";
+    std::string csv = "realisation,boundary," + labels.energy_column + ",count,log_weight\n";
     for (const auto &text : all_lines)
       {
         csv += text;
@@ -154,37 +169,57 @@ namespace alloyspec
         for (std::string line; std::getline(in, line);)
           {
             std::istringstream fields(line);
-            std::string        r, b, e, c;
+            std::string        r, b, e, c, w;
             std::getline(fields, r, ',');
             std::getline(fields, b, ',');
             std::getline(fields, e, ',');
             std::getline(fields, c, ',');
-            counts[{std::stoull(r), b}].push_back(std::stoull(c));
+            std::getline(fields, w, ',');
+            Counted &entry = counted[{std::stoull(r), b}];
+            entry.counts.push_back(std::stoull(c));
+            entry.log_weight = std::stod(w);
           }
       }
     store.write_file("counts.csv", csv);
 
-    std::vector<std::vector<IdsAccumulator::Row>> rows;
+    // Each realisation weighted by its likelihood ratio (1 when plain), as in `run`.
+    std::vector<std::vector<IdsAccumulator::Row>>            rows;
+    std::vector<std::pair<std::string, std::vector<double>>> log_weights;
+    std::vector<std::string>                                 warnings;
     for (const auto &name : labels.boundaries)
       {
         IdsAccumulator ids(study.energies, volumes.first);
-        for (const auto &[key, c] : counts)
+        auto          &logs = log_weights.emplace_back(name, std::vector<double>()).second;
+        for (const auto &[key, entry] : counted)
           if (key.second == name)
-            ids.add_counts(c);
+            {
+              ids.add_counts(entry.counts, entry.log_weight);
+              logs.push_back(entry.log_weight);
+            }
         rows.push_back(ids.rows());
+        if (model.tilted())
+          warnings.push_back(weight_warning(name, ids));
       }
     std::vector<double> semiclassical(study.energies.size(), 0.0);
     for (std::uint64_t r = study.first_realisation;
          r < study.first_realisation + study.realisations; ++r)
       {
+        const std::vector<double> q_user = model.potential().cell_values(study.seed, r);
+        const double w = model.tilted() ? std::exp(model.potential().log_weight(q_user)) : 1.0;
         const std::vector<double> n_sc = model.semiclassical_count(r, volumes);
         for (std::size_t i = 0; i < n_sc.size(); ++i)
-          semiclassical[i] += n_sc[i] / double(study.realisations);
+          semiclassical[i] += w * n_sc[i] / double(study.realisations);
       }
     store.write_file("ids.csv",
                      with_energy_columns(format_ids_table(labels.boundaries, study.energies, rows,
                                                           semiclassical, study.realisations),
                                          labels));
+    store.write_file("tail.csv",
+                     with_energy_columns(format_tail_table(labels.boundaries, rows,
+                                                           options.confidence_level),
+                                         labels));
+    for (const auto &warning : warnings)
+      std::cerr << "alloyspec: warning: " << warning << '\n';
 
     timings["total"] = seconds_since(start);
     Json manifest = manifest_header("count");
@@ -195,6 +230,7 @@ namespace alloyspec
     manifest["volume"]                 = json_number(volumes.first);
     manifest["units"]                  = model.units().description();
     manifest["geometry"]               = model.geometry().description();
+    manifest["sampling"]               = sampling_manifest(model.sampling(), "", log_weights);
     manifest["energies"]               = study.energies.size();
     manifest["numeric_factorisations"] = factorisations;
     Json dofs                          = Json::object();

@@ -9,6 +9,7 @@
 #include <alloyspec/io/record_reader.h>
 #include <alloyspec/io/parameter_text.h>
 #include <alloyspec/io/results_store.h>
+#include <alloyspec/io/sampling_manifest.h>
 #include <alloyspec/fe/spectral_problem.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
 #include <alloyspec/app/study.h>
@@ -668,7 +669,6 @@ namespace alloyspec
     rusage usage{};
     getrusage(RUSAGE_SELF, &usage);
     const UnitSystem       &units    = model_.units();
-    const SamplingSettings &sampling = model_.sampling();
     Json manifest = manifest_header("run");
     manifest["seed"]                   = model_.study().seed;
     manifest["first_realisation"]      = model_.study().first_realisation;
@@ -685,39 +685,16 @@ namespace alloyspec
                          {"description", units.description()}};
     manifest["geometry"]  = model_.geometry().description();
     manifest["potential"] = model_.potential().description();
-    manifest["sampling"]  = {
-      {"method", sampling.method_name()},
-      {"tilt", json_number(sampling.is_tilted() ? sampling.tilt : 0.0)},
-      {"tilt_choice", sampling.is_tilted() ? (sampling.automatic ? "auto" : "given") : "none"},
-      {"target_energy", sampling.target_energy ? json_number(*sampling.target_energy) : Json()},
-      {"tilt_window", sampling.is_tilted() && sampling.tilt_window > 0 ? Json(sampling.tilt_window) : Json("box")},
-      {"tilt_window_choice", sampling.is_tilted() && sampling.tilt_window > 0
-                               ? Json(sampling.tilt_window_automatic ? "auto (from the target energy)" : "given")
-                               : Json()},
-      {"tilt_shape", sampling.is_tilted() ? Json(tilt_shape_name(sampling.tilt_shape)) : Json()},
-      {"untilted_share", sampling.is_tilted() && sampling.tilt_window > 0 ? json_number(sampling.untilted_share) : Json()},
-      {"pilot", tilt_log_}};
     {
-      // Kong's effective sample size of the weights, (Σw)²/Σw², per boundary
-      // condition; the weights are scaled by e^(−max log w) first (the ratio
-      // does not change and nothing overflows).
-      Json ess = Json::object();
+      std::vector<std::pair<std::string, std::vector<double>>> logs;
       for (const auto bc : model_.boundaries())
         {
-          std::vector<double> logs;
+          auto &mine = logs.emplace_back(to_string(bc), std::vector<double>()).second;
           for (const auto &r : stored.input.records)
             if (r.boundary == to_string(bc))
-              logs.push_back(r.log_weight);
-          if (logs.empty())
-            continue;
-          const double top = *std::max_element(logs.begin(), logs.end());
-          double       sum = 0, sum_sq = 0;
-          for (const double l : logs)
-            sum += std::exp(l - top), sum_sq += std::exp(2 * (l - top));
-          ess[to_string(bc)] = {{"realisations", logs.size()},
-                                {"effective_sample_size", json_number(sum * sum / sum_sq)}};
+              mine.push_back(r.log_weight);
         }
-      manifest["sampling"]["weights"] = ess;
+      manifest["sampling"] = sampling_manifest(model_.sampling(), tilt_log_, logs);
     }
     Json dofs = Json::object();
     for (std::size_t b = 0; b < model_.boundaries().size(); ++b)

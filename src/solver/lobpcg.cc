@@ -67,28 +67,36 @@ namespace alloyspec
     };
 
     /**
-     * Makes @p v M-orthogonal to the M-orthonormal blocks of @p against and
-     * M-orthonormal itself (dropping dependent directions); returns it with
-     * freshly applied images.
+     * Makes @p in.v M-orthogonal to the M-orthonormal blocks of @p against and
+     * M-orthonormal itself (dropping dependent directions). With @p imaged,
+     * in.kv and in.mv are its images and follow every linear combination (no
+     * product with K or M); otherwise M is applied first and K last.
      */
-    Imaged orthonormalise(const LobpcgOperator &op, Dense v, const std::vector<const Imaged *> &against)
+    Imaged orthonormalise(const LobpcgOperator &op, Imaged in, const std::vector<const Imaged *> &against,
+                          const bool imaged = false)
     {
       Imaged out;
+      Dense &v = in.v;
       if (v.cols() == 0)
         {
           out.v = out.kv = out.mv = Dense(static_cast<Eigen::Index>(op.n_local), 0);
           return out;
         }
-      Dense mv = image_of(op.mass, v);
+      Dense  mv = imaged ? std::move(in.mv) : image_of(op.mass, v);
+      Dense &kv = in.kv;
+      const auto follow = [&](const auto &transform) {
+        v  = transform(v);
+        mv = transform(mv);
+        if (imaged)
+          kv = transform(kv);
+      };
       {
         // Unit M-norm columns first, so that the threshold is relative.
         const Eigen::VectorXd d = (gram(op, v, mv)).diagonal();
+        Eigen::VectorXd       scale(v.cols());
         for (Eigen::Index j = 0; j < v.cols(); ++j)
-          {
-            const double scale = d[j] > 0 ? 1.0 / std::sqrt(d[j]) : 0.0;
-            v.col(j) *= scale;
-            mv.col(j) *= scale;
-          }
+          scale[j] = d[j] > 0 ? 1.0 / std::sqrt(d[j]) : 0.0;
+        follow([&](const Dense &a) { return Dense(a * scale.asDiagonal()); });
       }
       for (int pass = 0; pass < 2; ++pass)
         {
@@ -98,6 +106,8 @@ namespace alloyspec
                 const Dense c = gram(op, q->mv, v);
                 v.noalias() -= q->v * c;
                 mv.noalias() -= q->mv * c;
+                if (imaged)
+                  kv.noalias() -= q->kv * c;
               }
           Dense g = gram(op, v, mv);
           g       = 0.5 * (g + g.transpose()).eval();
@@ -115,14 +125,13 @@ namespace alloyspec
           for (std::size_t j = 0; j < keep.size(); ++j)
             c.col(static_cast<Eigen::Index>(j)) =
               eig.eigenvectors().col(keep[j]) / std::sqrt(d[keep[j]]);
-          v  = (v * c).eval();
-          mv = (mv * c).eval();
+          follow([&](const Dense &a) { return Dense(a * c); });
           if (v.cols() == 0)
             break;
         }
-      // mv followed v through every linear combination: no fresh product needed.
+      // mv (and with images kv) followed v through every linear combination.
       out.mv = std::move(mv);
-      out.kv = image_of(op.stiffness, v);
+      out.kv = imaged ? std::move(kv) : image_of(op.stiffness, v);
       out.v  = std::move(v);
       return out;
     }
@@ -197,13 +206,14 @@ namespace alloyspec
         start(i, j) = 2.0 * uniform_open01(settings.seed, static_cast<std::uint64_t>(j),
                                            op.row_offset + static_cast<std::uint64_t>(i)) - 1.0;
     zero_fixed(op, start);
-    Imaged x = orthonormalise(op, std::move(start), {});
+    Imaged x = orthonormalise(op, Imaged{std::move(start), {}, {}}, {});
     if (x.v.cols() < m)
       throw std::invalid_argument("LOBPCG: fewer free unknowns than the block size");
 
     std::vector<double> theta(static_cast<std::size_t>(m));
     // Rayleigh–Ritz on the current span; the directions P from the W and P parts.
-    Dense p(n, 0);
+    // P with its images K P and M P, combined from those of W and P (not applied).
+    Imaged p{Dense(n, 0), Dense(n, 0), Dense(n, 0)};
     const auto rayleigh_ritz = [&](const std::vector<const Imaged *> &blocks) {
       std::vector<const Dense *> s, ks, ms;
       for (const Imaged *b : blocks)
@@ -227,15 +237,17 @@ namespace alloyspec
       if (blocks.size() > 1)
         {
           // P: the part of the new X outside the old X.
-          std::vector<const Dense *> rest(s.begin() + 1, s.end());
-          p = combine(rest, y.bottomRows(y.rows() - m));
+          const Dense bottom = y.bottomRows(y.rows() - m);
+          p.v  = combine(std::vector<const Dense *>(s.begin() + 1, s.end()), bottom);
+          p.kv = combine(std::vector<const Dense *>(ks.begin() + 1, ks.end()), bottom);
+          p.mv = combine(std::vector<const Dense *>(ms.begin() + 1, ms.end()), bottom);
         }
       x = std::move(next);
     };
     rayleigh_ritz({&x});
 
     LobpcgResult result;
-    bool         fresh = true;
+    bool         fresh = true, fresh_p = true;
     for (unsigned int it = 1; it <= settings.max_iterations; ++it)
       {
         result.iterations = it;
@@ -252,6 +264,7 @@ namespace alloyspec
         // convergence test is always made on freshly applied ones.
         if (!fresh && (all_needed() || it % settings.refresh_every == 0))
           {
+            fresh_p = true;
             x.kv  = image_of(op.stiffness, x.v);
             x.mv  = image_of(op.mass, x.v);
             res   = relative_residuals(op, x, theta);
@@ -270,21 +283,30 @@ namespace alloyspec
         for (Eigen::Index j = 0; j < m; ++j)
           if (!(res[static_cast<std::size_t>(j)] <= settings.tolerance))
             active.push_back(j);
-        Dense r(n, static_cast<Eigen::Index>(active.size()));
-        Dense p_active(n, p.cols() > 0 ? static_cast<Eigen::Index>(active.size()) : 0);
+        Dense        r(n, static_cast<Eigen::Index>(active.size()));
+        const auto   n_p = p.v.cols() > 0 ? static_cast<Eigen::Index>(active.size()) : 0;
+        Imaged       p_active{Dense(n, n_p), Dense(n, n_p), Dense(n, n_p)};
         for (std::size_t a = 0; a < active.size(); ++a)
           {
             const Eigen::Index j = active[a];
             r.col(Eigen::Index(a)) = x.kv.col(j) - theta[std::size_t(j)] * x.mv.col(j);
-            if (p.cols() > 0)
-              p_active.col(Eigen::Index(a)) = p.col(j);
+            if (n_p > 0)
+              {
+                p_active.v.col(Eigen::Index(a))  = p.v.col(j);
+                p_active.kv.col(Eigen::Index(a)) = p.kv.col(j);
+                p_active.mv.col(Eigen::Index(a)) = p.mv.col(j);
+              }
           }
         zero_fixed(op, r);
         Dense w = image_of(op.precondition, r);
         result.preconditioned_columns += static_cast<std::size_t>(w.cols());
         zero_fixed(op, w);
-        const Imaged wi = orthonormalise(op, std::move(w), {&x});
-        const Imaged pi = orthonormalise(op, std::move(p_active), {&x, &wi});
+        const Imaged wi = orthonormalise(op, Imaged{std::move(w), {}, {}}, {&x});
+        // P's images come from the last Rayleigh–Ritz step; they are applied
+        // afresh with X's, every refresh_every iterations, against drift.
+        const bool   imaged = !fresh_p;
+        const Imaged pi = orthonormalise(op, std::move(p_active), {&x, &wi}, imaged);
+        fresh_p = false;
         rayleigh_ritz({&x, &wi, &pi});
         fresh = false;
       }

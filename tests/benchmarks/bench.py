@@ -28,6 +28,8 @@
   8. the distributed mesh of the iterative path: per-rank memory of a team of
      2 against 1 rank (L = 24), and the speed-up of a team of 2 ranks on one
      realisation of L = 32 (k = 20, Q2, one element per cell) over 1 rank;
+     the operator's product with a block of 25 vectors, stored against
+     matrix-free (needs --matrix-free-probe, which the bench targets pass);
   9. the direct path's goals in one run: the separable 8^3 case (lowest 50
      Dirichlet eigenvalues against the exact separated reference) FE at <= 1e-4
      against FD with 4 points per cell edge; L = 12, k = 200 against the
@@ -531,7 +533,7 @@ def variance_ratio(work, tilted_name, plain_name, energies, volume, target=1e-5)
             best = (i, m, v, m2)
     if best is None:
         print(f"  {tilted_name}: no positive estimate on the grid")
-        return
+        return None
     i, m, v_t, m2 = best
     pm, pv_direct, _ = weighted_moments(ps, i)
     hits = sum(1 for _, n in ps if n[i] > 0)
@@ -548,6 +550,50 @@ def variance_ratio(work, tilted_name, plain_name, energies, volume, target=1e-5)
                   f"(GOAL >= 100x: {'MET' if ratio >= 100 else 'NOT met'})")
         else:
             print(f"    variance ratio at equal solve time ({label}): not measurable (a variance is 0)")
+    return energies[i]
+
+
+def counted_summands(folder, boundary, volume):
+    """Per realisation of `count`'s counts.csv (one energy): (log w, N_r(E)), and the time per realisation."""
+    with open(os.path.join(folder, "counts.csv")) as f:
+        rows = [r for r in csv.DictReader(f) if r["boundary"] == boundary]
+    with open(os.path.join(folder, "run.json")) as f:
+        seconds = json.load(f)["timings_seconds"]["counts"]
+    return [(float(r["log_weight"]), [int(r["count"]) / volume]) for r in rows], seconds / len(rows)
+
+
+def count_variance_ratio(exe, work, cli, common, theta, energy, volume, tilted_r, plain_r):
+    """N(E) at one energy from inertia counts alone (`count`): a realisation costs one
+    factorisation whether or not it has a state below E, so the time per realisation is the same
+    for both laws and the variance ratio is the per-realisation one. Tilted: the shaped tilt at
+    the run's chosen theta (given here; count has no pilot); plain: many more realisations, which
+    count affords."""
+    grid = [f"study/energies={energy}"]
+    run_count = lambda name, sets: subprocess.run(
+        [exe, "count", *cli, "--no-progress", "--output", os.path.join(work, name)] +
+        [x for s in common + grid + sets for x in ("--set", s)],
+        check=True, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE,
+        env=dict(os.environ, OPENBLAS_NUM_THREADS="1", OMP_NUM_THREADS="1"))
+    for name in ("count3d_shaped", "count3d_plain"):
+        shutil.rmtree(os.path.join(work, name), ignore_errors=True)
+    run_count("count3d_shaped", ["sampling/method=tilted", f"sampling/tilt={theta}", "sampling/tilt shape=lowest mode",
+                                 f"study/realisations={tilted_r}", "study/seed=35"])
+    run_count("count3d_plain", ["sampling/method=plain", f"study/realisations={plain_r}", "study/seed=36"])
+    ts, t_t = counted_summands(os.path.join(work, "count3d_shaped"), "dirichlet", volume)
+    ps, t_p = counted_summands(os.path.join(work, "count3d_plain"), "dirichlet", volume)
+    m, v_t, m2 = weighted_moments(ts, 0)
+    pm, pv, _ = weighted_moments(ps, 0)
+    hits = sum(1 for _, n in ps if n[0] > 0)
+    print(f"  counts only (`count`, E = {energy}): shaped tilt theta = {theta}, {len(ts)} realisations, "
+          f"N = {m:.3e} +- {math.sqrt(v_t / len(ts)):.2e}, {t_t:.4f} s each; plain {len(ps)} realisations, "
+          f"N = {pm:.3e} ({hits} with a state), {t_p:.4f} s each")
+    print(f"    variance per realisation: tilted {v_t:.3e}; plain {pv:.3e} measured, "
+          f"{max(m2 - m * m, 0):.3e} from the tilted sample")
+    for label, plain_var in (("measured plain variance", pv), ("plain variance from the tilted sample", m2 - m * m)):
+        if v_t > 0 and plain_var > 0:
+            ratio = (plain_var * t_p) / (v_t * t_t)
+            print(f"    variance ratio at equal solve time ({label}): {ratio:.1f}x "
+                  f"(GOAL >= 100x: {'MET' if ratio >= 100 else 'NOT met'})")
 
 
 def print_depth(work, name, boundary, unit):
@@ -624,8 +670,15 @@ def deep_tail_goals(exe, work, quick):
           f"(pilot {shaped3['timings_seconds'].get('tilt_search', float('nan')):.0f} s, not counted below)")
     variance_ratio(work, "tail3d_tilted", "tail3d_plain", energies3, volume3)
     variance_ratio(work, "tail3d_window", "tail3d_plain", energies3, volume3)
-    variance_ratio(work, "tail3d_shaped", "tail3d_plain", energies3, volume3)
+    near = variance_ratio(work, "tail3d_shaped", "tail3d_plain", energies3, volume3)
     variance_ratio(work, "tail3d_shaped", "tail3d_plain", energies3, volume3, target=1e-6)
+    if near is not None:
+        count_common = [c for c in common3 if not c.startswith(("study/energies", "study/realisations",
+                                                                "spectrum/energy cutoff", "analysis/"))]
+        # Counts are cheap: enough realisations that both variances are estimated to about 10 %
+        # (a few hundred tilted ones scatter by tens of per cent: the weights' tail is heavy).
+        count_variance_ratio(exe, work, alloy, count_common, shaped3["sampling"]["tilt"], round(near, 6), volume3,
+                             8 * r3, 40 * r3)
     for name in ("tail3d_tilted", "tail3d_window", "tail3d_shaped", "tail3d_plain"):
         print_depth(work, name, "dirichlet", "per unit volume")
     # Band-edge mode: time per realisation against one numeric factorisation.
@@ -937,11 +990,13 @@ def iterative_solver(exe, work, quick):
         inside = all(float(g["enclosure_lower"]) <= s <= float(g["enclosure_upper"]) for g, s in zip(got, sums))
         print(f"free box L = 24, {bc} ({r['dofs'][bc]} DoFs, {r['per_solve']:.1f} s): largest relative difference "
               f"to the Kronecker sums {worst:.1e}, every sum inside its enclosure: {inside}")
-    # Growth from L = 16 to 48, and the large boxes.
+    # Growth from L = 16 to 48, and the large boxes: enclosures at every size, so that the series
+    # measures one method (an inertia count, affordable up to L = 32, would add a factorisation).
     pts = []
     for L in (16, 24, 32, 48, 64):
         try:
-            r = run_study(exe, work, f"it_big_{L}", box(L, 20, 1, q2 + ["spectrum/solver=iterative"]))
+            r = run_study(exe, work, f"it_big_{L}", box(L, 20, 1, q2 + ["spectrum/solver=iterative",
+                                                                        "spectrum/inertia check limit=0"]))
         except subprocess.CalledProcessError as error:
             print(f"L = {L}: failed ({error.stderr.decode()[-300:]})")
             continue
@@ -959,7 +1014,23 @@ def iterative_solver(exe, work, quick):
         print(f"time ~ DoFs^{slope:.2f} from L = {inner[0][0]} to L = {inner[-1][0]} (goal: at most 1.15)")
 
 
-def distributed_mesh(exe, work, quick):
+def matrix_free_comparison(probe, quick):
+    """The iterative path's operator on one block: stored (PETSc MatMatMult) against matrix-free."""
+    if not probe:
+        print("matrix-free comparison: skipped (no --matrix-free-probe)")
+        return
+    for L in ([8] if quick else [16, 24]):
+        out = subprocess.run([probe, str(L), "2", "25", "3"], check=True, capture_output=True, text=True,
+                             env=dict(os.environ, OMP_NUM_THREADS="1")).stdout
+        r = json.loads(out)
+        print(f"operator K + V M on a block of {r['columns']} columns, L = {L}, Q2 ({r['unknowns']} unknowns, "
+              f"{r['stored_entries']:.3g} stored entries): stored {r['stored_seconds']:.3f} s, matrix-free "
+              f"{r['matrix_free_seconds']:.3f} s ({r['vectorised_lanes']} lane(s) per SIMD batch), "
+              f"stored / matrix-free {r['stored_seconds'] / r['matrix_free_seconds']:.2f}; results agree to "
+              f"{r['largest_relative_difference']:.1e}")
+
+
+def distributed_mesh(exe, work, quick, matrix_free_probe=None):
     section("8. distributed mesh (iterative path): a team of 2 ranks against 1 rank on one realisation")
     print("(the machine is shared with other builds while this runs: times carry their load)")
     q2 = ["discretisation/degree=2", "discretisation/elements per cell=1", "spectrum/tolerance=1e-10",
@@ -977,6 +1048,7 @@ def distributed_mesh(exe, work, quick):
               f"team of 2 {two['per_solve']:.1f} s, {mem[1]:.0f} MiB per rank; speed-up "
               f"{one['per_solve'] / two['per_solve']:.2f}x (goal at L = 32: 1.7x), memory per rank "
               f"{mem[1] / mem[0]:.2f} of one rank's (goal 0.6); eigenvalues agree to {worst:.1e}")
+    matrix_free_comparison(matrix_free_probe, quick)
 
 
 def main():
@@ -987,6 +1059,7 @@ def main():
     parser.add_argument("--only", default="123456789", help="which parts to run, e.g. 14")
     parser.add_argument("--probe", default=None, help="the roofline_probe executable (parts 5 and 9)")
     parser.add_argument("--ordering-probe", default=None, help="the ordering_probe executable (part 9)")
+    parser.add_argument("--matrix-free-probe", default=None, help="the matrix_free_probe executable (part 8)")
     args = parser.parse_args()
     os.makedirs(args.work, exist_ok=True)
     start = time.perf_counter()
@@ -994,7 +1067,7 @@ def main():
           f"{os.cpu_count()} CPUs; one BLAS thread per process")
     parts = {"1": tuned_vs_baseline, "2": mpi_throughput, "3": growth, "4": accuracy_per_cost,
              "5": lambda exe, work, quick: roofline(exe, work, quick, args.probe), "6": deep_tail_goals, "7": iterative_solver,
-             "8": distributed_mesh,
+             "8": lambda exe, work, quick: distributed_mesh(exe, work, quick, args.matrix_free_probe),
              "9": lambda exe, work, quick: direct_path_goals(exe, work, quick, args.probe, args.ordering_probe)}
     for key in args.only:
         parts[key](args.exe, args.work, args.quick)

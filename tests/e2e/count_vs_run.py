@@ -3,8 +3,9 @@
 of the same study. Sylvester's law of inertia makes the number of negative
 pivots of K - E M the number of eigenvalues below E, so wherever the run's list
 is complete (E <= complete_up_to) and E is not within rounding of an
-eigenvalue, the count must equal #{lambda_j <= E} exactly, and ids.csv must
-agree there. Usage: count_vs_run.py RUN_FOLDER COUNT_FOLDER
+eigenvalue, the count must equal #{lambda_j <= E} exactly, and ids.csv and
+tail.csv must agree there. The log-likelihood ratio of each realisation
+(tilted sampling) must be the run's exactly: both draw the same cells. Usage: count_vs_run.py RUN_FOLDER COUNT_FOLDER
 """
 import csv
 import json
@@ -32,8 +33,10 @@ def main(run, count):
     for r in records.rows(f"{run}/eigenvalues.csv"):
         spectra.setdefault((int(r["realisation"]), r["boundary"]), []).append(
             to_user * float(r["eigenvalue"]))
+    log_weight = {}
     for r in records.rows(f"{run}/realisations.csv"):
         complete[(int(r["realisation"]), r["boundary"])] = to_user * float(r["complete_up_to"])
+        log_weight[(int(r["realisation"]), r["boundary"])] = float(r["log_weight"])
     checked = skipped = largest = 0
     failures = []
     with open(f"{count}/counts.csv") as f:
@@ -42,7 +45,10 @@ def main(run, count):
         for r in reader:
             key = (int(r["realisation"]), r["boundary"])
             e, n = float(r[column]), int(r["count"])
-            values = spectra[key]
+            # The same draw gives the same likelihood ratio, to the last bit.
+            if float(r["log_weight"]) != log_weight[key]:
+                failures.append(f"{key}: log_weight {r['log_weight']} in counts.csv, {log_weight[key]} in run")
+            values = spectra.get(key, [])  # band-edge mode: none below the cutoff
             if e > complete[key] or any(abs(v - e) <= NEAR_EIGENVALUE * max(1.0, abs(e)) for v in values):
                 skipped += 1
                 continue
@@ -66,6 +72,22 @@ def main(run, count):
             x, y = float(a[column]), float(b[column])
             if not (x == y or abs(x - y) <= IDS_TOLERANCE * max(abs(x), abs(y))):
                 failures.append(f"ids.csv at E={a[energy_column(a)]}, {column}: run {x}, count {y}")
+    # tail.csv: the same weighted estimates and intervals wherever the run's row is complete.
+    with open(f"{run}/tail.csv") as f:
+        tail_run = list(csv.DictReader(f))
+    with open(f"{count}/tail.csv") as f:
+        tail_count = list(csv.DictReader(f))
+    assert list(tail_run[0].keys()) == list(tail_count[0].keys()), "tail.csv columns differ"
+    compared = 0
+    for a, b in zip(tail_run, tail_count):
+        for column in a:
+            x, y = float(a[column]), float(b[column])
+            if math.isnan(x):  # incomplete in the run (above its verified range), or ln 0
+                continue
+            compared += 1
+            if not (x == y or abs(x - y) <= IDS_TOLERANCE * max(abs(x), abs(y))):
+                failures.append(f"tail.csv at E={a[energy_column(a)]}, {column}: run {x}, count {y}")
+    assert compared >= 20, f"only {compared} tail.csv values could be compared"
     for line in failures[:20]:
         print("MISMATCH:", line)
     if failures:

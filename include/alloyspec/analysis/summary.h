@@ -47,6 +47,14 @@ namespace alloyspec
                                std::size_t                                       n_realisations);
 
   /**
+   * The line a tilted study prints per boundary condition: Kong's effective
+   * sample size of the weights and their mean (1 in expectation), with a
+   * warning when the effective sample size is below a tenth of the
+   * realisations (the weights are degenerate).
+   */
+  std::string weight_warning(const std::string &boundary, const IdsAccumulator &ids);
+
+  /**
    * Writes ids.csv (mean counting functions with standard errors, completeness
    * flags, width of the Dirichlet–Neumann bracket, semiclassical count) and the
    * full analysis (DOS, bands, tails, localisation, figures, report) for the

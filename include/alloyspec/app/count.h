@@ -18,6 +18,8 @@ namespace alloyspec
      */
     std::string parameters_json;
     std::string parameters_prm;
+    /** `analysis/confidence level` of the intervals in tail.csv. */
+    double      confidence_level = 0.95;
   };
 
   /**
@@ -26,9 +28,13 @@ namespace alloyspec
    * @f$N_L(E_i) = \#\{\lambda_j \le E_i\}/|\Lambda|@f$ on the energy grid from
    * inertia counts only (no eigenvectors, so memory is that of one
    * factorisation and boxes far larger than `run` can handle fit). Writes
-   * counts.csv (realisation, boundary, energy in the user's unit, count), ids.csv with the same
-   * columns as `run` (complete at every energy) and run.json with timings and
-   * the memory high-water mark. At an energy equal to an eigenvalue the count
+   * counts.csv (realisation, boundary, energy in the user's unit, count, log_weight), ids.csv
+   * with the same columns as `run` (complete at every energy), tail.csv and
+   * run.json with timings, the sampling block and the memory high-water mark.
+   * Tilted sampling (`sampling/method = tilted` with a given θ) weights every
+   * average by the realisation's likelihood ratio @f$w = e^{\ln w}@f$, the same
+   * unbiased estimator as `run`: at one energy the cost of a realisation is
+   * one factorisation whether or not it has states below that energy. At an energy equal to an eigenvalue the count
    * is of eigenvalues strictly below it (a zero pivot); grids rarely hit one.
    * Realisations are dealt out to MPI ranks round-robin.
    */

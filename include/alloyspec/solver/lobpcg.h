@@ -86,9 +86,13 @@ namespace alloyspec
    * conditioned when directions become dependent near convergence. The
    * projected problem is solved as the generalised symmetric problem with
    * the computed Gram matrix, so a slight loss of M-orthogonality does not
-   * bias the Ritz values. Cost per iteration: m applications of T, O(m) of K
-   * and M, and dense products of O(n m²): linear in the number of rows.
-   * Memory: about 12 m vectors.
+   * bias the Ritz values. The images K P and M P are combined from those of
+   * W and P in the Rayleigh–Ritz step, as P itself, and applied afresh only
+   * with X's (every refresh_every iterations, against rounding drift). Cost
+   * per iteration: m applications of T, 2m of K and M (those of W; X's now
+   * and then), and dense products of O(n m²): linear in the number of rows.
+   * Memory: about 15 m vectors (X, W, P, the next X and P, each with its
+   * images).
    */
   LobpcgResult lobpcg(const LobpcgOperator &op, const LobpcgSettings &settings);
 } // namespace alloyspec
