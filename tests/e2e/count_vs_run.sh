@@ -37,6 +37,14 @@ compare mesh "$configs/rounded_wire_mesh.prm"
 # Tilted sampling with a given tilt: the same draws, counts and weights as `run`.
 compare tilted_shaped "$configs/deep_tail_box.prm" --set "lattice/cells=4,4,4" --set sampling/tilt=1.2 \
   --set study/realisations=4 --set "spectrum/energy cutoff=14" --set "study/energies=2 to 14 by 0.25"
+if [ -n "$mpirun" ]; then
+  # Realisations dealt out to 2 ranks: each rank's weights reach rank 0's tables.
+  timeout 300 "$mpirun" --allow-run-as-root --oversubscribe -np 2 \
+    "$exe" count "$configs/deep_tail_box.prm" "${small[@]}" --set "lattice/cells=4,4,4" --set sampling/tilt=1.2 \
+    --set study/realisations=4 --set "spectrum/energy cutoff=14" --set "study/energies=2 to 14 by 0.25" \
+    --output "$work/count2_tilted_shaped" > "$work/count2_tilted_shaped.log" 2>&1
+  python3 "$here/count_vs_run.py" "$work/run_tilted_shaped" "$work/count2_tilted_shaped"
+fi
 compare tilted_windows "$configs/deep_tail_windows.prm" --set "lattice/cells=40" --set sampling/tilt=1 \
   --set study/realisations=4 --set "spectrum/energy cutoff=2" --set "study/energies=0.02 to 2 by 0.02"
 # The automatic tilt needs the eigenvalue pilot of `run`: refused by `count` with status 2.
