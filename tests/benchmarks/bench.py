@@ -18,8 +18,10 @@
      variance reduction at equal solve time for N(E) ~ 1e-5 (3D, L = 6, binary
      alloy; and 1D), the depth reached (smallest N with a relative 95 %
      half-width <= 30 %) and its time in 1D (200-cell chains) and 3D, the
-     band-edge time per realisation against one factorisation, and the 1D
-     deep-tail Lifshitz exponent against 1/2;
+     band-edge time per realisation against one factorisation, the 1D
+     deep-tail Lifshitz exponent against 1/2, and (3D) the variance ratio of
+     counts only (`count`) at one energy, where both laws cost one
+     factorisation per realisation;
   7. the iterative eigen-solver (LOBPCG with algebraic multigrid): time and
      memory against the direct path by box size and the crossover between
      them, the growth of its time with the number of unknowns (L = 16 to 48),
