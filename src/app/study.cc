@@ -605,9 +605,9 @@ namespace alloyspec
       }
     progress.finish();
     const double high_water = high_water_mib();
-    memory_per_rank_ = {dealii::Utilities::MPI::max(memory_before_mesh_mib_, comm),
-                        dealii::Utilities::MPI::max(high_water, comm),
-                        dealii::Utilities::MPI::max(high_water - memory_before_mesh_mib_, comm)};
+    memory_per_rank_ = {{dealii::Utilities::MPI::max(memory_before_mesh_mib_, comm),
+                         dealii::Utilities::MPI::max(high_water, comm),
+                         dealii::Utilities::MPI::max(high_water - memory_before_mesh_mib_, comm)}};
     // Rank 0 writes run.json: it collects every leader's factor work.
     const auto gathered = dealii::Utilities::MPI::gather(comm, factor_work_, 0);
     if (rank == 0)
