@@ -510,6 +510,33 @@ def weighted_moments(sample, i):
     return mean, var, sum(y2) / r
 
 
+def variance_with_error(values):
+    """The sample variance s^2 of @values and its standard error, from
+    Var(s^2) = (mu_4 - (n - 3)/(n - 1) sigma^4) / n (Cramer, Mathematical Methods of Statistics,
+    1946, section 27.4; recalled from memory), with the sample moments in place of mu_4 and sigma^4.
+    Heavy-tailed weights make this error itself uncertain: it is a guide, not a guarantee."""
+    n = len(values)
+    mean = sum(values) / n
+    s2 = sum((v - mean) ** 2 for v in values) / (n - 1)
+    m4 = sum((v - mean) ** 4 for v in values) / n
+    return s2, math.sqrt(max(m4 - (n - 3) / (n - 1) * s2 * s2, 0.0) / n)
+
+
+def ratio_interval(tilted, plain, time_ratio):
+    """The variance ratio at equal solve time, (var plain / var tilted) * time_ratio, with an
+    approximate 95 % interval from the two variances' standard errors (delta method on the log;
+    the samples are independent)."""
+    vt, et = variance_with_error(tilted)
+    vp, ep = variance_with_error(plain)
+    ratio = vp / vt * time_ratio
+    spread = 1.96 * math.sqrt((et / vt) ** 2 + (ep / vp) ** 2)
+    return ratio, ratio * math.exp(-spread), ratio * math.exp(spread)
+
+
+def summands(sample, i):
+    return [math.exp(lw) * n[i] for lw, n in sample]
+
+
 def depth_reached(folder, boundary):
     """Smallest N in tail.csv with a 95 % half-width <= 30 % of N and an effective sample size >= 10."""
     best = None
@@ -548,7 +575,11 @@ def variance_ratio(work, tilted_name, plain_name, energies, volume, target=1e-5)
     for label, pv in (("measured plain variance", pv_direct), ("plain variance from the tilted sample", pv_from_tilted)):
         if v_t > 0 and pv > 0:
             ratio = (pv * t_p) / (v_t * t_t)
-            print(f"    variance ratio at equal solve time ({label}): {ratio:.1f}x "
+            spread = ""
+            if pv is pv_direct:
+                _, low, high = ratio_interval(summands(ts, i), summands(ps, i), t_p / t_t)
+                spread = f", 95 % interval about [{low:.0f}, {high:.0f}]x"
+            print(f"    variance ratio at equal solve time ({label}): {ratio:.1f}x{spread} "
                   f"(GOAL >= 100x: {'MET' if ratio >= 100 else 'NOT met'})")
         else:
             print(f"    variance ratio at equal solve time ({label}): not measurable (a variance is 0)")
@@ -594,7 +625,11 @@ def count_variance_ratio(exe, work, cli, common, theta, energy, volume, tilted_r
     for label, plain_var in (("measured plain variance", pv), ("plain variance from the tilted sample", m2 - m * m)):
         if v_t > 0 and plain_var > 0:
             ratio = (plain_var * t_p) / (v_t * t_t)
-            print(f"    variance ratio at equal solve time ({label}): {ratio:.1f}x "
+            spread = ""
+            if plain_var is pv:
+                _, low, high = ratio_interval(summands(ts, 0), summands(ps, 0), t_p / t_t)
+                spread = f", 95 % interval about [{low:.0f}, {high:.0f}]x"
+            print(f"    variance ratio at equal solve time ({label}): {ratio:.1f}x{spread} "
                   f"(GOAL >= 100x: {'MET' if ratio >= 100 else 'NOT met'})")
 
 
