@@ -97,8 +97,8 @@ namespace alloyspec::internal
 
     dealii::TrilinosWrappers::PreconditionAMG::AdditionalData data;
     // Smoothed aggregation for an elliptic operator; ML's defaults otherwise
-    // (one V-cycle, Chebyshev smoother). One smoother sweep, not two: a
-    // cheaper cycle pays for the extra LOBPCG iterations it costs. Measured,
+    // (one V-cycle, Chebyshev smoother). One smoother sweep, not two: the
+    // cheaper cycle gave the faster solve overall (iterations not counted). Measured,
     // L = 24, Q2, k = 20, enclosures, seconds per realisation: sweeps 2:
     // 78.8 and 79.1; 1: 68.1 and 71.6; 3: 90.1. The aggregation threshold
     // was measured too (1 sweep): 0.02 best; 0.05 77.6 s, 0.1 158.0 s;
