@@ -204,8 +204,10 @@ namespace alloyspec
     for (std::uint64_t r = study.first_realisation;
          r < study.first_realisation + study.realisations; ++r)
       {
-        const std::vector<double> q_user = model.potential().cell_values(study.seed, r);
-        const double w = model.tilted() ? std::exp(model.potential().log_weight(q_user)) : 1.0;
+        // The realisation's weight as counted above (every boundary stores the same one;
+        // %.17g reads back exactly), not drawn a second time.
+        const auto   found = counted.find({r, labels.boundaries.front()});
+        const double w     = found == counted.end() ? 1.0 : std::exp(found->second.log_weight);
         const std::vector<double> n_sc = model.semiclassical_count(r, volumes);
         for (std::size_t i = 0; i < n_sc.size(); ++i)
           semiclassical[i] += w * n_sc[i] / double(study.realisations);
