@@ -1,3 +1,4 @@
+#include "block_product.h"
 #include "iterative_workspace.h"
 #include "list_cut.h"
 #include "petsc_handle.h"
@@ -16,7 +17,6 @@
 
 #include <algorithm>
 #include <cmath>
-#include <cstring>
 #include <limits>
 #include <sstream>
 #include <stdexcept>
@@ -56,39 +56,6 @@ namespace alloyspec
      * would grow like n ε); common practice, no source.
      */
     constexpr double rounding_units = 16.0;
-
-    /**
-     * Columns of n_local rows through a PETSc matrix: one sparse-times-dense
-     * product per block, which reads the sparse matrix once for all columns
-     * (measured at 36k unknowns, 25 columns: faster than one MatMult per column).
-     */
-    class ColumnProduct
-    {
-    public:
-      explicit ColumnProduct(Mat A)
-        : a_(A)
-      {
-        ALLOYSPEC_CHECK(PetscObjectGetComm(reinterpret_cast<PetscObject>(A), &comm_));
-        ALLOYSPEC_CHECK(MatGetLocalSize(A, &n_local_, nullptr));
-        ALLOYSPEC_CHECK(MatGetSize(A, &n_global_, nullptr));
-      }
-      void operator()(const double *in, double *out, unsigned int b) const
-      {
-        internal::OwnedMat block, image;
-        ALLOYSPEC_CHECK(MatCreateDense(comm_, n_local_, PETSC_DECIDE, n_global_, PetscInt(b),
-                                       const_cast<PetscScalar *>(in), &block));
-        ALLOYSPEC_CHECK(MatMatMult(a_, block, MAT_INITIAL_MATRIX, PETSC_DEFAULT, &image));
-        const PetscScalar *data = nullptr;
-        ALLOYSPEC_CHECK(MatDenseGetArrayRead(image, &data));
-        std::memcpy(out, data, sizeof(double) * std::size_t(n_local_) * b);
-        ALLOYSPEC_CHECK(MatDenseRestoreArrayRead(image, &data));
-      }
-
-    private:
-      Mat      a_;
-      MPI_Comm comm_    = MPI_COMM_NULL;
-      PetscInt n_local_ = 0, n_global_ = 0;
-    };
 
     /**
      * Collective over @p comm: refuses, on every rank of it, a block iteration
@@ -216,7 +183,7 @@ namespace alloyspec
     const double sigma = problem.lower_bound - shift_margin(problem);
     ws->amg.setup(pencil.K, pencil.M, sigma);
 
-    ColumnProduct  stiffness(pencil.K), mass(pencil.M);
+    const internal::BlockProduct stiffness(pencil.K), mass(pencil.M);
     LobpcgOperator op;
     op.n_local      = static_cast<std::size_t>(last - first);
     op.row_offset   = static_cast<std::size_t>(first);
