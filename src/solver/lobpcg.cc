@@ -33,23 +33,15 @@ namespace alloyspec
       return out;
     }
 
-    /** Aᵀ B summed over the processes. */
-    Dense gram(const LobpcgOperator &op, const Dense &a, const Dense &b)
-    {
-      Dense g = a.transpose() * b;
-      if (g.size() > 0)
-        op.sum(g.data(), static_cast<std::size_t>(g.size()));
-      return g;
-    }
-
-    /** Global squared 2-norm of each column. */
-    Eigen::VectorXd column_squares(const LobpcgOperator &op, const Dense &a)
-    {
-      Eigen::VectorXd s = a.colwise().squaredNorm().transpose();
-      if (s.size() > 0)
-        op.sum(s.data(), static_cast<std::size_t>(s.size()));
-      return s;
-    }
+    /**
+     * Rows per pass of the blockwise products below. The tall blocks are far
+     * larger than the cache; taking every block's rows a slice at a time keeps
+     * the slices (a few blocks of this many rows and about 25 columns, under
+     * 1 MB) in cache while all the small products that need them are formed,
+     * so each tall block is read from memory once per product instead of once
+     * per pair of blocks. Common practice (cache blocking), no source.
+     */
+    constexpr Eigen::Index row_slice = 512;
 
     void zero_fixed(const LobpcgOperator &op, Dense &a)
     {
@@ -66,66 +58,113 @@ namespace alloyspec
       Dense v, kv, mv;
     };
 
+    /** (target − Σ_q q.*member C_q) T, a slice of rows at a time; C_q are consecutive row blocks of @p c. */
+    Dense project_and_transform(const Dense &target, const std::vector<const Imaged *> &against,
+                                Dense Imaged::*member, const Dense &c, const Dense &t)
+    {
+      const Eigen::Index rows = target.rows();
+      Dense              out(rows, t.cols()), slice;
+      for (Eigen::Index r0 = 0; r0 < rows; r0 += row_slice)
+        {
+          const Eigen::Index h = std::min(row_slice, rows - r0);
+          slice                = target.middleRows(r0, h);
+          Eigen::Index at      = 0;
+          for (const Imaged *q : against)
+            {
+              const Dense &block = q->*member;
+              slice.noalias() -= block.middleRows(r0, h) * c.middleRows(at, block.cols());
+              at += block.cols();
+            }
+          out.middleRows(r0, h).noalias() = slice * t;
+        }
+      return out;
+    }
+
     /**
-     * Makes @p in.v M-orthogonal to the M-orthonormal blocks of @p against and
-     * M-orthonormal itself (dropping dependent directions). With @p imaged,
-     * in.kv and in.mv are its images and follow every linear combination (no
-     * product with K or M); otherwise M is applied first and K last.
+     * Makes @p in.v M-orthogonal to the blocks of @p against (jointly
+     * M-orthonormal) and M-orthonormal itself, dropping dependent directions.
+     * With @p imaged, in.kv and in.mv are its images and follow every linear
+     * combination (no product with K or M); otherwise M is applied first and
+     * K last.
+     *
+     * Two passes of block classical Gram–Schmidt, each two sweeps over the
+     * rows: one forms C = Q_Mᵀ v (Q_M the M-images of the blocks against)
+     * and G = vᵀ M v together; the other forms (v − Q C) T and the same
+     * combination of the images. The Gram matrix of the projected block is
+     * G − CᵀC (as QᵀMQ = I), and T = U Λ^(−1/2) from its eigen-decomposition
+     * U Λ Uᵀ over the directions kept. On the first pass the columns are
+     * scaled to unit M-norm inside T, so that the drop threshold is relative;
+     * that pass's G − CᵀC carries a cancellation error of a few ε (relative to
+     * unit columns), far below the threshold, and only sets T's scale. The
+     * second pass starts from a nearly M-orthonormal block, where C is tiny
+     * and G − CᵀC is accurate, so the result is M-orthonormal to rounding.
      */
     Imaged orthonormalise(const LobpcgOperator &op, Imaged in, const std::vector<const Imaged *> &against,
                           const bool imaged = false)
     {
       Imaged out;
-      Dense &v = in.v;
+      Dense  v = std::move(in.v);
       if (v.cols() == 0)
         {
           out.v = out.kv = out.mv = Dense(static_cast<Eigen::Index>(op.n_local), 0);
           return out;
         }
-      Dense  mv = imaged ? std::move(in.mv) : image_of(op.mass, v);
-      Dense &kv = in.kv;
-      const auto follow = [&](const auto &transform) {
-        v  = transform(v);
-        mv = transform(mv);
-        if (imaged)
-          kv = transform(kv);
-      };
-      {
-        // Unit M-norm columns first, so that the threshold is relative.
-        const Eigen::VectorXd d = (gram(op, v, mv)).diagonal();
-        Eigen::VectorXd       scale(v.cols());
-        for (Eigen::Index j = 0; j < v.cols(); ++j)
-          scale[j] = d[j] > 0 ? 1.0 / std::sqrt(d[j]) : 0.0;
-        follow([&](const Dense &a) { return Dense(a * scale.asDiagonal()); });
-      }
+      Dense mv = imaged ? std::move(in.mv) : image_of(op.mass, v);
+      Dense kv = imaged ? std::move(in.kv) : Dense();
+      std::vector<const Imaged *> qs;
+      Eigen::Index                nq = 0;
+      for (const Imaged *q : against)
+        if (q->v.cols() > 0)
+          {
+            qs.push_back(q);
+            nq += q->v.cols();
+          }
+      const Eigen::Index rows = v.rows();
       for (int pass = 0; pass < 2; ++pass)
         {
-          for (const Imaged *q : against)
-            if (q->v.cols() > 0)
-              {
-                const Dense c = gram(op, q->mv, v);
-                v.noalias() -= q->v * c;
-                mv.noalias() -= q->mv * c;
-                if (imaged)
-                  kv.noalias() -= q->kv * c;
-              }
-          Dense g = gram(op, v, mv);
-          g       = 0.5 * (g + g.transpose()).eval();
+          const Eigen::Index b = v.cols();
+          // Rows 0..nq−1: C (block q against its rows); the last b rows: G.
+          Dense cg = Dense::Zero(nq + b, b);
+          for (Eigen::Index r0 = 0; r0 < rows; r0 += row_slice)
+            {
+              const Eigen::Index h  = std::min(row_slice, rows - r0);
+              const auto         vs = v.middleRows(r0, h);
+              Eigen::Index       at = 0;
+              for (const Imaged *q : qs)
+                {
+                  cg.middleRows(at, q->mv.cols()).noalias() += q->mv.middleRows(r0, h).transpose() * vs;
+                  at += q->mv.cols();
+                }
+              cg.bottomRows(b).noalias() += mv.middleRows(r0, h).transpose() * vs;
+            }
+          op.sum(cg.data(), static_cast<std::size_t>(cg.size()));
+          const Dense c = cg.topRows(nq);
+          Dense       g = cg.bottomRows(b);
+          if (nq > 0)
+            g.noalias() -= c.transpose() * c;
+          Eigen::VectorXd scale = Eigen::VectorXd::Ones(b);
+          if (pass == 0)
+            for (Eigen::Index j = 0; j < b; ++j)
+              scale[j] = cg(nq + j, j) > 0 ? 1.0 / std::sqrt(cg(nq + j, j)) : 0.0;
+          g = scale.asDiagonal() * (0.5 * (g + g.transpose())) * scale.asDiagonal();
           Eigen::SelfAdjointEigenSolver<Dense> eig(g);
           if (eig.info() != Eigen::Success)
             throw std::runtime_error("LOBPCG: eigen-decomposition of a Gram matrix failed");
-          const Eigen::VectorXd &d = eig.eigenvalues();
+          const Eigen::VectorXd    &d = eig.eigenvalues();
           std::vector<Eigen::Index> keep;
           const double              largest = d.size() > 0 ? d.maxCoeff() : 0.0;
           const double              floor   = pass == 0 ? drop_threshold : drop_threshold * largest;
           for (Eigen::Index j = 0; j < d.size(); ++j)
             if (d[j] > floor)
               keep.push_back(j);
-          Dense c(g.rows(), static_cast<Eigen::Index>(keep.size()));
+          Dense t(b, static_cast<Eigen::Index>(keep.size()));
           for (std::size_t j = 0; j < keep.size(); ++j)
-            c.col(static_cast<Eigen::Index>(j)) =
-              eig.eigenvectors().col(keep[j]) / std::sqrt(d[keep[j]]);
-          follow([&](const Dense &a) { return Dense(a * c); });
+            t.col(static_cast<Eigen::Index>(j)) =
+              scale.asDiagonal() * eig.eigenvectors().col(keep[j]) / std::sqrt(d[keep[j]]);
+          v  = project_and_transform(v, qs, &Imaged::v, c, t);
+          mv = project_and_transform(mv, qs, &Imaged::mv, c, t);
+          if (imaged)
+            kv = project_and_transform(kv, qs, &Imaged::kv, c, t);
           if (v.cols() == 0)
             break;
         }
@@ -136,57 +175,94 @@ namespace alloyspec
       return out;
     }
 
-    /** Σ_i parts[i] · Y[rows of part i, :]. */
-    Dense combine(const std::vector<const Dense *> &parts, const Dense &y)
+    /**
+     * The two combinations of the Rayleigh–Ritz step, with Y's rows split by
+     * the parts: p = Σ_{i≥1} parts[i] Y_i (the directions outside the first
+     * part) and x = parts[0] Y_0 + p. @p p is left empty when there is only
+     * the first part.
+     */
+    void combine(const std::vector<const Dense *> &parts, const Dense &y, Dense &x, Dense &p)
     {
-      Dense        out = Dense::Zero(parts.front()->rows(), y.cols());
-      Eigen::Index row = 0;
-      for (const Dense *p : parts)
+      const Eigen::Index rows = parts.front()->rows(), cols = y.cols();
+      x.resize(rows, cols);
+      const bool more = parts.size() > 1;
+      p.resize(rows, more ? cols : 0);
+      for (Eigen::Index r0 = 0; r0 < rows; r0 += row_slice)
         {
-          if (p->cols() > 0)
-            out.noalias() += *p * y.middleRows(row, p->cols());
-          row += p->cols();
+          const Eigen::Index c  = std::min(row_slice, rows - r0);
+          auto               xs = x.middleRows(r0, c);
+          if (more)
+            {
+              auto         ps = p.middleRows(r0, c);
+              Eigen::Index at = parts.front()->cols();
+              ps.setZero();
+              for (std::size_t i = 1; i < parts.size(); ++i)
+                {
+                  const Dense &part = *parts[i];
+                  if (part.cols() > 0)
+                    ps.noalias() += part.middleRows(r0, c) * y.middleRows(at, part.cols());
+                  at += part.cols();
+                }
+              xs = ps;
+            }
+          else
+            xs.setZero();
+          xs.noalias() += parts.front()->middleRows(r0, c) * y.topRows(parts.front()->cols());
         }
-      return out;
     }
 
-    /** [A_1 … A_p]ᵀ [B_1 … B_p], blockwise (no concatenated copies of the tall blocks). */
+    /** [A_1 … A_p]ᵀ [B_1 … B_p], blockwise (no concatenated copies of the tall blocks), a slice of rows at a time. */
     Dense gram_parts(const LobpcgOperator &op, const std::vector<const Dense *> &a,
                      const std::vector<const Dense *> &b)
     {
       Eigen::Index n = 0;
       for (const Dense *p : a)
         n += p->cols();
-      Dense        g(n, n);
-      Eigen::Index r = 0;
-      for (const Dense *pa : a)
+      Dense              g    = Dense::Zero(n, n);
+      const Eigen::Index rows = a.front()->rows();
+      for (Eigen::Index r0 = 0; r0 < rows; r0 += row_slice)
         {
-          Eigen::Index c = 0;
-          for (const Dense *pb : b)
+          const Eigen::Index h = std::min(row_slice, rows - r0);
+          Eigen::Index       r = 0;
+          for (const Dense *pa : a)
             {
-              if (pa->cols() > 0 && pb->cols() > 0)
-                g.block(r, c, pa->cols(), pb->cols()).noalias() = pa->transpose() * *pb;
-              c += pb->cols();
+              Eigen::Index c = 0;
+              for (const Dense *pb : b)
+                {
+                  if (pa->cols() > 0 && pb->cols() > 0)
+                    g.block(r, c, pa->cols(), pb->cols()).noalias() +=
+                      pa->middleRows(r0, h).transpose() * pb->middleRows(r0, h);
+                  c += pb->cols();
+                }
+              r += pa->cols();
             }
-          r += pa->cols();
         }
       if (g.size() > 0)
         op.sum(g.data(), static_cast<std::size_t>(g.size()));
       return 0.5 * (g + g.transpose());
     }
 
-    /** Relative residuals of the Ritz pairs (θ_j, x_j) from R = KX − MXΘ. */
+    /** Relative residuals of the Ritz pairs (θ_j, x_j) from R = KX − MXΘ, a slice of rows at a time (R is not stored). */
     std::vector<double> relative_residuals(const LobpcgOperator &op, const Imaged &x,
                                            const std::vector<double> &theta)
     {
-      Dense r = x.kv;
-      for (Eigen::Index j = 0; j < r.cols(); ++j)
-        r.col(j) -= theta[static_cast<std::size_t>(j)] * x.mv.col(j);
-      const Eigen::VectorXd rr = column_squares(op, r), mm = column_squares(op, x.mv);
+      const Eigen::Index m = x.kv.cols(), rows = x.kv.rows();
+      const Eigen::Map<const Eigen::VectorXd> t(theta.data(), m);
+      Eigen::VectorXd sums = Eigen::VectorXd::Zero(2 * m);
+      Dense           r;
+      for (Eigen::Index r0 = 0; r0 < rows; r0 += row_slice)
+        {
+          const Eigen::Index h = std::min(row_slice, rows - r0);
+          r = x.kv.middleRows(r0, h) - x.mv.middleRows(r0, h) * t.asDiagonal();
+          sums.head(m) += r.colwise().squaredNorm().transpose();
+          sums.tail(m) += x.mv.middleRows(r0, h).colwise().squaredNorm().transpose();
+        }
+      if (sums.size() > 0)
+        op.sum(sums.data(), static_cast<std::size_t>(sums.size()));
       std::vector<double> out(theta.size());
       for (std::size_t j = 0; j < out.size(); ++j)
-        out[j] = std::sqrt(rr[Eigen::Index(j)]) /
-                 (std::max(std::abs(theta[j]), 1.0) * std::sqrt(mm[Eigen::Index(j)]));
+        out[j] = std::sqrt(sums[Eigen::Index(j)]) /
+                 (std::max(std::abs(theta[j]), 1.0) * std::sqrt(sums[m + Eigen::Index(j)]));
       return out;
     }
   } // namespace
@@ -231,17 +307,9 @@ namespace alloyspec
       for (Eigen::Index j = 0; j < m; ++j)
         theta[static_cast<std::size_t>(j)] = eig.eigenvalues()[j];
       Imaged next;
-      next.v  = combine(s, y);
-      next.kv = combine(ks, y);
-      next.mv = combine(ms, y);
-      if (blocks.size() > 1)
-        {
-          // P: the part of the new X outside the old X.
-          const Dense bottom = y.bottomRows(y.rows() - m);
-          p.v  = combine(std::vector<const Dense *>(s.begin() + 1, s.end()), bottom);
-          p.kv = combine(std::vector<const Dense *>(ks.begin() + 1, ks.end()), bottom);
-          p.mv = combine(std::vector<const Dense *>(ms.begin() + 1, ms.end()), bottom);
-        }
+      combine(s, y, next.v, p.v);
+      combine(ks, y, next.kv, p.kv);
+      combine(ms, y, next.mv, p.mv);
       x = std::move(next);
     };
     rayleigh_ritz({&x});
