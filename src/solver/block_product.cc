@@ -7,6 +7,8 @@
 
 #include <mpi.h>
 
+#include <algorithm>
+#include <optional>
 #include <stdexcept>
 
 namespace alloyspec::internal
@@ -15,6 +17,9 @@ namespace alloyspec::internal
   {
     using RowBlock = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
     using CsrView  = Eigen::Map<const Eigen::SparseMatrix<double, Eigen::RowMajor, PetscInt>>;
+
+    /** Rows of the image formed, and turned back to column-major, at a time (a slice of b columns stays in cache). */
+    constexpr Eigen::Index row_slice = 512;
 
     /** The compressed rows of a SeqAIJ matrix, borrowed for the lifetime of one call. */
     class BorrowedRows
@@ -76,25 +81,22 @@ namespace alloyspec::internal
   void BlockProduct::operator()(const double *in, double *out, const unsigned int b) const
   {
     const auto n = static_cast<Eigen::Index>(n_local_);
-    x_.resize(std::size_t(n) * b);
-    y_.resize(std::size_t(n) * b);
-    Eigen::Map<RowBlock> x(x_.data(), n, b), y(y_.data(), n, b);
-    x = Eigen::Map<const Eigen::MatrixXd>(in, n, b);
-    {
-      const BorrowedRows rows(owned_);
-      y.noalias() = rows.view() * x;
-    }
+    // Allocated per call, not kept: between products the eigen-solver's own
+    // blocks need the memory (one block of n × b is what PETSc's product
+    // allocated for its result, too).
+    RowBlock x = Eigen::Map<const Eigen::MatrixXd>(in, n, b);
+    RowBlock g;
     if (team_)
       {
         // Every rank joins the scatter, with or without ghost rows of its own.
         MPI_Comm comm = MPI_COMM_NULL;
         ALLOYSPEC_CHECK(PetscObjectGetComm(reinterpret_cast<PetscObject>(a_), &comm));
-        g_.resize(std::size_t(n_ghost_) * b);
+        g.resize(n_ghost_, b);
         OwnedVec source, ghosts;
         ALLOYSPEC_CHECK(VecCreateMPIWithArray(comm, PetscInt(b), n_local_ * PetscInt(b), PETSC_DECIDE,
-                                              x_.data(), &source));
+                                              x.data(), &source));
         ALLOYSPEC_CHECK(VecCreateSeqWithArray(PETSC_COMM_SELF, PetscInt(b), n_ghost_ * PetscInt(b),
-                                              g_.data(), &ghosts));
+                                              g.data(), &ghosts));
         OwnedScatter &scatter = scatters_[b];
         if (!scatter)
           {
@@ -105,12 +107,24 @@ namespace alloyspec::internal
           }
         ALLOYSPEC_CHECK(VecScatterBegin(scatter, source, ghosts, INSERT_VALUES, SCATTER_FORWARD));
         ALLOYSPEC_CHECK(VecScatterEnd(scatter, source, ghosts, INSERT_VALUES, SCATTER_FORWARD));
-        if (n_ghost_ > 0)
-          {
-            const BorrowedRows rows(ghost_);
-            y.noalias() += rows.view() * Eigen::Map<const RowBlock>(g_.data(), n_ghost_, b);
-          }
       }
-    Eigen::Map<Eigen::MatrixXd>(out, n, b) = y;
+    const BorrowedRows owned(owned_);
+    const CsrView      a = owned.view();
+    std::optional<BorrowedRows> ghost_rows;
+    if (team_ && n_ghost_ > 0)
+      ghost_rows.emplace(ghost_);
+    // The image a slice of rows at a time, turned back to column-major while
+    // the slice is in cache (no second block of n × b).
+    Eigen::Map<Eigen::MatrixXd> y(out, n, b);
+    RowBlock                    slice(std::min(row_slice, n), b);
+    for (Eigen::Index r0 = 0; r0 < n; r0 += row_slice)
+      {
+        const Eigen::Index h    = std::min(row_slice, n - r0);
+        auto               part = slice.topRows(h);
+        part.noalias()          = a.middleRows(r0, h) * x;
+        if (ghost_rows)
+          part.noalias() += ghost_rows->view().middleRows(r0, h) * g;
+        y.middleRows(r0, h) = part;
+      }
   }
 } // namespace alloyspec::internal

@@ -7,7 +7,6 @@
 #include "petsc_handle.h"
 
 #include <map>
-#include <vector>
 
 namespace alloyspec::internal
 {
@@ -48,7 +47,6 @@ namespace alloyspec::internal
     const PetscInt             *ghost_columns_ = nullptr;
     PetscInt                    n_local_ = 0, n_ghost_ = 0;
     bool                        team_    = false;
-    mutable std::vector<double> x_, y_, g_;
     mutable std::map<unsigned int, OwnedScatter> scatters_;
   };
 } // namespace alloyspec::internal
