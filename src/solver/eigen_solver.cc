@@ -1,3 +1,4 @@
+#include "block_product.h"
 #include "iterative_workspace.h"
 #include "list_cut.h"
 #include "petsc_handle.h"
@@ -352,16 +353,6 @@ namespace alloyspec
     {
       return std::clamp(nev / 9, 8u, 24u);
     }
-
-    /** A dense PETSc matrix on the caller's column-major array (no copy). */
-    OwnedMat dense_view(MPI_Comm comm, Mat K, const double *data, unsigned int columns)
-    {
-      const auto [n_local, n_global] = local_and_global_rows(K);
-      OwnedMat view;
-      ALLOYSPEC_CHECK(MatCreateDense(comm, n_local, PETSC_DECIDE, n_global, columns,
-                                     const_cast<PetscScalar *>(data), &view));
-      return view;
-    }
   } // namespace
 
   namespace
@@ -422,28 +413,9 @@ namespace alloyspec
           for (std::size_t i = 0; i < op.n_local * b; ++i)
             out[i] = -out[i];
       };
-      // One column: M x through vectors placed on the arrays. A product
-      // with a one-column dense matrix builds a new product object every
-      // time (MatMatMult took as long as the solves at 1,331 unknowns, perf).
-      OwnedVec column_in, column_out;
-      ALLOYSPEC_CHECK(MatCreateVecs(M, &column_in, &column_out));
-      op.mass = [&](const double *in, double *out, unsigned int b) {
-        if (b == 1)
-          {
-            ALLOYSPEC_CHECK(VecPlaceArray(column_in, in));
-            ALLOYSPEC_CHECK(VecPlaceArray(column_out, out));
-            ALLOYSPEC_CHECK(MatMult(M, column_in, column_out));
-            ALLOYSPEC_CHECK(VecResetArray(column_out));
-            ALLOYSPEC_CHECK(VecResetArray(column_in));
-            return;
-          }
-        OwnedMat block = dense_view(comm, K, in, b), image;
-        ALLOYSPEC_CHECK(MatMatMult(M, block, MAT_INITIAL_MATRIX, PETSC_DEFAULT, &image));
-        const PetscScalar *data = nullptr;
-        ALLOYSPEC_CHECK(MatDenseGetArrayRead(image, &data));
-        std::memcpy(out, data, sizeof(double) * op.n_local * b);
-        ALLOYSPEC_CHECK(MatDenseRestoreArrayRead(image, &data));
-      };
+      // M times a block reads M once for the block (block_product.h).
+      const internal::BlockProduct mass(M);
+      op.mass = std::cref(mass);
       if (ranks > 1)
         op.sum = [comm](double *data, std::size_t count) {
           MPI_Allreduce(MPI_IN_PLACE, data, int(count), MPI_DOUBLE, MPI_SUM, comm);
