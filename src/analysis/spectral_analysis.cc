@@ -4,6 +4,7 @@
 #include <alloyspec/io/results_store.h>
 #include <alloyspec/analysis/spectral_analysis.h>
 #include <alloyspec/analysis/spectrum_statistics.h>
+#include <alloyspec/model/effective_sample_size.h>
 
 #include <deal.II/base/parameter_handler.h>
 #include <deal.II/base/utilities.h>
@@ -104,12 +105,6 @@ namespace alloyspec
       if (!std::isfinite(r.log_weight))
         throw std::invalid_argument("analysis: a record's log weight must be finite");
       return std::exp(r.log_weight);
-    }
-
-    /** (Σy)²/Σy² from the two sums; 0 when every summand is 0. */
-    double effective_size(const double sum, const double sum_sq)
-    {
-      return sum_sq > 0 ? sum * sum / sum_sq : 0.0;
     }
   } // namespace
 
@@ -331,7 +326,7 @@ namespace alloyspec
     if (s.counts.empty())
       s.complete.assign(energies.size(), false);
     for (std::size_t i = 0; i < energies.size(); ++i)
-      s.effective_sample_size.push_back(effective_size(sum[i], sum_sq[i]));
+      s.effective_sample_size.push_back(effective_sample_size(sum[i], sum_sq[i]));
     return s;
   }
 
@@ -445,7 +440,7 @@ namespace alloyspec
         double mean, error;
         mean_and_error(sum[i], sum_sq[i], n, mean, error);
         rows.push_back({energies[i], n > 0 ? mean : 0.0, error, nan, nan,
-                        n > 0 && energies[i] <= limit, effective_size(raw[i], raw_sq[i])});
+                        n > 0 && energies[i] <= limit, effective_sample_size(raw[i], raw_sq[i])});
       }
     return rows;
   }

@@ -1,5 +1,6 @@
 /** @file spectrum_statistics.cc  Counting functions and their averages. */
 #include <alloyspec/analysis/spectrum_statistics.h>
+#include <alloyspec/model/effective_sample_size.h>
 
 #include <algorithm>
 #include <limits>
@@ -60,7 +61,7 @@ namespace alloyspec
 
   double IdsAccumulator::weight_effective_sample_size() const
   {
-    return weight_sum_sq_ > 0 ? weight_sum_ * weight_sum_ / weight_sum_sq_ : 0.0;
+    return effective_sample_size(weight_sum_, weight_sum_sq_);
   }
 
   void IdsAccumulator::add_normalised(const std::vector<double> &unweighted,
@@ -105,8 +106,7 @@ namespace alloyspec
         Row row{energies_[i], 0.0, 0.0, n_, n_ > 0 && complete_[i]};
         if (n_ > 0)
           row.mean = shift_[i] + sum_[i] / n;
-        if (raw_sum_sq_[i] > 0)
-          row.effective_sample_size = raw_sum_[i] * raw_sum_[i] / raw_sum_sq_[i];
+        row.effective_sample_size = effective_sample_size(raw_sum_[i], raw_sum_sq_[i]);
         if (n_ > 1)
           {
             const double variance =

@@ -1,4 +1,5 @@
 #include <alloyspec/io/sampling_manifest.h>
+#include <alloyspec/model/effective_sample_size.h>
 
 #include <algorithm>
 #include <cmath>
@@ -27,12 +28,8 @@ namespace alloyspec
       {
         if (logs.empty())
           continue;
-        const double top = *std::max_element(logs.begin(), logs.end());
-        double       sum = 0, sum_sq = 0;
-        for (const double l : logs)
-          sum += std::exp(l - top), sum_sq += std::exp(2 * (l - top));
         ess[boundary] = {{"realisations", logs.size()},
-                         {"effective_sample_size", json_number(sum * sum / sum_sq)}};
+                         {"effective_sample_size", json_number(effective_sample_size_of_logs(logs))}};
       }
     block["weights"] = ess;
     return block;
