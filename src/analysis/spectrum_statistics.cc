@@ -67,8 +67,9 @@ namespace alloyspec
   void IdsAccumulator::add_normalised(const std::vector<double> &unweighted,
                                       const double complete_up_to, const double log_weight)
   {
-    if (!std::isfinite(log_weight))
-      throw std::invalid_argument("IdsAccumulator: log weight must be finite");
+    // −∞ is weight 0: a realisation that the roulette left unsolved (roulette.h).
+    if (std::isnan(log_weight) || log_weight == std::numeric_limits<double>::infinity())
+      throw std::invalid_argument("IdsAccumulator: log weight must be finite or -infinity");
     // Plain sampling keeps the counts bit for bit (w = e^0 = 1 exactly).
     const double        w = std::exp(log_weight);
     std::vector<double> counts(unweighted);

@@ -18,10 +18,14 @@
 #include <alloyspec/io/sampling_manifest.h>
 #include <alloyspec/analysis/tail_table.h>
 #include <alloyspec/solver/inertia_counter.h>
+#include <alloyspec/model/random_stream.h>
+#include <alloyspec/model/roulette.h>
 
 #include <deal.II/base/mpi.h>
 
 #include <algorithm>
+#include <array>
+#include <limits>
 #include <chrono>
 #include <cmath>
 #include <cstdio>
@@ -66,6 +70,32 @@ namespace alloyspec
     // Counts are taken in solver units; the tables show the user's unit.
     const std::vector<double> solver_energies = model.solver_energies("count");
 
+    // Roulette steers by the counts at one energy: the target, or the only one.
+    const bool  roulette = model.sampling().roulette;
+    std::size_t target   = 0;
+    if (roulette)
+      {
+        const auto &energies = study.energies;
+        if (model.sampling().target_energy)
+          {
+            const double e = *model.sampling().target_energy;
+            for (std::size_t i = 1; i < energies.size(); ++i)
+              if (std::abs(energies[i] - e) < std::abs(energies[target] - e))
+                target = i;
+          }
+        else if (energies.size() != 1)
+          throw InputError("sampling/target energy: must be set when sampling/roulette = auto "
+                           "and the count has several energies (the roulette is tuned for the "
+                           "grid energy nearest to it)");
+        if (model.sampling().roulette_pilot >= study.realisations)
+          throw InputError("sampling/roulette pilot: " +
+                           std::to_string(model.sampling().roulette_pilot) +
+                           " is not allowed for a count of " + std::to_string(study.realisations) +
+                           " realisations; allowed: 20 to " +
+                           std::to_string(std::max<std::uint64_t>(study.realisations, 21) - 1) +
+                           " (fewer than study/realisations)");
+      }
+
     ResultsStore store(options.output_directory, false);
     // Rank 0 holds the folder for the whole count, so that no run, count or
     // summarise writes there at the same time; every rank learns if it could not.
@@ -87,11 +117,54 @@ namespace alloyspec
     std::vector<std::size_t>      n_dofs;
     std::size_t                   n_factorisations = 0;
     std::pair<double, std::vector<double>> volumes;
+    std::vector<std::unique_ptr<Discretisation>>  discretisations;
+    std::vector<std::unique_ptr<SpectralProblem>> problems;
+    // One counter per boundary condition: each keeps its own symbolic analysis.
+    std::vector<InertiaCounter> counters(boundaries.size());
+    std::vector<std::uint64_t>  pilot_part, main_part;
+    for (std::uint64_t i = rank; i < study.realisations; i += ranks)
+      (roulette && i < model.sampling().roulette_pilot ? pilot_part : main_part)
+        .push_back(study.first_realisation + i);
+    std::vector<double> pilot_records; // (realisation, ln w, y) per pilot realisation of this rank
+    Roulette            table;
+    std::size_t         not_solved = 0;
+
+    // One realisation: its counts.csv lines; ln w = 0 exactly when plain.
+    auto count_one = [&](const std::uint64_t r) {
+      const std::vector<double> q_user = model.potential().cell_values(study.seed, r);
+      const double log_w    = model.tilted() ? model.potential().log_weight(q_user) : 0.0;
+      const double survival = table.survival(log_w);
+      const bool   solved   = !table.active() ||
+                            table.solved(uniform_open01(study.seed, r, 0, roulette_draw), log_w);
+      const std::vector<double> q = model.units().to_solver_energies(q_user);
+      double                    y = 0;
+      for (std::size_t b = 0; b < boundaries.size(); ++b)
+        {
+          if (solved)
+            discretisations[b]->assemble_potential(q, *problems[b]);
+          for (std::size_t i = 0; i < study.energies.size(); ++i)
+            {
+              lines << r << ',' << to_string(boundaries[b]) << ',' << csv_number(study.energies[i])
+                    << ',';
+              if (solved)
+                {
+                  const std::size_t c = counters[b].count_below(*problems[b], solver_energies[i]);
+                  lines << c;
+                  if (i == target)
+                    y += double(c);
+                }
+              lines << ',' << csv_number(log_w) << ',' << csv_number(survival) << '\n';
+            }
+        }
+      if (!solved)
+        ++not_solved;
+      if (roulette && !table.active())
+        pilot_records.insert(pilot_records.end(), {double(r), log_w, std::exp(log_w) * y});
+    };
+
     try
       {
         auto phase = std::chrono::steady_clock::now();
-        std::vector<std::unique_ptr<Discretisation>>  discretisations;
-        std::vector<std::unique_ptr<SpectralProblem>> problems;
         for (const Boundary bc : boundaries)
           {
             discretisations.push_back(model.assembled_discretisation(bc));
@@ -101,35 +174,17 @@ namespace alloyspec
         volumes = model.domain_volumes(discretisations.front().get());
         timings["set-up"] = seconds_since(phase);
         phase             = std::chrono::steady_clock::now();
-
-        // One counter per boundary condition: each keeps its own symbolic analysis.
-        std::vector<InertiaCounter> counters(boundaries.size());
-        std::vector<std::uint64_t>  mine;
-        for (std::uint64_t i = rank; i < study.realisations; i += ranks)
-          mine.push_back(study.first_realisation + i);
-        Progress progress("realisations", mine.size(), options.progress && rank == 0);
-        for (std::size_t k = 0; k < mine.size(); ++k)
+        Progress progress("pilot realisations", pilot_part.size(),
+                          options.progress && rank == 0 && !pilot_part.empty());
+        for (std::size_t k = 0; k < pilot_part.size(); ++k)
           {
-            // Drawn from the tilted law when tilted; ln w = 0 exactly when plain.
-            const std::vector<double> q_user = model.potential().cell_values(study.seed, mine[k]);
-            const std::string log_weight =
-              csv_number(model.tilted() ? model.potential().log_weight(q_user) : 0.0);
-            const std::vector<double> q = model.units().to_solver_energies(q_user);
-            for (std::size_t b = 0; b < boundaries.size(); ++b)
-              {
-                discretisations[b]->assemble_potential(q, *problems[b]);
-                for (std::size_t i = 0; i < study.energies.size(); ++i)
-                  lines << mine[k] << ',' << to_string(boundaries[b]) << ','
-                        << csv_number(study.energies[i]) << ','
-                        << counters[b].count_below(*problems[b], solver_energies[i]) << ','
-                        << log_weight << '\n';
-              }
+            count_one(pilot_part[k]);
             progress.update(k + 1);
           }
         progress.finish();
-        for (const auto &c : counters)
-          n_factorisations += c.n_factorisations();
         timings["counts"] = seconds_since(phase);
+        if (roulette)
+          timings["roulette_pilot"] = timings["counts"];
       }
     catch (const InputError &e)
       {
@@ -141,6 +196,65 @@ namespace alloyspec
         error = e.what();
       }
     throw_if_any_failed(comm, error, input_error);
+
+    if (roulette)
+      {
+        // Every rank builds the same table from the same pilot, in realisation order.
+        std::vector<std::array<double, 3>> pilot;
+        for (const auto &part : dealii::Utilities::MPI::all_gather(comm, pilot_records))
+          for (std::size_t j = 0; j + 2 < part.size(); j += 3)
+            pilot.push_back({{part[j], part[j + 1], part[j + 2]}});
+        std::sort(pilot.begin(), pilot.end());
+        std::vector<double> log_weights, summands;
+        for (const auto &p : pilot)
+          {
+            log_weights.push_back(p[1]);
+            summands.push_back(p[2]);
+          }
+        const SamplingSettings &s = model.sampling();
+        if (std::none_of(summands.begin(), summands.end(), [](double y) { return y > 0; }))
+          throw InputError("sampling/roulette pilot: none of the " + std::to_string(pilot.size()) +
+                           " pilot realisations has an eigenvalue below " +
+                           csv_number(study.energies[target]) +
+                           ", so the roulette has nothing to steer by; allowed: a larger pilot "
+                           "(up to 1000000), a stronger sampling/tilt, or roulette = off");
+        table = Roulette::from_pilot(log_weights, summands, s.roulette_bins, s.roulette_floor);
+        if (rank == 0 && options.progress)
+          {
+            std::cout << "Roulette from " << pilot.size() << " pilot realisations at E = "
+                      << csv_number(study.energies[target]) << ": solved with probability";
+            for (const double r : table.survivals())
+              std::cout << ' ' << short_number(r, 2);
+            std::cout << " across " << table.survivals().size() << " bins of log w\n";
+          }
+      }
+
+    try
+      {
+        const auto phase = std::chrono::steady_clock::now();
+        Progress   progress("realisations", main_part.size(), options.progress && rank == 0);
+        for (std::size_t k = 0; k < main_part.size(); ++k)
+          {
+            count_one(main_part[k]);
+            progress.update(k + 1);
+          }
+        progress.finish();
+        for (const auto &c : counters)
+          n_factorisations += c.n_factorisations();
+        // The pilot's solves and the roulette's together: the cost of the sample.
+        timings["counts"] += seconds_since(phase);
+      }
+    catch (const InputError &e)
+      {
+        error       = e.what();
+        input_error = true;
+      }
+    catch (const std::exception &e)
+      {
+        error = e.what();
+      }
+    throw_if_any_failed(comm, error, input_error);
+    const auto skipped = dealii::Utilities::MPI::sum(not_solved, comm);
 
     const auto all_lines = dealii::Utilities::MPI::gather(comm, lines.str(), 0);
     rusage     usage{};
@@ -157,11 +271,15 @@ namespace alloyspec
     {
       std::vector<std::size_t> counts; ///< at the grid energies, in order
       double                   log_weight = 0;
+      double                   survival   = 1; ///< r: the chance it had of being solved
+      bool                     solved     = true;
     };
     std::map<std::pair<std::uint64_t, std::string>, Counted> counted;
     const AnalysisInput labels = model.analysis_input(volumes.first);
     // Energies in the user's unit, named as in the other tables (energy_eV, ...).
-    std::string csv = "realisation,boundary," + labels.energy_column + ",count,log_weight\n";
+    // A realisation that the roulette left unsolved has no count (an empty field).
+    std::string csv =
+      "realisation,boundary," + labels.energy_column + ",count,log_weight,survival\n";
     for (const auto &text : all_lines)
       {
         csv += text;
@@ -169,20 +287,24 @@ namespace alloyspec
         for (std::string line; std::getline(in, line);)
           {
             std::istringstream fields(line);
-            std::string        r, b, e, c, w;
+            std::string        r, b, e, c, w, survival;
             std::getline(fields, r, ',');
             std::getline(fields, b, ',');
             std::getline(fields, e, ',');
             std::getline(fields, c, ',');
             std::getline(fields, w, ',');
+            std::getline(fields, survival, ',');
             Counted &entry = counted[{std::stoull(r), b}];
-            entry.counts.push_back(std::stoull(c));
+            entry.solved   = !c.empty();
+            entry.counts.push_back(entry.solved ? std::stoull(c) : 0);
             entry.log_weight = std::stod(w);
+            entry.survival   = std::stod(survival);
           }
       }
     store.write_file("counts.csv", csv);
 
-    // Each realisation weighted by its likelihood ratio (1 when plain), as in `run`.
+    // Each realisation weighted by its likelihood ratio (1 when plain), as in
+    // `run`; under the roulette a solved one by w / r and an unsolved one by 0.
     std::vector<std::vector<IdsAccumulator::Row>>            rows;
     std::vector<std::pair<std::string, std::vector<double>>> log_weights;
     std::vector<std::string>                                 warnings;
@@ -193,8 +315,14 @@ namespace alloyspec
         for (const auto &[key, entry] : counted)
           if (key.second == name)
             {
-              ids.add_counts(entry.counts, entry.log_weight);
-              logs.push_back(entry.log_weight);
+              if (!entry.solved)
+                {
+                  ids.add_counts(entry.counts, -std::numeric_limits<double>::infinity());
+                  continue;
+                }
+              const double log_w = entry.log_weight - std::log(entry.survival);
+              ids.add_counts(entry.counts, log_w);
+              logs.push_back(log_w);
             }
         rows.push_back(ids.rows());
         if (model.tilted())
@@ -205,7 +333,8 @@ namespace alloyspec
          r < study.first_realisation + study.realisations; ++r)
       {
         // The realisation's weight as counted above (every boundary stores the same one;
-        // %.17g reads back exactly), not drawn a second time.
+        // %.17g reads back exactly), not drawn a second time. Every realisation's
+        // semiclassical count is cheap, so the roulette does not thin this average.
         const auto   found = counted.find({r, labels.boundaries.front()});
         const double w     = found == counted.end() ? 1.0 : std::exp(found->second.log_weight);
         const std::vector<double> n_sc = model.semiclassical_count(r, volumes);
@@ -235,6 +364,25 @@ namespace alloyspec
     manifest["sampling"]               = sampling_manifest(model.sampling(), "", log_weights);
     manifest["energies"]               = study.energies.size();
     manifest["numeric_factorisations"] = factorisations;
+    if (roulette)
+      {
+        Json edges = Json::array(), survival = Json::array();
+        for (const double e : table.inner_edges())
+          edges.push_back(json_number(e));
+        for (const double r : table.survivals())
+          survival.push_back(json_number(r));
+        manifest["sampling"]["roulette"] = {
+          {"pilot_realisations", model.sampling().roulette_pilot},
+          {"bins", model.sampling().roulette_bins},
+          {"floor", json_number(model.sampling().roulette_floor)},
+          {"tuned_at_energy", json_number(study.energies[target])},
+          {"log_weight_bin_edges", edges},
+          {"survival", survival},
+          {"solved", study.realisations - skipped},
+          {"not_solved", skipped}};
+      }
+    else
+      manifest["sampling"]["roulette"] = "off";
     Json dofs                          = Json::object();
     for (std::size_t b = 0; b < boundaries.size(); ++b)
       dofs[to_string(boundaries[b])] = n_dofs[b];

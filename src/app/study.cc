@@ -186,6 +186,12 @@ namespace alloyspec
   void Study::run(const RunOptions &options)
   {
     const bool root = dealii::Utilities::MPI::this_mpi_process(MPI_COMM_WORLD) == 0;
+    // Every rank parsed the same file, so every rank refuses alike, before any work.
+    if (model_.sampling().roulette)
+      throw InputError("parameter 'sampling/roulette' = auto is not supported by the run command "
+                       "(a skipped realisation would leave no spectrum for the eigenvalue "
+                       "tables); allowed: off, or use the count command for counts at fixed "
+                       "energies");
     // Checked before anything is written (the same verdict on every rank).
     teams_ = std::make_unique<RealisationTeams>(options.ranks_per_realisation);
     check_memory();

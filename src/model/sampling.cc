@@ -73,6 +73,23 @@ namespace alloyspec
     prm.declare_entry("pilot realisations", "40", dealii::Patterns::Integer(8, 10000),
                       "Realisations of the pilot that chooses tilt = auto (8 to 10000). "
                       "They are solved at trial tilts and not kept in the sample.");
+    prm.declare_entry("roulette", "off", dealii::Patterns::Selection("off|auto"),
+                      "off: every realisation is solved. auto (method = tilted, count command "
+                      "only): Russian roulette by the log-likelihood ratio. The first 'roulette "
+                      "pilot' realisations are all solved; from their counts at the target energy "
+                      "each bin of log w gets a probability r of being solved, proportional to the "
+                      "root mean square of w N there and at least 'roulette floor'. A later "
+                      "realisation is solved with probability r and then weighted by w / r, or "
+                      "not solved and weighted 0: the estimates stay unbiased, and solves are "
+                      "spent where the tail's events are. Column survival of counts.csv holds r.");
+    prm.declare_entry("roulette pilot", "400", dealii::Patterns::Integer(20, 1000000),
+                      "Realisations solved before the roulette is set (20 to 1000000); they are "
+                      "part of the sample.");
+    prm.declare_entry("roulette bins", "5", dealii::Patterns::Integer(1, 100),
+                      "Bins of log w, with equal numbers of pilot realisations (1 to 100).");
+    prm.declare_entry("roulette floor", "0.2", dealii::Patterns::Double(0.01, 1.0),
+                      "The least probability of being solved (0.01 to 1); a realisation's "
+                      "variance can grow by at most 1 / floor where the pilot saw no event.");
     prm.leave_subsection();
   }
 
@@ -87,7 +104,15 @@ namespace alloyspec
     const std::string window_text = trimmed(prm.get("tilt window"));
     untilted_share            = prm.get_double("untilted share");
     tilt_shape = prm.get("tilt shape") == "lowest mode" ? TiltShape::lowest_mode : TiltShape::flat;
+    roulette       = prm.get("roulette") == "auto";
+    roulette_pilot = static_cast<unsigned int>(prm.get_integer("roulette pilot"));
+    roulette_bins  = static_cast<unsigned int>(prm.get_integer("roulette bins"));
+    roulette_floor = prm.get_double("roulette floor");
     prm.leave_subsection();
+    if (roulette && method != SamplingMethod::tilted)
+      throw InputError("sampling/roulette: auto needs sampling/method = tilted (plain "
+                       "realisations all weigh 1, so there is nothing to steer by); allowed "
+                       "with method = plain: off");
 
     tilt_window           = 0;
     tilt_window_automatic = window_text == "auto";

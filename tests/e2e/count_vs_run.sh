@@ -54,3 +54,52 @@ status=$?
 set -e
 [ "$status" -eq 2 ] || { echo "count with sampling/tilt = auto exited $status, expected 2"; exit 1; }
 grep -q "sampling/tilt" "$work/count_auto.log"
+
+# Russian roulette (sampling/roulette = auto): the same estimate as solving every
+# realisation, within the standard errors; unsolved realisations really occur; and
+# with 2 ranks the same table and the same decisions, realisation by realisation.
+roulette=("$configs/deep_tail_box.prm" "${small[@]}" --set "lattice/cells=4,4,4" --set sampling/tilt=1.2
+          --set study/realisations=600 --set study/energies=2.3 --set "sampling/roulette pilot=150")
+"$exe" count "${roulette[@]}" --output "$work/count_all" > "$work/count_all.log" 2>&1
+"$exe" count "${roulette[@]}" --set sampling/roulette=auto --output "$work/count_roulette" > "$work/count_roulette.log" 2>&1
+folders=("$work/count_all" "$work/count_roulette")
+if [ -n "$mpirun" ]; then
+  timeout 300 "$mpirun" --allow-run-as-root --oversubscribe -np 2 \
+    "$exe" count "${roulette[@]}" --set sampling/roulette=auto --output "$work/count2_roulette" \
+    > "$work/count2_roulette.log" 2>&1
+  folders+=("$work/count2_roulette")
+fi
+python3 - "${folders[@]}" <<'PY'
+import csv, json, math, sys
+def read(folder):
+    with open(f"{folder}/tail.csv") as f:
+        row = next(csv.DictReader(f))
+    with open(f"{folder}/ids.csv") as f:
+        ids = next(csv.DictReader(f))
+    with open(f"{folder}/counts.csv") as f:
+        rows = sorted((r["realisation"], r["count"], r["log_weight"], r["survival"]) for r in csv.DictReader(f))
+    with open(f"{folder}/run.json") as f:
+        table = json.load(f)["sampling"]["roulette"]
+    return float(ids["ids_dirichlet"]), float(ids["stderr_dirichlet"]), rows, table
+all_mean, all_se, all_rows, _ = read(sys.argv[1])
+mean, se, rows, table = read(sys.argv[2])
+failures = []
+if not table["not_solved"] > 0:
+    failures.append(f"the roulette solved every realisation: {table}")
+if abs(mean - all_mean) > 3 * math.hypot(se, all_se):
+    failures.append(f"roulette N = {mean} +- {se}, every realisation solved N = {all_mean} +- {all_se}")
+# The pilot is solved in full, so its rows are those of the count without roulette.
+pilot = table["pilot_realisations"]
+for a, b in zip(all_rows, rows):
+    if int(a[0]) < pilot and a[:3] != b[:3]:
+        failures.append(f"pilot realisation {a[0]}: {b} with roulette, {a} without")
+        break
+for other in sys.argv[3:]:
+    _, _, rows2, table2 = read(other)
+    if rows2 != rows or table2 != table:
+        failures.append(f"{other}: 2 ranks gave other decisions or another table than 1 rank")
+print(f"roulette: N = {mean:.4e} +- {se:.1e} ({table['not_solved']} of 600 not solved), "
+      f"every realisation solved N = {all_mean:.4e} +- {all_se:.1e}")
+if failures:
+    print("\n".join(failures)); sys.exit(1)
+PY

@@ -53,6 +53,8 @@ namespace alloyspec
      * (0 for plain sampling). The mean is the unbiased importance-sampling
      * estimator @f$\hat N = \frac1R\sum_r w_r N_r@f$ (@f$E_\theta[w N] = E_p[N]@f$),
      * its standard error the sample standard deviation of @f$w_r N_r@f$ over √R.
+     * log_weight = −∞ is w = 0: a realisation that the roulette left unsolved
+     * (roulette.h), which still counts in R.
      */
     void add(const std::vector<double> &eigenvalues, double complete_up_to,
              double log_weight = 0.0);

@@ -41,7 +41,10 @@ namespace alloyspec
    *   untilted law, tilt_window.h); a window needs a given θ;
    * - `untilted share` = α in [0.01, 0.99]: the mixture's untilted share;
    * - `tilt shape` = flat | lowest mode: every tilted cell by θ, or cell j of
-   *   the tilted region (box or window) by θ φ_j (tilt_profile.h).
+   *   the tilted region (box or window) by θ φ_j (tilt_profile.h);
+   * - `roulette` = off | auto: Russian roulette of tilted realisations by
+   *   their log-likelihood ratio (roulette.h), with `roulette pilot`,
+   *   `roulette bins` and `roulette floor`; `count` only.
    */
   struct SamplingSettings
   {
@@ -67,6 +70,18 @@ namespace alloyspec
     double                untilted_share = 0.2;
     /** `tilt shape`. */
     TiltShape             tilt_shape = TiltShape::flat;
+    /**
+     * `roulette = auto`: the first `roulette pilot` realisations of a count
+     * are all solved and set the survival table (Roulette::from_pilot) for
+     * the rest, at the target energy.
+     */
+    bool                  roulette = false;
+    /** `roulette pilot`: realisations solved before the table is set (they stay in the sample). */
+    unsigned int          roulette_pilot = 400;
+    /** `roulette bins`: bins of the log-likelihood ratio. */
+    unsigned int          roulette_bins = 5;
+    /** `roulette floor`: the least survival probability r_min. */
+    double                roulette_floor = 0.2;
 
     static void declare_parameters(dealii::ParameterHandler &prm);
     /** Reads subsection `sampling`; InputError naming the entry on bad input. */
