@@ -74,6 +74,9 @@ namespace alloyspec
     const double largest = *std::max_element(survival.begin(), survival.end());
     for (double &r : survival)
       r = std::clamp(r / largest, minimum_survival, 1.0);
+    // Above the peak every realisation is solved: see the class comment.
+    const auto peak = std::max_element(survival.begin(), survival.end());
+    std::fill(peak, survival.end(), 1.0);
     return Roulette(std::move(edges), std::move(survival));
   }
 

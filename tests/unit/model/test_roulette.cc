@@ -57,6 +57,19 @@ namespace
     EXPECT_NEAR(r.inner_edges()[1], 3.5, kRounding);
   }
 
+  TEST(Roulette, EveryBinAboveThePeakIsSolved)
+  {
+    // Bins {0, 1}, {2, 3}, {4, 5} with y² means 0, 49, 0: r = 0.3, 1, 0.3 before the cap,
+    // and the last bin, above the peak, is solved always: 0.3, 1, 1.
+    const Roulette r =
+      Roulette::from_pilot({0.0, 1.0, 2.0, 3.0, 4.0, 5.0}, {0.0, 0.0, 7.0, 7.0, 0.0, 0.0}, 3, 0.3);
+    ASSERT_EQ(r.survivals().size(), 3u);
+    EXPECT_EQ(r.survivals()[0], 0.3);
+    EXPECT_EQ(r.survivals()[1], 1.0);
+    EXPECT_EQ(r.survivals()[2], 1.0);
+    EXPECT_EQ(r.survival(1e9), 1.0);
+  }
+
   TEST(Roulette, TiesAtAQuantileMergeBins)
   {
     // Every ln w equal: no edge can separate them, one bin, solved always.
