@@ -604,7 +604,7 @@ def counted_summands(folder, boundary, volume):
     return sample, seconds / len(rows)
 
 
-def count_variance_ratio(exe, work, cli, common, theta, energy, volume, tilted_r, plain_r):
+def count_variance_ratio(exe, work, cli, common, theta, energy, volume, tilted_r, plain_r, seed=35):
     """N(E) at one energy from inertia counts alone (`count`): a realisation costs one
     factorisation whether or not it has a state below E, so the time per realisation is the same
     for both laws and the variance ratio is the per-realisation one. Tilted: the shaped tilt at
@@ -620,12 +620,12 @@ def count_variance_ratio(exe, work, cli, common, theta, energy, volume, tilted_r
         shutil.rmtree(os.path.join(work, name), ignore_errors=True)
     shaped = ["sampling/method=tilted", f"sampling/tilt={theta}", "sampling/tilt shape=lowest mode",
               f"study/realisations={tilted_r}"]
-    run_count("count3d_shaped", shaped + ["study/seed=35"])
+    run_count("count3d_shaped", shaped + [f"study/seed={seed}"])
     # The same tilt with the roulette at its defaults (a pilot of a tenth, 400 of 4000, inside the sample, 5 bins of
     # log w, floor 0.2); its time per realisation includes the pilot's solves.
     run_count("count3d_roulette", shaped + ["sampling/roulette=auto", f"sampling/roulette pilot={max(20, tilted_r // 10)}",
-                                            "study/seed=37"])
-    run_count("count3d_plain", ["sampling/method=plain", f"study/realisations={plain_r}", "study/seed=36"])
+                                            f"study/seed={seed + 2}"])
+    run_count("count3d_plain", ["sampling/method=plain", f"study/realisations={plain_r}", f"study/seed={seed + 1}"])
     ps, t_p = counted_summands(os.path.join(work, "count3d_plain"), "dirichlet", volume)
     pm, pv, _ = weighted_moments(ps, 0)
     hits = sum(1 for _, n in ps if n[0] > 0)
