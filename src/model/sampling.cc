@@ -78,7 +78,8 @@ namespace alloyspec
                       "only): Russian roulette by the log-likelihood ratio. The first 'roulette "
                       "pilot' realisations are all solved; from their counts at the target energy "
                       "each bin of log w gets a probability r of being solved, proportional to the "
-                      "root mean square of w N there and at least 'roulette floor'. A later "
+                      "root mean square of w N there and at least 'roulette floor'; bins of "
+                      "larger log w than the one with the largest r are always solved. A later "
                       "realisation is solved with probability r and then weighted by w / r, or "
                       "not solved and weighted 0: the estimates stay unbiased, and solves are "
                       "spent where the tail's events are. Column survival of counts.csv holds r.");

@@ -74,9 +74,9 @@ namespace
       const double k = std::sqrt(energy), kappa = std::sqrt(barrier - energy);
       if (!(k < 3.14159))
         throw std::invalid_argument("ChainCounter: needs √E < π");
-      well_    = {std::cos(k), std::sin(k) / k, -k * std::sin(k), std::cos(k)};
-      barrier_ = {std::cosh(kappa), std::sinh(kappa) / kappa, kappa * std::sinh(kappa),
-                  std::cosh(kappa)};
+      well_    = {{std::cos(k), std::sin(k) / k, -k * std::sin(k), std::cos(k)}};
+      barrier_ = {{std::cosh(kappa), std::sinh(kappa) / kappa, kappa * std::sinh(kappa),
+                   std::cosh(kappa)}};
       neumann_ = bc == Boundary::neumann;
       u_ = neumann_ ? 1.0 : 0.0, du_ = neumann_ ? 0.0 : 1.0;
     }

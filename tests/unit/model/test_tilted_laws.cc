@@ -85,8 +85,10 @@ namespace
     EXPECT_NEAR(s.mean, exact_mean, allowed_standard_errors * s.standard_error)
       << what << ", θ = " << theta;
     if (std::abs(theta) * spread <= max_checked_tilt_spread)
-      EXPECT_NEAR(s.mean_weight, 1.0, allowed_standard_errors * s.weight_standard_error)
-      << what << " E_θ[w] = 1, θ = " << theta;
+      {
+        EXPECT_NEAR(s.mean_weight, 1.0, allowed_standard_errors * s.weight_standard_error)
+          << what << " E_θ[w] = 1, θ = " << theta;
+      }
   }
 
   /** Two-valued law: c_θ = c e^{−θA}/(c e^{−θA} + (1−c) e^{−θB}) (PHYSICS.md, rare-event sampling). */
