@@ -111,8 +111,6 @@ namespace alloyspec
     }
 
     std::map<std::string, double> timings;
-    std::string                   error;
-    bool                          input_error = false;
     std::ostringstream            lines; // this rank's counts.csv lines
     std::vector<std::size_t>      n_dofs;
     std::size_t                   n_factorisations = 0;
@@ -162,8 +160,19 @@ namespace alloyspec
         pilot_records.insert(pilot_records.end(), {double(r), log_w, std::exp(log_w) * y});
     };
 
-    try
-      {
+    // One pass over some of this rank's realisations, with its own progress line.
+    auto count_all = [&](const std::vector<std::uint64_t> &part, const char *label) {
+      Progress progress(label, part.size(), options.progress && rank == 0 && !part.empty());
+      for (std::size_t k = 0; k < part.size(); ++k)
+        {
+          count_one(part[k]);
+          progress.update(k + 1);
+        }
+      progress.finish();
+    };
+
+    {
+      const auto [error, input_error] = capture_error([&] {
         auto phase = std::chrono::steady_clock::now();
         for (const Boundary bc : boundaries)
           {
@@ -174,28 +183,13 @@ namespace alloyspec
         volumes = model.domain_volumes(discretisations.front().get());
         timings["set-up"] = seconds_since(phase);
         phase             = std::chrono::steady_clock::now();
-        Progress progress("pilot realisations", pilot_part.size(),
-                          options.progress && rank == 0 && !pilot_part.empty());
-        for (std::size_t k = 0; k < pilot_part.size(); ++k)
-          {
-            count_one(pilot_part[k]);
-            progress.update(k + 1);
-          }
-        progress.finish();
+        count_all(pilot_part, "pilot realisations");
         timings["counts"] = seconds_since(phase);
         if (roulette)
           timings["roulette_pilot"] = timings["counts"];
-      }
-    catch (const InputError &e)
-      {
-        error       = e.what();
-        input_error = true;
-      }
-    catch (const std::exception &e)
-      {
-        error = e.what();
-      }
-    throw_if_any_failed(comm, error, input_error);
+      });
+      throw_if_any_failed(comm, error, input_error);
+    }
 
     if (roulette)
       {
@@ -229,31 +223,17 @@ namespace alloyspec
           }
       }
 
-    try
-      {
+    {
+      const auto [error, input_error] = capture_error([&] {
         const auto phase = std::chrono::steady_clock::now();
-        Progress   progress("realisations", main_part.size(), options.progress && rank == 0);
-        for (std::size_t k = 0; k < main_part.size(); ++k)
-          {
-            count_one(main_part[k]);
-            progress.update(k + 1);
-          }
-        progress.finish();
+        count_all(main_part, "realisations");
         for (const auto &c : counters)
           n_factorisations += c.n_factorisations();
         // The pilot's solves and the roulette's together: the cost of the sample.
         timings["counts"] += seconds_since(phase);
-      }
-    catch (const InputError &e)
-      {
-        error       = e.what();
-        input_error = true;
-      }
-    catch (const std::exception &e)
-      {
-        error = e.what();
-      }
-    throw_if_any_failed(comm, error, input_error);
+      });
+      throw_if_any_failed(comm, error, input_error);
+    }
     const auto skipped = dealii::Utilities::MPI::sum(not_solved, comm);
 
     const auto all_lines = dealii::Utilities::MPI::gather(comm, lines.str(), 0);
