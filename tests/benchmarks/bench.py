@@ -621,8 +621,9 @@ def count_variance_ratio(exe, work, cli, common, theta, energy, volume, tilted_r
     shaped = ["sampling/method=tilted", f"sampling/tilt={theta}", "sampling/tilt shape=lowest mode",
               f"study/realisations={tilted_r}"]
     run_count("count3d_shaped", shaped + [f"study/seed={seed}"])
-    # The same tilt with the roulette at its defaults (a pilot of a tenth, 400 of 4000, inside the sample, 5 bins of
-    # log w, floor 0.2); its time per realisation includes the pilot's solves.
+    # The same tilt with the roulette's default bins and floor (5 bins of log w, floor 0.2) and a pilot
+    # of a tenth of the realisations (800 of 8000), inside the sample; its time per realisation
+    # includes the pilot's solves.
     run_count("count3d_roulette", shaped + ["sampling/roulette=auto", f"sampling/roulette pilot={max(20, tilted_r // 10)}",
                                             f"study/seed={seed + 2}"])
     run_count("count3d_plain", ["sampling/method=plain", f"study/realisations={plain_r}", f"study/seed={seed + 1}"])
