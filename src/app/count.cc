@@ -134,8 +134,10 @@ namespace alloyspec
       const double survival = table.survival(log_w);
       const bool   solved   = !table.active() ||
                             table.solved(uniform_open01(study.seed, r, 0, roulette_draw), log_w);
-      const std::vector<double> q = model.units().to_solver_energies(q_user);
-      double                    y = 0;
+      // An unsolved realisation needs neither solver units nor a matrix.
+      const std::vector<double> q =
+        solved ? model.units().to_solver_energies(q_user) : std::vector<double>();
+      double y = 0;
       for (std::size_t b = 0; b < boundaries.size(); ++b)
         {
           if (solved)

@@ -19,6 +19,19 @@ namespace
   // A square root and one division: a few units of rounding.
   constexpr double kRounding = 1e-15;
 
+  /** The table from six pilot realisations with ln w = 0, …, 5 in three bins of two, floor 0.3. */
+  Roulette six_in_three_bins(const std::vector<double> &summands)
+  {
+    return Roulette::from_pilot({0.0, 1.0, 2.0, 3.0, 4.0, 5.0}, summands, 3, 0.3);
+  }
+
+  void expect_survivals(const Roulette &r, const std::vector<double> &expected)
+  {
+    ASSERT_EQ(r.survivals().size(), expected.size());
+    for (std::size_t b = 0; b < expected.size(); ++b)
+      EXPECT_EQ(r.survivals()[b], expected[b]) << "bin " << b;
+  }
+
   TEST(Roulette, DefaultSolvesEveryRealisation)
   {
     const Roulette none;
@@ -47,12 +60,8 @@ namespace
   TEST(Roulette, TheFloorBoundsBinsWithoutEvents)
   {
     // Three bins of two; only the last holds an event: r = 0.3 (the floor), 0.3, 1.
-    const Roulette r =
-      Roulette::from_pilot({0.0, 1.0, 2.0, 3.0, 4.0, 5.0}, {0.0, 0.0, 0.0, 0.0, 0.0, 7.0}, 3, 0.3);
-    ASSERT_EQ(r.survivals().size(), 3u);
-    EXPECT_EQ(r.survivals()[0], 0.3);
-    EXPECT_EQ(r.survivals()[1], 0.3);
-    EXPECT_EQ(r.survivals()[2], 1.0);
+    const Roulette r = six_in_three_bins({0.0, 0.0, 0.0, 0.0, 0.0, 7.0});
+    expect_survivals(r, {0.3, 0.3, 1.0});
     EXPECT_NEAR(r.inner_edges()[0], 1.5, kRounding);
     EXPECT_NEAR(r.inner_edges()[1], 3.5, kRounding);
   }
@@ -61,12 +70,8 @@ namespace
   {
     // Bins {0, 1}, {2, 3}, {4, 5} with y² means 0, 49, 0: r = 0.3, 1, 0.3 before the cap,
     // and the last bin, above the peak, is solved always: 0.3, 1, 1.
-    const Roulette r =
-      Roulette::from_pilot({0.0, 1.0, 2.0, 3.0, 4.0, 5.0}, {0.0, 0.0, 7.0, 7.0, 0.0, 0.0}, 3, 0.3);
-    ASSERT_EQ(r.survivals().size(), 3u);
-    EXPECT_EQ(r.survivals()[0], 0.3);
-    EXPECT_EQ(r.survivals()[1], 1.0);
-    EXPECT_EQ(r.survivals()[2], 1.0);
+    const Roulette r = six_in_three_bins({0.0, 0.0, 7.0, 7.0, 0.0, 0.0});
+    expect_survivals(r, {0.3, 1.0, 1.0});
     EXPECT_EQ(r.survival(1e9), 1.0);
   }
 
