@@ -676,6 +676,10 @@ end
         options.progress         = !no_progress && Progress::stderr_is_terminal();
         options.parameters_json  = to_json(prm);
         options.parameters_prm   = to_short_prm(prm);
+        // Kept up through the closing lines too: a stop request that comes
+        // after the tables are written finds the study complete, and says so,
+        // rather than killing the process in the middle of its summary.
+        InterruptGuard late_signal_guard;
         study.run(options);
         if (root)
           {
@@ -695,6 +699,15 @@ end
             print_closing_summary(output);
             std::cout << "These are model estimates for the stated model and box, not measurements.\n";
           }
+        if (const int signal = InterruptGuard::received())
+          {
+            if (root)
+              std::cerr << "alloyspec: " << signal_name(signal)
+                        << " arrived after the tables were written: the study in '" << output
+                        << "' is complete, nothing needs resuming\n";
+            return 128 + signal;
+          }
+        InterruptGuard::hold_until_exit();
         return 0;
       }
     catch (const InputError &e)

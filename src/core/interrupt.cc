@@ -8,6 +8,10 @@ namespace alloyspec
   {
     volatile std::sig_atomic_t received_signal = 0;
     struct sigaction           previous_int{}, previous_term{};
+    // Guards nest (the run command keeps one up around the study's own): only
+    // the outermost installs and restores, so the saved dispositions are the
+    // ones from before any guard.
+    int depth = 0;
 
     extern "C" void on_signal(int signal)
     {
@@ -25,6 +29,8 @@ namespace alloyspec
 
   InterruptGuard::InterruptGuard()
   {
+    if (depth++ > 0)
+      return;
     struct sigaction action{};
     action.sa_handler = on_signal;
     sigemptyset(&action.sa_mask);
@@ -36,8 +42,17 @@ namespace alloyspec
 
   InterruptGuard::~InterruptGuard()
   {
+    if (--depth > 0)
+      return;
     sigaction(SIGINT, &previous_int, nullptr);
     sigaction(SIGTERM, &previous_term, nullptr);
+  }
+
+  void InterruptGuard::hold_until_exit()
+  {
+    // One level no destructor undoes.
+    if (depth > 0)
+      ++depth;
   }
 
   int InterruptGuard::received()

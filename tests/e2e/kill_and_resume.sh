@@ -16,27 +16,12 @@ fail() { echo "FAIL: $*"; exit 1; }
 "$exe" run "${args[@]}" --output "$work/straight" > "$work/straight.log" 2>&1 \
   || fail "uninterrupted run failed: $(cat "$work/straight.log")"
 
-# Kill moments from a fixed seed, so a failure can be replayed.
-RANDOM=20240611
+# SIGTERM first, on a fresh study, so that it lands while realisations remain:
+# finish the running realisation, store it, exit 143 with advice. (A signal
+# that comes only after the tables are written finds the study complete and
+# says so.)
 out="$work/killed"
-resume=()
-for kill in 1 2 3 4; do
-  "$exe" run "${args[@]}" --output "$out" "${resume[@]}" > "$work/kill$kill.log" 2>&1 &
-  pid=$!
-  # Count from the end of start-up (parameters echoed), which varies with load.
-  for i in $(seq 200); do grep -q "differ from the defaults" "$work/kill$kill.log" && break; sleep 0.05; done
-  delay=$(printf '%d.%03d' $((RANDOM % 2)) $((RANDOM % 1000)))
-  sleep "$delay"
-  kill -KILL "$pid" 2>/dev/null
-  wait "$pid" 2>/dev/null
-  resume=(--resume)
-  stored=0
-  [ -f "$out/realisations.csv" ] && stored=$(($(wc -l < "$out/realisations.csv") - 1))
-  echo "kill $kill after ${delay}s: $stored summary lines on disk"
-done
-
-# SIGTERM: finish the running realisation, store it, exit 143 with advice.
-"$exe" run "${args[@]}" --output "$out" --resume > "$work/term.log" 2>&1 &
+"$exe" run "${args[@]}" --output "$out" > "$work/term.log" 2>&1 &
 pid=$!
 # Signal only once the signal handlers are in place (after the parameters are echoed).
 for i in $(seq 100); do grep -q "differ from the defaults" "$work/term.log" && break; sleep 0.05; done
@@ -44,11 +29,30 @@ sleep 0.3
 kill -TERM "$pid" 2>/dev/null
 wait "$pid"; status=$?
 if [ "$status" -eq 143 ]; then
-  grep -q -- "--resume" "$work/term.log" || fail "SIGTERM message does not say how to resume: $(cat "$work/term.log")"
+  grep -q -e "--resume" -e "nothing needs resuming" "$work/term.log" || fail "SIGTERM message does not say how to resume: $(cat "$work/term.log")"
 elif [ "$status" -ne 0 ]; then
   fail "SIGTERM gave exit status $status (expected 143, or 0 if it came after the last realisation): $(cat "$work/term.log")"
 fi
 echo "SIGTERM: exit status $status"
+
+
+# Kill moments from a fixed seed, so a failure can be replayed.
+RANDOM=20240611
+for kill in 1 2 3 4; do
+  "$exe" run "${args[@]}" --output "$out" --resume > "$work/kill$kill.log" 2>&1 &
+  pid=$!
+  # Count from the end of start-up (parameters echoed), which varies with load.
+  for i in $(seq 200); do grep -q "differ from the defaults" "$work/kill$kill.log" && break; sleep 0.05; done
+  # Drawn outside the command substitution: a subshell would reseed RANDOM.
+  whole=$((RANDOM % 2)) millis=$((RANDOM % 1000))
+  delay=$(printf '%d.%03d' "$whole" "$millis")
+  sleep "$delay"
+  kill -KILL "$pid" 2>/dev/null
+  wait "$pid" 2>/dev/null
+  stored=0
+  [ -f "$out/realisations.csv" ] && stored=$(($(wc -l < "$out/realisations.csv") - 1))
+  echo "kill $kill after ${delay}s: $stored summary lines on disk"
+done
 
 # Resume until done (bounded).
 for attempt in 1 2 3; do

@@ -13,7 +13,8 @@ namespace alloyspec
    * restores the previous disposition and raises the signal again, so that an
    * impatient user can still end the process at once (the store stays
    * readable: a torn last record is ignored when the study is resumed). The
-   * previous handlers are restored on destruction.
+   * previous handlers are restored on destruction. Guards nest: an inner one
+   * changes nothing, and only the outermost restores the handlers.
    */
   class InterruptGuard
   {
@@ -23,6 +24,14 @@ namespace alloyspec
     InterruptGuard(const InterruptGuard &)            = delete;
     InterruptGuard &operator=(const InterruptGuard &) = delete;
 
+    /**
+     * Keeps the guards' handlers installed after the last guard is destroyed,
+     * for the teardown of a command that has finished its work (MPI and the
+     * solver libraries can take a noticeable time to shut down): a first
+     * signal there is only recorded and the command's status stands, while a
+     * second one still ends the process at once. No effect without a guard.
+     */
+    static void hold_until_exit();
     /** The first signal received while a guard was alive, 0 if none. */
     static int received();
     /** Forgets a received signal (tests). */
