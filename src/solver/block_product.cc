@@ -113,6 +113,18 @@ namespace alloyspec::internal
     std::optional<BorrowedRows> ghost_rows;
     if (team_ && n_ghost_ > 0)
       ghost_rows.emplace(ghost_);
+    if (b == 1)
+      {
+        // One column is the same in either storage order: no transposition,
+        // and Eigen's sparse-times-vector kernel rather than its block one,
+        // which at b = 1 took about twice as long (measured at 35,937
+        // unknowns, Q2 mass matrix).
+        Eigen::Map<Eigen::VectorXd> y(out, n);
+        y.noalias() = a * x.col(0);
+        if (ghost_rows)
+          y.noalias() += ghost_rows->view() * g.col(0);
+        return;
+      }
     // The image a slice of rows at a time, turned back to column-major while
     // the slice is in cache (no second block of n × b).
     Eigen::Map<Eigen::MatrixXd> y(out, n, b);

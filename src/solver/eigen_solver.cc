@@ -67,6 +67,17 @@ namespace alloyspec
      * 1e-14 (both far below the 1e-8 the end-to-end checks demand).
      */
     constexpr std::size_t at_cut_limit = 32;
+    /**
+     * Smallest Krylov basis before a restart at the cut (one vector at a
+     * time). Measured on binary_alloy_band_edge.prm, L = 8, Dirichlet, single
+     * solves per realisation, 8 realisations (one eigenvalue below 1.3, Q2,
+     * r = 1): basis 7 (the default 3k) 20–32, 16 to 64 all 16–20, i.e. no
+     * restart at all; 4 eigenvalues below 1.6: 7 → 29–36, 24 or 48 → 25–28;
+     * 6–7 below 2.0: 21 → 40–45, 24 → 38–43, 48 → 36–40. A column of the
+     * basis costs one n-vector of memory and n·m flops of orthogonalisation
+     * per step, little beside a solve.
+     */
+    constexpr unsigned int at_cut_basis = 48;
   } // namespace
 
   EigenSolver::EigenSolver(EigenSolverSettings settings)
@@ -437,6 +448,14 @@ namespace alloyspec
       // 2.5–3.1 against 2.3–2.9, 12–13 below 5.3–5.9 against 7.8; blocks of
       // 2 and 4 were no faster there and once took 192 and 3,430 columns.
       block.block_size = place == ShiftPlace::at_cut ? 1u : block_size_for(block.n_wanted);
+      // At the cut, a basis of at least at_cut_basis columns before the first
+      // restart: the default 3k (7 columns for one pair) restarted every five
+      // solves and lost the Krylov space that single-vector Lanczos needs.
+      // (A small problem keeps what fits: a basis and one block, at most its unknowns.)
+      if (place == ShiftPlace::at_cut)
+        block.max_basis = std::max(
+          3 * block.n_wanted,
+          static_cast<unsigned int>(std::min<PetscInt>(at_cut_basis, std::max<PetscInt>(n_global - 1, 0))));
       // At the cut, exactly the wanted pairs have θ > 0: a pair beyond them
       // would be one above the cut, which the check below rejects anyway.
       block.tolerance  = settings.tolerance;
