@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstring>
+#include <memory>
 #include <numeric>
 #include <stdexcept>
 #include <string>
@@ -90,13 +91,46 @@ namespace alloyspec
     class Basis
     {
     public:
-      Basis(const BlockOperator &op, std::size_t capacity, std::uint64_t seed)
-        : op_(op), n_(op.n_local), capacity_(capacity), seed_(seed),
-          v_(n_ * capacity), mv_(n_ * capacity), h_(capacity * capacity, 0.0)
+      /** @p block: the widest block normalise() is given. */
+      Basis(const BlockOperator &op, std::size_t capacity, std::size_t block, std::uint64_t seed)
+        : op_(op), n_(op.n_local), capacity_(capacity), block_(block), seed_(seed),
+          // Not zero-filled: every column is written before it is read, and
+          // at a few hundred columns of 10⁵ rows a fill is a pass over a
+          // gigabyte (perf, L = 12, k = 200: value-initialisation and its page
+          // faults were a tenth of the eigen-solve).
+          v_(new double[n_ * capacity]), mv_(new double[n_ * capacity]),
+          w_(new double[n_ * block]), mw_(new double[n_ * block]),
+          h_(capacity * capacity, 0.0)
       {}
 
-      double *v(std::size_t column) { return v_.data() + n_ * column; }
-      double *mv(std::size_t column) { return mv_.data() + n_ * column; }
+      double *v(std::size_t column) { return v_.get() + n_ * column; }
+      double *mv(std::size_t column) { return mv_.get() + n_ * column; }
+
+      /**
+       * Thick restart in place: columns [0, kept) of V and of MV become
+       * V_m Y and MV_m Y (Y: m × kept, column-major), and the block
+       * [m, m+b) moves to [kept, kept+b). A row of V Y needs only the same
+       * row of V, so the product is formed a slab of rows at a time in a
+       * small buffer and written back over V, instead of into two new
+       * n × kept arrays (at L = 12, k = 200 these were 0.6 GB a restart,
+       * allocated and faulted in every time).
+       */
+      void restart(std::size_t m, std::size_t kept, std::size_t b, const double *y)
+      {
+        constexpr std::size_t slab = 256;
+        std::vector<double>   part(slab * kept);
+        for (double *base : {v_.get(), mv_.get()})
+          {
+            for (std::size_t r0 = 0; r0 < n_; r0 += slab)
+              {
+                const std::size_t h = std::min(slab, n_ - r0);
+                gemm('N', 'N', h, kept, m, 1.0, base + r0, n_, y, m, 0.0, part.data(), h);
+                for (std::size_t j = 0; j < kept; ++j)
+                  std::memcpy(base + r0 + n_ * j, part.data() + h * j, sizeof(double) * h);
+              }
+            std::memmove(base + n_ * kept, base + n_ * m, sizeof(double) * n_ * b);
+          }
+      }
       double &h(std::size_t i, std::size_t j) { return h_[i + capacity_ * j]; }
       std::size_t n() const { return n_; }
 
@@ -191,6 +225,8 @@ namespace alloyspec
       std::vector<double> normalise(std::size_t c, std::size_t b, std::uint64_t &draws,
                                     bool mass_given = false)
       {
+        if (b > block_)
+          throw std::logic_error("block Krylov-Schur: a block wider than the basis was made for");
         if (!mass_given)
           op_.mass(v(c), mv(c), unsigned(b));
         std::vector<double> r(b * b, 0.0);
@@ -219,11 +255,10 @@ namespace alloyspec
                     r_pass[j + b * i] = keep ? std::sqrt(s[j]) * g[i + b * j] : 0.0;
                   }
               }
-            std::vector<double> w(n_ * b), mw(n_ * b);
-            gemm('N', 'N', n_, b, b, 1.0, v(c), n_, scaled.data(), b, 0.0, w.data(), n_);
-            gemm('N', 'N', n_, b, b, 1.0, mv(c), n_, scaled.data(), b, 0.0, mw.data(), n_);
-            std::memcpy(v(c), w.data(), sizeof(double) * w.size());
-            std::memcpy(mv(c), mw.data(), sizeof(double) * mw.size());
+            gemm('N', 'N', n_, b, b, 1.0, v(c), n_, scaled.data(), b, 0.0, w_.get(), n_);
+            gemm('N', 'N', n_, b, b, 1.0, mv(c), n_, scaled.data(), b, 0.0, mw_.get(), n_);
+            std::memcpy(v(c), w_.get(), sizeof(double) * n_ * b);
+            std::memcpy(mv(c), mw_.get(), sizeof(double) * n_ * b);
             if (std::find(replaced.begin(), replaced.end(), true) != replaced.end())
               replace_lost(c, b, replaced, draws);
             // R = R_pass R.
@@ -282,9 +317,10 @@ namespace alloyspec
       }
 
       const BlockOperator &op_;
-      std::size_t          n_, capacity_;
+      std::size_t          n_, capacity_, block_;
       std::uint64_t        seed_;
-      std::vector<double>  v_, mv_, h_;
+      std::unique_ptr<double[]> v_, mv_, w_, mw_;
+      std::vector<double>       h_;
       std::size_t          full_passes_ = 0;
     };
   } // namespace
@@ -309,7 +345,7 @@ namespace alloyspec
                                   " unknowns) is too small for " + std::to_string(ncv + b) +
                                   " basis vectors");
 
-    Basis         basis(op, ncv + b, settings.seed);
+    Basis         basis(op, ncv + b, b, settings.seed);
     std::uint64_t draws = 0;
     basis.randomise(0, b, 0);
     // The first column gets a constant part: the lowest eigenfunction of a
@@ -405,11 +441,11 @@ namespace alloyspec
 
         const bool done = n_converged >= k || cycle >= settings.max_restarts;
         const std::size_t kept = done ? std::min(k, m) : keep;
-        // X = V_m Y_kept, and its M-image.
-        std::vector<double> x(n * kept), mx(n * kept);
-        gemm('N', 'N', n, kept, m, 1.0, basis.v(0), n, y.data(), m, 0.0, x.data(), n);
         if (done)
           {
+            // X = V_m Y_kept, the returned vectors.
+            std::vector<double> x(n * kept);
+            gemm('N', 'N', n, kept, m, 1.0, basis.v(0), n, y.data(), m, 0.0, x.data(), n);
             const std::size_t reported = n_converged >= k ? k : n_converged;
             result.converged = n_converged >= k;
             result.theta.assign(theta.begin(), theta.begin() + reported);
@@ -420,12 +456,8 @@ namespace alloyspec
             result.full_passes = basis.full_passes();
             return result;
           }
-        gemm('N', 'N', n, kept, m, 1.0, basis.mv(0), n, y.data(), m, 0.0, mx.data(), n);
         // Thick restart: [X_kept, Q] with T X = X Θ + Q (B E^T Y).
-        std::memmove(basis.v(kept), basis.v(m), sizeof(double) * n * b);
-        std::memmove(basis.mv(kept), basis.mv(m), sizeof(double) * n * b);
-        std::memcpy(basis.v(0), x.data(), sizeof(double) * x.size());
-        std::memcpy(basis.mv(0), mx.data(), sizeof(double) * mx.size());
+        basis.restart(m, kept, b, y.data());
         basis.clear_h();
         for (std::size_t j = 0; j < kept; ++j)
           {

@@ -81,10 +81,13 @@ namespace alloyspec::internal
   void BlockProduct::operator()(const double *in, double *out, const unsigned int b) const
   {
     const auto n = static_cast<Eigen::Index>(n_local_);
-    // Allocated per call, not kept: between products the eigen-solver's own
-    // blocks need the memory (one block of n × b is what PETSc's product
-    // allocated for its result, too).
-    RowBlock x = Eigen::Map<const Eigen::MatrixXd>(in, n, b);
+    // The row-major copy of the block is kept between calls: one block of
+    // n × b beside a basis of hundreds of columns, and allocating it afresh
+    // faulted its pages in on every product (perf, L = 12, k = 200).
+    if (rows_scratch_.size() < std::size_t(n) * b)
+      rows_scratch_.resize(std::size_t(n) * b);
+    Eigen::Map<RowBlock> x(rows_scratch_.data(), n, b);
+    x = Eigen::Map<const Eigen::MatrixXd>(in, n, b);
     RowBlock g;
     if (team_)
       {

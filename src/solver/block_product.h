@@ -7,6 +7,7 @@
 #include "petsc_handle.h"
 
 #include <map>
+#include <vector>
 
 namespace alloyspec::internal
 {
@@ -48,5 +49,7 @@ namespace alloyspec::internal
     PetscInt                    n_local_ = 0, n_ghost_ = 0;
     bool                        team_    = false;
     mutable std::map<unsigned int, OwnedScatter> scatters_;
+    /** The block in row-major order, kept for the next product. */
+    mutable std::vector<double>                  rows_scratch_;
   };
 } // namespace alloyspec::internal
