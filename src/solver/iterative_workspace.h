@@ -1,7 +1,7 @@
 /** @file iterative_workspace.h  What the iterative path keeps per problem (solver sources only). */
 #pragma once
 
-#include "shifted_amg.h"
+#include "block_amg.h"
 
 #include <alloyspec/solver/eigen_solver.h>
 
@@ -23,9 +23,9 @@ namespace alloyspec
     const SpectralProblem *problem = nullptr;
   };
 
-  /** The AMG hierarchy of K − σM, its matrix pattern kept across realisations. */
+  /** The AMG hierarchy of K − σM, its matrix graph kept across realisations. */
   struct EigenSolver::IterativeWorkspace
   {
-    internal::ShiftedAmg amg;
+    internal::BlockAmg amg;
   };
 } // namespace alloyspec

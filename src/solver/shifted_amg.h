@@ -1,7 +1,8 @@
 /**
  * @file shifted_amg.h  Algebraic multigrid for K − σM (Trilinos ML through
- * deal.II); source-private to the solver layer, the one place that names
- * Trilinos (its types stay in shifted_amg.cc).
+ * deal.II), one vector per cycle: the landscape's conjugate gradients (the
+ * eigen-solver's blocks go through block_amg.h). Source-private to the solver
+ * layer; its Trilinos types stay in shifted_amg.cc.
  */
 #pragma once
 
