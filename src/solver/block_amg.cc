@@ -27,8 +27,8 @@ namespace alloyspec::internal
     using TOperator   = Tpetra::Operator<double, Ordinal, GlobalIndex, Node>;
     using Cycle       = MueLu::TpetraOperator<double, Ordinal, GlobalIndex, Node>;
 
-    /** Columns per cycle (block_amg.h says why a fixed number, and why 13). */
-    constexpr unsigned int cycle_width = 13;
+    /** Columns per cycle (block_amg.h says why a fixed number, and why 8). */
+    constexpr unsigned int cycle_width = 8;
   } // namespace
 
   struct BlockAmg::Impl

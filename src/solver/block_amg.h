@@ -21,12 +21,14 @@ namespace alloyspec::internal
    * K (PETSc's object id) and its nonzero pattern stay the same, so a new
    * realisation costs a refill of values and the hierarchy's set-up.
    *
-   * Every cycle runs 13 columns, a block of another width in chunks of 13,
+   * Every cycle runs 8 columns, a block of another width in chunks of 8,
    * the last padded with zero columns: Ifpack2's Chebyshev smoother in
    * Trilinos 13.2 keeps a residual block of the width of its first call and
    * fails on any other. Measured at L = 24 (Q2, k = 20, a block of 25, 54
    * iterations at every width), seconds of the eigen-solve: width 4: 33.3,
-   * 8: 31.3, 13: 31.1, 25: 33.6. The prolongator is smoothed with the
+   * 8: 31.3, 13: 31.1, 25: 33.6; at L = 48 (912,673 unknowns) width 8 took
+   * 351.4 s and 7760 MiB at its high-water mark, 13 took 363.7 and 368.1 s
+   * and 8011 MiB (the cycle's work blocks scale with the width). The prolongator is smoothed with the
    * dropped (filtered) matrix: unfiltered took 30.5 and 30.0 s against 28.8
    * and 28.4 s.
    *
