@@ -1,6 +1,7 @@
 #include "block_amg.h"
 
 #include "petsc_handle.h"
+#include "shifted_rows.h"
 
 #include <MueLu_CreateTpetraPreconditioner.hpp>
 #include <Teuchos_DefaultMpiComm.hpp>
@@ -73,8 +74,6 @@ namespace alloyspec::internal
         s.pattern = pattern;
       }
 
-    std::vector<GlobalIndex> columns;
-    std::vector<double>      values;
     if (s.shifted.is_null())
       {
         // Tpetra allocates each row once, so count the entries first.
@@ -91,32 +90,17 @@ namespace alloyspec::internal
       }
     else
       s.shifted->resumeFill();
-    for (PetscInt i = s.first; i < s.last; ++i)
-      {
-        PetscInt           nk = 0, nm = 0;
-        const PetscInt    *kc = nullptr, *mc = nullptr;
-        const PetscScalar *kv = nullptr, *mv = nullptr;
-        ALLOYSPEC_CHECK(MatGetRow(K, i, &nk, &kc, &kv));
-        ALLOYSPEC_CHECK(MatGetRow(M, i, &nm, &mc, &mv));
-        const bool aligned = nk == nm && std::equal(kc, kc + nk, mc);
-        if (aligned)
-          {
-            columns.assign(kc, kc + nk);
-            values.resize(static_cast<std::size_t>(nk));
-            for (PetscInt c = 0; c < nk; ++c)
-              values[std::size_t(c)] = kv[c] - sigma * mv[c];
-          }
-        ALLOYSPEC_CHECK(MatRestoreRow(M, i, &nm, &mc, &mv));
-        ALLOYSPEC_CHECK(MatRestoreRow(K, i, &nk, &kc, &kv));
-        if (!aligned)
-          throw std::runtime_error("algebraic multigrid: K and M do not share one sparsity pattern");
-        const Teuchos::ArrayView<const GlobalIndex> cv(columns.data(), Ordinal(columns.size()));
-        const Teuchos::ArrayView<const double>      vv(values.data(), Ordinal(values.size()));
-        if (new_graph)
-          s.shifted->insertGlobalValues(GlobalIndex(i), cv, vv);
-        else
-          s.shifted->replaceGlobalValues(GlobalIndex(i), cv, vv);
-      }
+    std::vector<GlobalIndex> columns;
+    for_each_shifted_row(K, M, sigma,
+                         [&](PetscInt i, const std::vector<PetscInt> &row, const std::vector<double> &values) {
+                           columns.assign(row.begin(), row.end());
+                           const Teuchos::ArrayView<const GlobalIndex> cv(columns.data(), Ordinal(columns.size()));
+                           const Teuchos::ArrayView<const double>      vv(values.data(), Ordinal(values.size()));
+                           if (new_graph)
+                             s.shifted->insertGlobalValues(GlobalIndex(i), cv, vv);
+                           else
+                             s.shifted->replaceGlobalValues(GlobalIndex(i), cv, vv);
+                         });
     s.shifted->fillComplete();
 
     Teuchos::ParameterList p;

@@ -1,5 +1,6 @@
 #include "petsc_handle.h"
 #include "shifted_amg.h"
+#include "shifted_rows.h"
 
 #include <deal.II/base/index_set.h>
 #include <deal.II/lac/trilinos_precondition.h>
@@ -45,7 +46,6 @@ namespace alloyspec::internal
     ALLOYSPEC_CHECK(MatGetOwnershipRange(K, &s.first, &s.last));
 
     std::vector<dealii::types::global_dof_index> columns;
-    std::vector<double>                          values;
     if (k_id != s.k_id || pattern != s.pattern)
       {
         dealii::IndexSet owned(static_cast<dealii::types::global_dof_index>(n));
@@ -70,29 +70,12 @@ namespace alloyspec::internal
         s.k_id    = k_id;
         s.pattern = pattern;
       }
-    for (PetscInt i = s.first; i < s.last; ++i)
-      {
-        PetscInt           nk = 0, nm = 0;
-        const PetscInt    *kc = nullptr, *mc = nullptr;
-        const PetscScalar *kv = nullptr, *mv = nullptr;
-        ALLOYSPEC_CHECK(MatGetRow(K, i, &nk, &kc, &kv));
-        ALLOYSPEC_CHECK(MatGetRow(M, i, &nm, &mc, &mv));
-        // K and M share one pattern (SpectralProblem), so the rows align.
-        const bool aligned = nk == nm && std::equal(kc, kc + nk, mc);
-        if (aligned)
-          {
-            columns.assign(kc, kc + nk);
-            values.resize(static_cast<std::size_t>(nk));
-            for (PetscInt c = 0; c < nk; ++c)
-              values[std::size_t(c)] = kv[c] - sigma * mv[c];
-          }
-        ALLOYSPEC_CHECK(MatRestoreRow(M, i, &nm, &mc, &mv));
-        ALLOYSPEC_CHECK(MatRestoreRow(K, i, &nk, &kc, &kv));
-        if (!aligned)
-          throw std::runtime_error("algebraic multigrid: K and M do not share one sparsity pattern");
-        s.shifted.set(static_cast<dealii::types::global_dof_index>(i), columns.size(), columns.data(),
-                      values.data(), false);
-      }
+    for_each_shifted_row(K, M, sigma,
+                         [&](PetscInt i, const std::vector<PetscInt> &row, const std::vector<double> &values) {
+                           columns.assign(row.begin(), row.end());
+                           s.shifted.set(static_cast<dealii::types::global_dof_index>(i), columns.size(),
+                                         columns.data(), values.data(), false);
+                         });
     s.shifted.compress(dealii::VectorOperation::insert);
 
     dealii::TrilinosWrappers::PreconditionAMG::AdditionalData data;
